@@ -1,0 +1,45 @@
+"""Exceptions raised by featuresift.
+
+:class:`InputError` is the one error type for bad input (config, data, costs,
+options). Its message names the problem and its place (YAML key and line, column or
+feature); the command-line tool prints it on one line and exits with code 2.
+"""
+
+from __future__ import annotations
+
+__all__ = ["InputError", "FitFailedError"]
+
+
+class InputError(ValueError):
+    """Bad user input, with a message that names its place.
+
+    Parameters
+    ----------
+    message : str
+        What is wrong.
+    key : str, optional
+        Dotted config key (``"costs.panels.mycotoxins"``) the problem belongs to.
+    line : int, optional
+        1-based line of that key in the YAML file, when known.
+
+    Examples
+    --------
+    >>> str(InputError("cost must be >= 0", key="costs.features.moisture", line=12))
+    'costs.features.moisture (line 12): cost must be >= 0'
+    """
+
+    def __init__(self, message: str, key: str | None = None, line: int | None = None):
+        self.message = message
+        self.key = key
+        self.line = line
+        super().__init__(self._format())
+
+    def _format(self) -> str:
+        if self.key is None:
+            return self.message
+        where = self.key if self.line is None else f"{self.key} (line {self.line})"
+        return f"{where}: {self.message}"
+
+
+class FitFailedError(RuntimeError):
+    """A model fit failed while the failure policy was ``"raise"``."""

@@ -1,0 +1,168 @@
+"""The selection problem: data, names, cost model, model, CV splits and scorer.
+
+A :class:`SelectionProblem` is everything an evaluator needs, fixed once: the CV
+splits are materialised at construction so that every subset is scored on exactly
+the same folds, and a fingerprint identifies the problem for caching and journals.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from collections.abc import Callable, Sequence
+from typing import Any
+
+import numpy as np
+from sklearn.base import BaseEstimator, clone, is_classifier
+from sklearn.metrics import check_scoring, get_scorer_names
+from sklearn.model_selection import check_cv
+
+from featuresift.costs import CostModel
+from featuresift.errors import InputError
+
+__all__ = ["SelectionProblem"]
+
+
+def _as_2d_float(X: Any) -> tuple[np.ndarray, list[str] | None]:
+    names = None
+    if hasattr(X, "columns"):
+        names = [str(c) for c in X.columns]
+        X = X.to_numpy()
+    try:
+        arr = np.asarray(X, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"X must be numeric: {exc}") from None
+    if arr.ndim != 2:
+        raise InputError(f"X must be 2-dimensional, got shape {arr.shape}")
+    return np.ascontiguousarray(arr), names
+
+
+class SelectionProblem:
+    """Data, costs, model, CV splits and scorer for a subset search.
+
+    Parameters
+    ----------
+    X : array-like or DataFrame of shape (n_samples, n_features)
+        Candidate measurements. Missing values (NaN) are allowed if the estimator
+        (or its preprocessing) handles them.
+    y : array-like of shape (n_samples,)
+        Target.
+    estimator : scikit-learn estimator
+        Model (or pipeline) fitted on each subset; it is cloned for every fit.
+    cost_model : CostModel, optional
+        Acquisition costs. Default: every feature costs 1 (unit "features").
+    cv : int, CV splitter or iterable of (train, test), default=5
+        Cross-validation, resolved with :func:`sklearn.model_selection.check_cv`
+        (stratified for classifiers). The splits are computed once.
+    scoring : str or callable, optional
+        A scikit-learn scorer name, or a callable ``scorer(estimator, X, y)``.
+        Default: the estimator's ``score`` method.
+    groups : array-like, optional
+        Group labels for grouped splitters.
+    feature_names : sequence of str, optional
+        Column names (taken from a DataFrame when not given).
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> from sklearn.tree import DecisionTreeClassifier
+    >>> X, y = load_iris(return_X_y=True)
+    >>> p = SelectionProblem(X, y, DecisionTreeClassifier(random_state=0), cv=3)
+    >>> p.n_features, len(p.splits)
+    (4, 3)
+    """
+
+    def __init__(
+        self,
+        X: Any,
+        y: Any,
+        estimator: BaseEstimator,
+        cost_model: CostModel | None = None,
+        cv: Any = 5,
+        scoring: str | Callable | None = None,
+        groups: Any = None,
+        feature_names: Sequence[str] | None = None,
+    ) -> None:
+        X_arr, df_names = _as_2d_float(X)
+        names = list(feature_names) if feature_names is not None else df_names
+        if names is None:
+            names = [f"x{i}" for i in range(X_arr.shape[1])]
+        if len(names) != X_arr.shape[1]:
+            raise InputError(
+                f"{len(names)} feature names given for {X_arr.shape[1]} columns of X"
+            )
+        y_arr = np.asarray(y)
+        if y_arr.ndim != 1 or y_arr.shape[0] != X_arr.shape[0]:
+            raise InputError(
+                f"y must be 1-dimensional with {X_arr.shape[0]} values, got shape {y_arr.shape}"
+            )
+        if not hasattr(estimator, "fit"):
+            raise InputError(f"estimator must have a fit method, got {estimator!r}")
+        self.classification = bool(is_classifier(estimator))
+        if self.classification and np.unique(y_arr).size < 2:
+            raise InputError(
+                "the classification target has a single class "
+                f"({np.unique(y_arr)[0]!r}); at least two are needed"
+            )
+        self.X = X_arr
+        self.y = y_arr
+        self.groups = None if groups is None else np.asarray(groups)
+        self.feature_names = [str(n) for n in names]
+        self.estimator = estimator
+        self.cost_model = cost_model if cost_model is not None else CostModel.uniform(names)
+        if list(self.cost_model.feature_names) != self.feature_names:
+            raise InputError("the cost model's features must be the columns of X, in order")
+        if isinstance(scoring, str) and scoring not in get_scorer_names():
+            raise InputError(
+                f"unknown scorer '{scoring}'; use a scikit-learn scorer name "
+                "(sklearn.metrics.get_scorer_names())"
+            )
+        self.scoring = scoring
+        self.scorer = check_scoring(estimator, scoring=scoring)
+        splitter = check_cv(cv, y_arr, classifier=self.classification)
+        self.cv = splitter
+        self.splits: list[tuple[np.ndarray, np.ndarray]] = [
+            (np.asarray(tr), np.asarray(te))
+            for tr, te in splitter.split(X_arr, y_arr, self.groups)
+        ]
+        if not self.splits:
+            raise InputError("the cross-validation produced no splits")
+        self._fingerprint: str | None = None
+
+    @property
+    def n_features(self) -> int:
+        """Number of candidate features."""
+        return self.X.shape[1]
+
+    @property
+    def n_samples(self) -> int:
+        """Number of samples."""
+        return self.X.shape[0]
+
+    def new_estimator(self) -> BaseEstimator:
+        """An unfitted clone of the estimator."""
+        return clone(self.estimator)
+
+    def fingerprint(self) -> str:
+        """Hex digest identifying data, estimator and parameters, splits and scorer.
+
+        Two problems with the same fingerprint score every subset identically, so
+        cached or journaled evaluations may be shared between them.
+        """
+        if self._fingerprint is None:
+            h = hashlib.sha256()
+            h.update(b"featuresift-problem-v1")
+            h.update(str(self.X.shape).encode())
+            h.update(np.ascontiguousarray(self.X).tobytes())
+            h.update(np.asarray(self.y).astype(str).astype("U").tobytes())
+            h.update(repr(type(self.estimator)).encode())
+            params = self.estimator.get_params(deep=True)
+            h.update(json.dumps({k: repr(v) for k, v in sorted(params.items())}).encode())
+            for tr, te in self.splits:
+                h.update(np.asarray(tr, dtype=np.int64).tobytes())
+                h.update(b"|")
+                h.update(np.asarray(te, dtype=np.int64).tobytes())
+                h.update(b"#")
+            h.update(repr(self.scoring if isinstance(self.scoring, str) else self.scorer).encode())
+            self._fingerprint = h.hexdigest()
+        return self._fingerprint

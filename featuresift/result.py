@@ -1,0 +1,268 @@
+"""The outcome of a search: chosen measurements, cost, score, path and bookkeeping."""
+
+from __future__ import annotations
+
+import csv
+import json
+import math
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from featuresift.costs import CostLine
+
+__all__ = ["SearchResult", "PathRow"]
+
+
+@dataclass(frozen=True)
+class PathRow:
+    """One step of the search path, in names.
+
+    Attributes
+    ----------
+    step, action, feature, features, n_features, score_mean, score_std, cost, objective,
+    n_evaluations
+        See :class:`featuresift.strategies.base.PathStep`.
+    """
+
+    step: int
+    action: str
+    feature: str | None
+    features: tuple[str, ...]
+    score_mean: float
+    score_std: float
+    cost: float
+    objective: float
+    n_evaluations: int
+
+
+def _num(x: float) -> float | None:
+    return None if x is None or (isinstance(x, float) and not math.isfinite(x)) else x
+
+
+@dataclass
+class SearchResult:
+    """What a search found.
+
+    Attributes
+    ----------
+    selected : list of str
+        Chosen feature names, in column order.
+    support : list of int
+        Their column indices.
+    cost : float
+        Acquisition cost per sample of the chosen subset.
+    cost_unit : str
+        Unit of all costs.
+    cost_breakdown : list of CostLine
+        Which panel or feature costs what.
+    budget : float or None
+        The budget searched under.
+    score_mean, score_std : float
+        Mean and sample standard deviation (ddof=1) of the CV scores of the subset.
+    fold_scores : list of float
+        Score on each CV split.
+    scoring : str
+        Name of the scorer.
+    objective : dict
+        The objective used and the chosen subset's value.
+    strategy : dict
+        Strategy name and options.
+    path : list of PathRow
+        Steps of the search, in order.
+    n_evaluations : int
+        Distinct subsets evaluated by this search.
+    n_fits : int
+        Model fits performed by the evaluator.
+    n_cache_hits : int
+        Requests answered without fitting.
+    wall_time : float
+        Seconds.
+    stop_reason : str
+        Why the search stopped.
+    success : bool
+        False when no allowed subset was found or a limit stopped the search.
+
+    Notes
+    -----
+    The CV score of the chosen subset is the score the search maximised, so it is
+    optimistically biased as an estimate of performance on new data. Use
+    nested cross-validation (re-running the whole search inside outer folds) for an
+    honest estimate.
+    """
+
+    selected: list[str]
+    support: list[int]
+    cost: float
+    cost_unit: str
+    cost_breakdown: list[CostLine]
+    budget: float | None
+    score_mean: float
+    score_std: float
+    fold_scores: list[float]
+    scoring: str
+    objective: dict
+    strategy: dict
+    path: list[PathRow]
+    n_evaluations: int
+    n_fits: int
+    n_cache_hits: int
+    wall_time: float
+    stop_reason: str
+    success: bool = True
+    extras: dict[str, Any] = field(default_factory=dict)
+
+    # ------------------------------------------------------------- conversion
+    def to_dict(self) -> dict:
+        """JSON-ready dictionary of the whole result."""
+        return {
+            "selected": list(self.selected),
+            "support": list(self.support),
+            "cost": self.cost,
+            "cost_unit": self.cost_unit,
+            "cost_breakdown": [
+                {"item": c.item, "kind": c.kind, "features": list(c.features), "cost": c.cost}
+                for c in self.cost_breakdown
+            ],
+            "budget": self.budget,
+            "score": {
+                "scoring": self.scoring,
+                "mean": _num(self.score_mean),
+                "std": _num(self.score_std),
+                "folds": [_num(s) for s in self.fold_scores],
+            },
+            "objective": self.objective,
+            "strategy": self.strategy,
+            "path": [
+                {
+                    "step": r.step, "action": r.action, "feature": r.feature,
+                    "features": list(r.features), "score_mean": _num(r.score_mean),
+                    "score_std": _num(r.score_std), "cost": r.cost,
+                    "objective": _num(r.objective), "n_evaluations": r.n_evaluations,
+                }
+                for r in self.path
+            ],
+            "n_evaluations": self.n_evaluations,
+            "n_fits": self.n_fits,
+            "n_cache_hits": self.n_cache_hits,
+            "wall_time_s": self.wall_time,
+            "stop_reason": self.stop_reason,
+            "success": self.success,
+            **({"extras": self.extras} if self.extras else {}),
+        }
+
+    def to_json(self, indent: int = 2) -> str:
+        """The result as a JSON string."""
+        return json.dumps(self.to_dict(), indent=indent, allow_nan=False)
+
+    def path_frame(self):
+        """The path as a pandas DataFrame (one row per step)."""
+        import pandas as pd
+
+        rows = self.to_dict()["path"]
+        for r in rows:
+            r["features"] = " + ".join(r["features"])
+        return pd.DataFrame(rows)
+
+    def write(self, folder: str | os.PathLike) -> list[Path]:
+        """Write ``result.json``, ``selected.csv`` and ``path.csv`` into ``folder``.
+
+        Files are written to temporary names first and renamed at the end, so a
+        failure never leaves half a result. Returns the paths written.
+        """
+        out = Path(folder)
+        out.mkdir(parents=True, exist_ok=True)
+        files: dict[str, str] = {"result.json": self.to_json() + "\n"}
+        files["selected.csv"] = _csv(
+            ["feature", "column", "paid_by", "line_cost", "cost_unit"],
+            [
+                [name, col, *self._paid_by(name), self.cost_unit]
+                for name, col in zip(self.selected, self.support)
+            ],
+        )
+        files["path.csv"] = _csv(
+            ["step", "action", "feature", "n_features", "features", "score_mean",
+             "score_std", "cost", "objective", "n_evaluations"],
+            [
+                [r.step, r.action, r.feature or "", len(r.features), " + ".join(r.features),
+                 _fmt(r.score_mean), _fmt(r.score_std), _fmt(r.cost), _fmt(r.objective),
+                 r.n_evaluations]
+                for r in self.path
+            ],
+        )
+        written = []
+        tmp_paths = []
+        try:
+            for name, text in files.items():
+                tmp = out / f".{name}.tmp"
+                tmp.write_text(text, encoding="utf-8")
+                tmp_paths.append((tmp, out / name))
+            for tmp, final in tmp_paths:
+                os.replace(tmp, final)
+                written.append(final)
+        finally:
+            for tmp, _ in tmp_paths:
+                if tmp.exists():
+                    tmp.unlink()
+        return written
+
+    def _paid_by(self, name: str) -> tuple[str, str]:
+        for line in self.cost_breakdown:
+            if name in line.features:
+                return (line.item, _fmt(line.cost))
+        return ("", "")
+
+    def summary(self) -> str:
+        """A readable multi-line report (what the CLI prints)."""
+        u = self.cost_unit
+        lines = []
+        budget = "unlimited" if self.budget is None else f"{self.budget:g} {u}"
+        lines.append(f"Strategy: {self.strategy.get('name')}   budget: {budget}   "
+                     f"scoring: {self.scoring}")
+        lines.append("")
+        lines.append(f"Chosen measurements ({len(self.selected)}):")
+        width = max([len(c.item) for c in self.cost_breakdown] + [10])
+        for c in self.cost_breakdown:
+            what = c.item if c.kind == "feature" else f"{c.item} [panel: {', '.join(c.features)}]"
+            lines.append(f"  {what:<{width}}  {c.cost:>10.2f} {u}")
+        lines.append(f"  {'TOTAL':<{width}}  {self.cost:>10.2f} {u} per sample")
+        lines.append("")
+        folds = ", ".join(f"{s:.4f}" for s in self.fold_scores)
+        lines.append(f"CV {self.scoring}: {self.score_mean:.4f} ± {self.score_std:.4f} "
+                     f"(sample std over {len(self.fold_scores)} folds)")
+        lines.append(f"  per fold: {folds}")
+        lines.append("")
+        lines.append("Path:")
+        lines.append(f"  {'step':>4}  {'action':<8} {'feature':<24} {'n':>3} "
+                     f"{'score':>8} {'cost':>9}")
+        for r in self.path:
+            lines.append(
+                f"  {r.step:>4}  {r.action:<8} {(r.feature or '-'):<24} {len(r.features):>3} "
+                f"{r.score_mean:>8.4f} {r.cost:>9.2f}"
+            )
+        lines.append("")
+        lines.append(
+            f"{self.n_evaluations} subsets evaluated, {self.n_fits} model fits, "
+            f"{self.wall_time:.2f} s; stopped: {self.stop_reason}"
+        )
+        return "\n".join(lines)
+
+    def __str__(self) -> str:
+        return self.summary()
+
+
+def _fmt(x: float | None) -> str:
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return ""
+    return repr(float(x))
+
+
+def _csv(header: list[str], rows: list[list[Any]]) -> str:
+    import io
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(header)
+    w.writerows(rows)
+    return buf.getvalue()

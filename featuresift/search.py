@@ -1,0 +1,207 @@
+"""The search driver: problem or evaluator + strategy + budget → :class:`SearchResult`."""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable, Iterable
+from typing import Any
+
+from featuresift.costs import CostModel
+from featuresift.errors import InputError
+from featuresift.evaluator import BaseEvaluator, CrossValidationEvaluator
+from featuresift.objectives import BaseObjective, make_objective
+from featuresift.problem import SelectionProblem
+from featuresift.result import PathRow, SearchResult
+from featuresift.strategies.base import (
+    Scored,
+    SearchSpace,
+    SearchStrategy,
+    StopSearch,
+    make_strategy,
+)
+
+__all__ = ["run_search", "PICK_RULES"]
+
+PICK_RULES = ("best", "one_se")
+"""Final pick rules: the best subset found, or the cheapest within one standard error of it."""
+
+
+def _resolve_features(items: Iterable[int | str], names: list[str], key: str) -> list[int]:
+    index = {n: i for i, n in enumerate(names)}
+    out = []
+    for it in items:
+        if isinstance(it, str):
+            if it not in index:
+                raise InputError(f"unknown feature '{it}'", key=key)
+            out.append(index[it])
+        else:
+            i = int(it)
+            if not 0 <= i < len(names):
+                raise InputError(f"column index {i} out of range", key=key)
+            out.append(i)
+    return out
+
+
+def _pick(space: SearchSpace, rule: str) -> Scored | None:
+    allowed = [s for s in space.visited.values() if s.complete and space.is_allowed(s.subset)]
+    if space.chosen is not None and space.chosen in space.visited:
+        base = space.visited[space.chosen]
+    else:
+        base = space.best_of(allowed)
+    if base is None or rule == "best":
+        return base
+    threshold = base.mean - base.evaluation.sem
+    close = [s for s in allowed if s.mean >= threshold]
+    return min(close, key=lambda s: (round(s.cost, 12), -s.value, len(s.subset), s.subset))
+
+
+def run_search(
+    problem: SelectionProblem | BaseEvaluator,
+    strategy: str | dict | SearchStrategy = "forward",
+    *,
+    cost_model: CostModel | None = None,
+    budget: float | None = None,
+    objective: str | dict | BaseObjective | None = None,
+    max_features: int | None = None,
+    max_evaluations: int | None = None,
+    max_time: float | None = None,
+    must_include: Iterable[int | str] = (),
+    never_include: Iterable[int | str] = (),
+    pick: str = "best",
+    random_state: int | None = 0,
+    n_jobs: int | None = None,
+    callback: Callable | None = None,
+    **strategy_options: Any,
+) -> SearchResult:
+    """Search feature subsets and return the chosen measurements.
+
+    Parameters
+    ----------
+    problem : SelectionProblem or BaseEvaluator
+        What to evaluate. A problem gets a :class:`CrossValidationEvaluator`; an
+        evaluator is used as given (its cache carries over between calls).
+    strategy : str, dict or SearchStrategy, default="forward"
+        Registered name ("forward", "backward", ...), ``{"name": ..., **options}``
+        or an instance. Extra keyword arguments are passed as strategy options.
+    cost_model : CostModel, optional
+        Needed only when ``problem`` is an evaluator; default uniform cost 1.
+    budget : float, optional
+        Maximum acquisition cost per sample (None: unlimited).
+    objective : str, dict or BaseObjective, optional
+        Default "score" (maximise the mean CV score within the budget).
+    max_features, max_evaluations, max_time : optional
+        User limits (size, distinct subsets evaluated, seconds).
+    must_include, never_include : iterables of names or column indices
+        Measurements always taken / not available.
+    pick : {"best", "one_se"}, default="best"
+        Final pick: the strategy's answer, or the cheapest evaluated allowed subset
+        whose mean score is within one standard error of it.
+    random_state : int, optional
+        Seed for stochastic strategies.
+    n_jobs : int, optional
+        Parallel fits (when an evaluator is built here).
+    callback : callable, optional
+        ``callback(step)`` after each path step; returning True stops.
+
+    Returns
+    -------
+    SearchResult
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> from sklearn.tree import DecisionTreeClassifier
+    >>> X, y = load_iris(return_X_y=True)
+    >>> p = SelectionProblem(X, y, DecisionTreeClassifier(random_state=0), cv=3)
+    >>> res = run_search(p, "forward", n_features=2)
+    >>> len(res.selected)
+    2
+    """
+    if pick not in PICK_RULES:
+        raise InputError(f"pick must be one of {PICK_RULES}, got {pick!r}")
+    t0 = time.perf_counter()
+    if isinstance(problem, SelectionProblem):
+        evaluator: BaseEvaluator = CrossValidationEvaluator(problem, n_jobs=n_jobs)
+        cost_model = problem.cost_model
+        scoring = problem.scoring if isinstance(problem.scoring, str) else (
+            "estimator score" if problem.scoring is None else getattr(
+                problem.scoring, "__name__", "custom scorer"))
+    else:
+        evaluator = problem
+        cost_model = cost_model or CostModel.uniform(evaluator.feature_names)
+        scoring = "criterion"
+    if budget is not None:
+        if isinstance(budget, bool) or not isinstance(budget, (int, float)) or budget != budget:
+            raise InputError(f"budget must be a number, got {budget!r}", key="budget")
+        cheapest = cost_model.cheapest_feature_cost()
+        if budget < cheapest:
+            raise InputError(
+                f"budget {budget:g} {cost_model.unit} is below the cheapest possible subset "
+                f"({cheapest:g} {cost_model.unit})",
+                key="budget",
+            )
+    strat = make_strategy(strategy, **strategy_options)
+    names = list(cost_model.feature_names)
+    space = SearchSpace(
+        evaluator,
+        cost_model,
+        budget=budget,
+        objective=make_objective(objective),
+        max_features=max_features,
+        max_evaluations=max_evaluations,
+        max_time=max_time,
+        must_include=_resolve_features(must_include, names, "must_include"),
+        never_include=_resolve_features(never_include, names, "never_include"),
+        random_state=random_state,
+        callback=callback,
+    )
+    fits_before = evaluator.n_fits
+    hits_before = evaluator.n_cache_hits
+    limited = False
+    try:
+        strat.run(space)
+    except StopSearch:
+        limited = True
+    best = _pick(space, pick)
+    path = [
+        PathRow(
+            st.step, st.action, st.feature, tuple(names[i] for i in st.subset),
+            st.scored.mean, st.scored.evaluation.std, st.scored.cost, st.scored.value,
+            st.n_evaluations,
+        )
+        for st in space.path
+    ]
+    strategy_desc = {"name": strat.name, "options": strat.get_options()}
+    if best is None:
+        return SearchResult(
+            selected=[], support=[], cost=0.0, cost_unit=cost_model.unit, cost_breakdown=[],
+            budget=budget, score_mean=float("nan"), score_std=float("nan"), fold_scores=[],
+            scoring=scoring, objective={**space.objective.describe(), "value": None},
+            strategy=strategy_desc, path=path, n_evaluations=space.n_evaluations,
+            n_fits=evaluator.n_fits - fits_before,
+            n_cache_hits=evaluator.n_cache_hits - hits_before,
+            wall_time=time.perf_counter() - t0,
+            stop_reason=space.stop_reason or "no allowed subset was evaluated", success=False,
+        )
+    ev = best.evaluation
+    return SearchResult(
+        selected=[names[i] for i in best.subset],
+        support=list(best.subset),
+        cost=best.cost,
+        cost_unit=cost_model.unit,
+        cost_breakdown=cost_model.breakdown(best.subset),
+        budget=budget,
+        score_mean=ev.mean,
+        score_std=ev.std,
+        fold_scores=[float(s) for s in ev.fold_scores],
+        scoring=scoring,
+        objective={**space.objective.describe(), "value": best.value, "pick": pick},
+        strategy=strategy_desc,
+        path=path,
+        n_evaluations=space.n_evaluations,
+        n_fits=evaluator.n_fits - fits_before,
+        n_cache_hits=evaluator.n_cache_hits - hits_before,
+        wall_time=time.perf_counter() - t0,
+        stop_reason=space.stop_reason or "strategy finished",
+        success=not limited,
+    )

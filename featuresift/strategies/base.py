@@ -1,0 +1,440 @@
+"""The strategy interface and the search space strategies work in.
+
+A strategy is a small class with one method, :meth:`SearchStrategy.run`, that
+receives a :class:`SearchSpace`. Through the space it
+
+* proposes **batches** of subsets (:meth:`SearchSpace.evaluate`) and reads back
+  :class:`Scored` records (evaluation, cost, objective value) — it never fits a model;
+* asks which features may be added or removed under the budget and the user's limits
+  (:meth:`SearchSpace.addable`, :meth:`SearchSpace.removable`, :meth:`SearchSpace.is_allowed`);
+* compares subsets with :meth:`SearchSpace.rank_key` (objective, then higher score,
+  lower cost, fewer features);
+* records the steps it takes (:meth:`SearchSpace.record`), and may name its final
+  answer (:meth:`SearchSpace.choose`); otherwise the best allowed subset it evaluated wins;
+* draws random numbers only from ``space.rng`` (seeded), so runs reproduce.
+
+Register a strategy with :func:`register_strategy` to make it available by name in
+YAML (``strategy.name``) and in :func:`featuresift.run_search`.
+"""
+
+from __future__ import annotations
+
+import inspect
+import math
+import time
+from abc import ABC, abstractmethod
+from collections.abc import Callable, Iterable, Sequence
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+import numpy as np
+
+from featuresift.costs import CostModel
+from featuresift.errors import InputError
+from featuresift.evaluator import BaseEvaluator, normalise_subset
+from featuresift.objectives import BaseObjective, ScoreObjective
+from featuresift.records import COMPLETE, Evaluation
+
+__all__ = [
+    "Scored",
+    "PathStep",
+    "SearchSpace",
+    "SearchStrategy",
+    "StopSearch",
+    "STRATEGIES",
+    "register_strategy",
+    "make_strategy",
+]
+
+
+class StopSearch(Exception):
+    """Raised inside a search when a user limit (evaluations, time) is reached."""
+
+
+@dataclass(frozen=True)
+class Scored:
+    """An evaluated subset with its cost and objective value.
+
+    Attributes
+    ----------
+    evaluation : Evaluation
+    cost : float
+        Acquisition cost from the cost model.
+    value : float
+        Objective value (larger is better).
+    """
+
+    evaluation: Evaluation
+    cost: float
+    value: float
+
+    @property
+    def subset(self) -> tuple[int, ...]:
+        """Sorted column indices."""
+        return self.evaluation.subset
+
+    @property
+    def mean(self) -> float:
+        """Mean CV score."""
+        return self.evaluation.mean
+
+    @property
+    def complete(self) -> bool:
+        """True when every fold was run (not dropped by racing, not all failed)."""
+        return self.evaluation.status == COMPLETE
+
+
+@dataclass(frozen=True)
+class PathStep:
+    """One step of a search path.
+
+    Attributes
+    ----------
+    step : int
+        0-based step number.
+    action : str
+        What the strategy did ("start", "add", "remove", "exclude", "accept", ...).
+    feature : str or None
+        The feature added or removed, when the action concerns one feature.
+    subset : tuple of int
+        The subset after the step.
+    scored : Scored
+        Its evaluation, cost and objective value.
+    n_evaluations : int
+        Distinct subsets evaluated so far in this search.
+    """
+
+    step: int
+    action: str
+    feature: str | None
+    subset: tuple[int, ...]
+    scored: Scored
+    n_evaluations: int
+
+
+class SearchSpace:
+    """What a strategy sees: evaluation of batches, costs, budget and limits.
+
+    Parameters
+    ----------
+    evaluator : BaseEvaluator
+        Scores batches of subsets.
+    cost_model : CostModel
+        Acquisition costs (panel-aware); every budget check asks it.
+    budget : float, optional
+        Maximum cost per sample of a chosen subset (None: unlimited).
+    objective : BaseObjective, optional
+        How subsets are valued (default: mean score).
+    max_features : int, optional
+        Largest subset size allowed.
+    max_evaluations : int, optional
+        Largest number of distinct subsets this search may evaluate.
+    max_time : float, optional
+        Seconds after which the search stops (checked between batches).
+    must_include, never_include : iterables of int
+        Columns always in every subset / never in any.
+    random_state : int, optional
+        Seed of ``rng``.
+    callback : callable, optional
+        Called as ``callback(step)`` after each recorded :class:`PathStep`; returning
+        True stops the search.
+    """
+
+    def __init__(
+        self,
+        evaluator: BaseEvaluator,
+        cost_model: CostModel,
+        budget: float | None = None,
+        objective: BaseObjective | None = None,
+        max_features: int | None = None,
+        max_evaluations: int | None = None,
+        max_time: float | None = None,
+        must_include: Iterable[int] = (),
+        never_include: Iterable[int] = (),
+        random_state: int | None = 0,
+        callback: Callable[[PathStep], Any] | None = None,
+    ) -> None:
+        self.evaluator = evaluator
+        self.cost_model = cost_model
+        self.n_features = evaluator.n_features
+        self.feature_names = list(cost_model.feature_names)
+        self.budget = None if budget is None else float(budget)
+        self.objective = objective or ScoreObjective()
+        self.max_features = self.n_features if max_features is None else int(max_features)
+        self.max_evaluations = max_evaluations
+        self.max_time = max_time
+        self.must_include = normalise_subset(must_include, self.n_features)
+        self.never_include = frozenset(normalise_subset(never_include, self.n_features))
+        clash = set(self.must_include) & self.never_include
+        if clash:
+            names = ", ".join(self.feature_names[i] for i in sorted(clash))
+            raise InputError(f"feature(s) both in must_include and never_include: {names}")
+        if len(self.must_include) > self.max_features:
+            raise InputError(
+                f"must_include has {len(self.must_include)} features but max_features is "
+                f"{self.max_features}"
+            )
+        if not cost_model.is_feasible(self.must_include, self.budget):
+            raise InputError(
+                f"the must_include features cost {cost_model.cost(self.must_include):g} "
+                f"{cost_model.unit}, above the budget {self.budget:g}"
+            )
+        self.rng = np.random.default_rng(random_state)
+        self.random_state = random_state
+        self.callback = callback
+        self.path: list[PathStep] = []
+        self.visited: dict[tuple[int, ...], Scored] = {}
+        self.chosen: tuple[int, ...] | None = None
+        self.stop_reason: str = ""
+        self.n_evaluations = 0
+        self._start = time.perf_counter()
+
+    # ------------------------------------------------------------- constraints
+    @property
+    def candidates(self) -> tuple[int, ...]:
+        """Columns a strategy may choose from (all but ``never_include``)."""
+        return tuple(i for i in range(self.n_features) if i not in self.never_include)
+
+    def cost(self, subset: Iterable[int]) -> float:
+        """Acquisition cost of a subset."""
+        return self.cost_model.cost(subset)
+
+    def within_budget(self, subset: Iterable[int]) -> bool:
+        """Whether the subset's cost is within the budget."""
+        return self.cost_model.is_feasible(subset, self.budget)
+
+    def is_allowed(self, subset: Iterable[int]) -> bool:
+        """Within budget and max_features, contains must_include, avoids never_include."""
+        s = set(subset)
+        return (
+            len(s) <= self.max_features
+            and set(self.must_include) <= s
+            and not (s & self.never_include)
+            and self.within_budget(s)
+        )
+
+    def addable(self, subset: Iterable[int]) -> list[int]:
+        """Features that can be added to ``subset`` keeping it allowed, in column order.
+
+        A feature is addable when it is not yet in the subset, not excluded, the
+        size limit holds, and its marginal (panel-aware) cost keeps the budget.
+        """
+        s = list(subset)
+        if len(s) + 1 > self.max_features:
+            return []
+        inside = set(s)
+        return [
+            f for f in self.candidates
+            if f not in inside and self.within_budget(s + [f])
+        ]
+
+    def removable(self, subset: Iterable[int]) -> list[int]:
+        """Features of ``subset`` that may be removed (not in must_include), in column order."""
+        must = set(self.must_include)
+        return [f for f in sorted(set(subset)) if f not in must]
+
+    def repair(self, subset: Iterable[int]) -> tuple[int, ...]:
+        """Make a subset allowed without evaluating anything.
+
+        Adds must_include, drops never_include, then while over the budget or the
+        size limit drops the feature whose removal saves the most cost (ties: the
+        later column). Deterministic.
+        """
+        s = (set(subset) | set(self.must_include)) - self.never_include
+        must = set(self.must_include)
+        while len(s) > self.max_features or not self.within_budget(s):
+            options = [f for f in s if f not in must]
+            if not options:
+                break
+            base = self.cost(s)
+            f = max(options, key=lambda f: (base - self.cost(s - {f}), f))
+            s.discard(f)
+        return tuple(sorted(s))
+
+    # -------------------------------------------------------------- evaluation
+    def _check_time(self) -> None:
+        if self.max_time is not None and time.perf_counter() - self._start > self.max_time:
+            self.stop_reason = f"time limit of {self.max_time:g} s reached"
+            raise StopSearch(self.stop_reason)
+
+    def evaluate(self, subsets: Sequence[Iterable[int]]) -> list[Scored]:
+        """Evaluate a batch; returns :class:`Scored` records in input order.
+
+        Subsets evaluated earlier in the run are answered from the cache. Raises
+        :class:`StopSearch` when the evaluation or time limit is reached; subsets
+        evaluated before the limit are still recorded.
+        """
+        self._check_time()
+        keys = [normalise_subset(s, self.n_features) for s in subsets]
+        if self.max_evaluations is not None:
+            allowance = self.max_evaluations - self.n_evaluations
+            fresh: list[tuple[int, ...]] = []
+            for k in keys:
+                if k not in self.visited and k not in fresh:
+                    fresh.append(k)
+            if len(fresh) > allowance:
+                if allowance > 0:
+                    self._score(fresh[:allowance])
+                self.stop_reason = f"evaluation limit of {self.max_evaluations} reached"
+                raise StopSearch(self.stop_reason)
+        return self._score(keys)
+
+    def _score(self, keys: list[tuple[int, ...]]) -> list[Scored]:
+        evals = self.evaluator.evaluate(keys)
+        out = []
+        for k, ev in zip(keys, evals):
+            sc = self.visited.get(k)
+            if sc is None or sc.evaluation is not ev:
+                cost = self.cost(k)
+                sc = Scored(ev, cost, self.objective.value(ev, cost))
+                if k not in self.visited:
+                    self.n_evaluations += 1
+                self.visited[k] = sc
+            out.append(sc)
+        return out
+
+    def rank_key(self, scored: Scored) -> tuple:
+        """Sort key, larger is better: objective, score, -cost, -size, column order.
+
+        Incomplete evaluations (dropped by racing or failed) rank below complete ones.
+        """
+        value = scored.value if not math.isnan(scored.value) else -math.inf
+        return (
+            scored.complete,
+            value,
+            scored.mean,
+            -round(scored.cost, 12),
+            -len(scored.subset),
+            tuple(-i for i in scored.subset),
+        )
+
+    def best_of(self, scored: Iterable[Scored]) -> Scored | None:
+        """The best of some scored subsets by :meth:`rank_key` (None if empty)."""
+        best = None
+        for s in scored:
+            if best is None or self.rank_key(s) > self.rank_key(best):
+                best = s
+        return best
+
+    # ------------------------------------------------------------------ record
+    def record(self, action: str, subset: Iterable[int], feature: int | None = None) -> PathStep:
+        """Append a step to the path (the subset must have been evaluated)."""
+        key = normalise_subset(subset, self.n_features)
+        scored = self.visited.get(key)
+        if scored is None:
+            (scored,) = self._score([key])
+        step = PathStep(
+            len(self.path), action,
+            None if feature is None else self.feature_names[feature],
+            key, scored, self.n_evaluations,
+        )
+        self.path.append(step)
+        if self.callback is not None and self.callback(step) is True:
+            self.stop_reason = "stopped by callback"
+            raise StopSearch(self.stop_reason)
+        return step
+
+    def choose(self, subset: Iterable[int]) -> None:
+        """Name the strategy's final answer (otherwise the best allowed subset wins)."""
+        self.chosen = normalise_subset(subset, self.n_features)
+
+    def elapsed(self) -> float:
+        """Seconds since the search started."""
+        return time.perf_counter() - self._start
+
+
+class SearchStrategy(ABC):
+    """Base class of search strategies.
+
+    Subclasses set a class attribute ``name``, take their options as keyword
+    arguments in ``__init__`` (stored unchanged) and implement :meth:`run`.
+
+    Examples
+    --------
+    A complete strategy that tries every single feature and keeps the best:
+
+    >>> class BestSingle(SearchStrategy):
+    ...     name = "best-single"
+    ...     def run(self, space):
+    ...         batch = [[f] for f in space.addable(space.must_include)]
+    ...         best = space.best_of(space.evaluate(batch))
+    ...         space.record("add", best.subset)
+    """
+
+    name: ClassVar[str] = ""
+
+    @abstractmethod
+    def run(self, space: SearchSpace) -> None:
+        """Search the space; record steps; optionally :meth:`SearchSpace.choose`."""
+
+    def get_options(self) -> dict[str, Any]:
+        """The constructor options of this strategy, as given."""
+        sig = inspect.signature(type(self).__init__)
+        return {
+            k: getattr(self, k) for k in sig.parameters
+            if k != "self" and hasattr(self, k)
+        }
+
+
+STRATEGIES: dict[str, type[SearchStrategy]] = {}
+"""Registry of strategies by name; YAML's ``strategy.name`` looks here."""
+
+
+def register_strategy(cls: type[SearchStrategy]) -> type[SearchStrategy]:
+    """Class decorator: make a strategy available by its ``name``.
+
+    Examples
+    --------
+    >>> @register_strategy
+    ... class Nothing(SearchStrategy):
+    ...     name = "nothing-doc-example"
+    ...     def run(self, space):
+    ...         pass
+    >>> "nothing-doc-example" in STRATEGIES
+    True
+    """
+    if not cls.name:
+        raise ValueError("a strategy class needs a non-empty 'name'")
+    STRATEGIES[cls.name] = cls
+    return cls
+
+
+def make_strategy(spec: str | dict | SearchStrategy, **options: Any) -> SearchStrategy:
+    """Build a strategy from a registered name (plus options), a dict or an instance.
+
+    Unknown names and unknown or invalid options raise :class:`InputError` naming them.
+    """
+    if isinstance(spec, SearchStrategy):
+        if options:
+            raise InputError("options cannot be given with a strategy instance")
+        return spec
+    if isinstance(spec, dict):
+        opts = dict(spec)
+        name = opts.pop("name", None)
+        opts.update(opts.pop("options", None) or {})
+        opts.update(options)
+    else:
+        name, opts = spec, dict(options)
+    if name not in STRATEGIES:
+        raise InputError(
+            f"unknown strategy '{name}'; known: {', '.join(sorted(STRATEGIES))}",
+            key="strategy.name",
+        )
+    cls = STRATEGIES[name]
+    params = inspect.signature(cls.__init__).parameters
+    accepts_any = any(p.kind is inspect.Parameter.VAR_KEYWORD for p in params.values())
+    if not accepts_any:
+        allowed = [k for k in params if k != "self"]
+        for k in opts:
+            if k not in allowed:
+                raise InputError(
+                    f"strategy '{name}' has no option '{k}'; options: "
+                    + (", ".join(allowed) or "none"),
+                    key=f"strategy.options.{k}",
+                )
+    try:
+        return cls(**opts)
+    except InputError:
+        raise
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"strategy '{name}': {exc}", key="strategy.options") from None

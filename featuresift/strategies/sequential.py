@@ -1,0 +1,186 @@
+"""Budget-aware sequential forward and backward selection.
+
+Stopping rules
+--------------
+Forward selection starts from ``must_include`` and, at each step, evaluates every
+addable feature as one batch (a feature is addable when its panel-aware marginal
+cost keeps the subset within budget, and the size limit holds). It stops when
+
+1. the subset has ``n_features`` features (the target size), or
+2. no feature is addable (budget exhausted, size limit, or nothing left), or
+3. ``tol`` is set and the best candidate does not improve the objective by more than
+   ``tol`` over the current subset.
+
+Backward selection starts from all candidates (plus ``must_include``, minus
+``never_include``). Phase one removes features, best objective first, until the
+subset is within budget and size limit. Phase two keeps removing while the best
+removal does not lower the objective by more than ``tol`` (default 0: "does not
+drop"), or — when ``n_features`` is given — until the target size is reached.
+
+Tie-break at every step: higher objective, then higher mean score, then lower cost,
+then fewer features, then the feature that comes first in column order.
+
+When ``tol`` is None (default) it becomes 0.0 if ``n_features`` is None and is
+disabled otherwise, so a target size is always reached when the budget allows.
+"""
+
+from __future__ import annotations
+
+from featuresift.errors import InputError
+from featuresift.strategies.base import (
+    Scored,
+    SearchSpace,
+    SearchStrategy,
+    register_strategy,
+)
+
+__all__ = ["ForwardSelection", "BackwardSelection"]
+
+
+def _check_common(n_features: int | None, tol: float | None) -> None:
+    if n_features is not None and (isinstance(n_features, bool) or int(n_features) < 1):
+        raise InputError(f"n_features must be a positive integer, got {n_features!r}")
+    if tol is not None and (isinstance(tol, bool) or not isinstance(tol, (int, float))):
+        raise InputError(f"tol must be a number, got {tol!r}")
+
+
+def best_step(space: SearchSpace, moves: list[tuple[int, Scored]]) -> tuple[int, Scored]:
+    """The best (feature, scored) move; ties go to the earlier feature in column order."""
+    best_f, best_s = moves[0]
+    best_key = space.rank_key(best_s)[:5]
+    for f, s in moves[1:]:
+        key = space.rank_key(s)[:5]
+        if key > best_key:
+            best_f, best_s, best_key = f, s, key
+    return best_f, best_s
+
+
+@register_strategy
+class ForwardSelection(SearchStrategy):
+    """Sequential forward selection under a budget.
+
+    Parameters
+    ----------
+    n_features : int, optional
+        Target subset size (including ``must_include``). None: grow while the
+        objective improves by more than ``tol``.
+    tol : float, optional
+        Smallest improvement worth a step (see module notes for the default).
+
+    Examples
+    --------
+    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.costs import CostModel
+    >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 2}) - 0.01 * len(s), 4)
+    >>> space = SearchSpace(ev, CostModel.uniform(["a", "b", "c", "d"]))
+    >>> ForwardSelection().run(space)
+    >>> space.path[-1].subset
+    (1, 2)
+    """
+
+    name = "forward"
+
+    def __init__(self, n_features: int | None = None, tol: float | None = None) -> None:
+        _check_common(n_features, tol)
+        self.n_features = n_features
+        self.tol = tol
+
+    def run(self, space: SearchSpace) -> None:
+        tol = self.tol if self.tol is not None else (0.0 if self.n_features is None else None)
+        target = self.n_features
+        current = tuple(space.must_include)
+        current_scored = None
+        if current:
+            (current_scored,) = space.evaluate([current])
+            space.record("start", current)
+        while target is None or len(current) < target:
+            feats = space.addable(current)
+            if not feats:
+                space.stop_reason = space.stop_reason or "no affordable feature left to add"
+                break
+            scored = space.evaluate([current + (f,) for f in feats])
+            f, best = best_step(space, list(zip(feats, scored)))
+            if (
+                tol is not None
+                and current_scored is not None
+                and best.value - current_scored.value <= tol
+            ):
+                space.stop_reason = f"no candidate improves the objective by more than {tol:g}"
+                break
+            current = best.subset
+            current_scored = best
+            space.record("add", current, f)
+        else:
+            space.stop_reason = f"target size {target} reached"
+        if target is not None and current:
+            space.choose(current)
+
+
+@register_strategy
+class BackwardSelection(SearchStrategy):
+    """Sequential backward selection under a budget.
+
+    Parameters
+    ----------
+    n_features : int, optional
+        Target subset size. None: remove while the objective does not drop by
+        more than ``tol``.
+    tol : float, optional
+        Largest drop in the objective accepted for a removal (default 0).
+
+    Examples
+    --------
+    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.costs import CostModel
+    >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 2}) - 0.01 * len(s), 4)
+    >>> space = SearchSpace(ev, CostModel.uniform(["a", "b", "c", "d"]))
+    >>> BackwardSelection().run(space)
+    >>> space.path[-1].subset
+    (1, 2)
+    """
+
+    name = "backward"
+
+    def __init__(self, n_features: int | None = None, tol: float | None = None) -> None:
+        _check_common(n_features, tol)
+        self.n_features = n_features
+        self.tol = tol
+
+    def _remove_best(self, space: SearchSpace, current: tuple[int, ...]):
+        feats = space.removable(current)
+        if not feats:
+            return None
+        scored = space.evaluate([tuple(x for x in current if x != f) for f in feats])
+        return best_step(space, list(zip(feats, scored)))
+
+    def run(self, space: SearchSpace) -> None:
+        tol = self.tol if self.tol is not None else (0.0 if self.n_features is None else None)
+        current = tuple(sorted(set(space.candidates) | set(space.must_include)))
+        (current_scored,) = space.evaluate([current])
+        space.record("start", current)
+        # Phase one: reach the budget and the size limit.
+        while not space.is_allowed(current) and len(current) > len(space.must_include):
+            move = self._remove_best(space, current)
+            if move is None:
+                break
+            f, current_scored = move
+            current = current_scored.subset
+            space.record("remove", current, f)
+        # Phase two: keep removing while it does not hurt (or down to the target size).
+        target = self.n_features
+        while current and (target is None or len(current) > target):
+            move = self._remove_best(space, current)
+            if move is None:
+                space.stop_reason = "only must_include features left"
+                break
+            f, best = move
+            if target is None and best.value < current_scored.value - tol:
+                space.stop_reason = f"every removal lowers the objective by more than {tol:g}"
+                break
+            current, current_scored = best.subset, best
+            space.record("remove", current, f)
+        else:
+            if target is not None:
+                space.stop_reason = f"target size {target} reached"
+        if space.is_allowed(current):
+            space.choose(current)
