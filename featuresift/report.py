@@ -1,0 +1,174 @@
+"""A readable Markdown report of a run, for whoever pays for the measurements.
+
+:func:`write_report` assembles what a run produced — the chosen measurements and
+their cost breakdown, the CV score, the search path, and optionally a budget sweep,
+a nested (honest) estimate and a per-feature filter table — into ``report.md``.
+Every report carries the caution that the ranking is statistical.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from pathlib import Path
+from typing import Any
+
+from featuresift.result import SearchResult
+
+__all__ = ["CAUTION", "render_report", "write_report"]
+
+CAUTION = (
+    "**Caution.** featuresift ranks measurements statistically, on the data it was given. "
+    "The cross-validated score of the chosen subset is the number the search maximised, so "
+    "it is optimistic; confirm the choice on new data before relying on it. Where a "
+    "measurement protects people or the environment (clinical, food-safety or environmental "
+    "testing), local regulations and licensed practice decide which tests are required, "
+    "whatever this ranking says."
+)
+
+
+def _f(x: Any, digits: int = 4) -> str:
+    if x is None:
+        return "—"
+    if isinstance(x, float):
+        return "—" if not math.isfinite(x) else f"{x:.{digits}f}"
+    return str(x)
+
+
+def _table(header: list[str], rows: list[list[Any]]) -> list[str]:
+    out = ["| " + " | ".join(header) + " |", "|" + "---|" * len(header)]
+    out += ["| " + " | ".join(str(c) for c in r) + " |" for r in rows]
+    return out
+
+
+def render_report(
+    result: SearchResult,
+    *,
+    title: str = "featuresift report",
+    frontier: Any = None,
+    nested: Any = None,
+    feature_table: Any = None,
+    source: str | None = None,
+) -> str:
+    """Markdown text of the report.
+
+    Parameters
+    ----------
+    result : SearchResult
+        The search to report.
+    title : str
+        First heading.
+    frontier : Frontier, optional
+        A budget sweep to include (table, and the plot if ``frontier.png`` is written
+        beside the report).
+    nested : NestedEvaluation, optional
+        An honest estimate to include.
+    feature_table : pandas.DataFrame, optional
+        A per-feature table (relevance, cost, ...) to include.
+    source : str, optional
+        Where the run came from (config path), shown under the title.
+
+    Examples
+    --------
+    >>> from featuresift.result import SearchResult
+    >>> r = SearchResult(["a"], [0], 1.0, "EUR", [], None, 0.9, 0.01, [0.9], "accuracy",
+    ...                  {}, {"name": "forward"}, [], 1, 5, 0, 0.1, "done")
+    >>> "Caution" in render_report(r)
+    True
+    """
+    u = result.cost_unit
+    lines = [f"# {title}", ""]
+    if source:
+        lines += [f"Run from `{source}`.", ""]
+    lines += [CAUTION, ""]
+    budget = "unlimited" if result.budget is None else f"{result.budget:g} {u}"
+    lines += [
+        "## Chosen measurements",
+        "",
+        f"Strategy **{result.strategy.get('name')}**, budget {budget}, "
+        f"scoring `{result.scoring}`.",
+        "",
+    ]
+    lines += _table(
+        ["paid item", "kind", "measurements", f"cost ({u})"],
+        [[c.item, c.kind, ", ".join(c.features), _f(c.cost, 2)] for c in result.cost_breakdown]
+        + [["**total per sample**", "", f"{len(result.selected)} measurements",
+            f"**{_f(result.cost, 2)}**"]],
+    )
+    folds = ", ".join(_f(s) for s in result.fold_scores)
+    lines += [
+        "",
+        f"Cross-validated {result.scoring}: **{_f(result.score_mean)} ± "
+        f"{_f(result.score_std)}** (sample standard deviation over "
+        f"{len(result.fold_scores)} folds: {folds}).",
+        "",
+        f"{result.n_evaluations} subsets evaluated with {result.n_fits} model fits in "
+        f"{result.wall_time:.1f} s. Stopped: {result.stop_reason}.",
+        "",
+        "## Search path",
+        "",
+    ]
+    lines += _table(
+        ["step", "action", "measurement", "size", "score", f"cost ({u})"],
+        [[r.step, r.action, r.feature or "—", len(r.features), _f(r.score_mean), _f(r.cost, 2)]
+         for r in result.path],
+    )
+    if nested is not None:
+        inner_mean = sum(nested.inner_scores) / len(nested.inner_scores)
+        lines += [
+            "",
+            "## Honest estimate (nested cross-validation)",
+            "",
+            "The whole search was re-run inside each outer training fold and the chosen "
+            "measurements were scored on the outer test fold, which the search never saw.",
+            "",
+            f"- outer {nested.scoring}: **{_f(nested.outer_mean)} ± {_f(nested.outer_std)}**",
+            f"- the search's own (inner) score: {_f(inner_mean)} — optimism {nested.optimism:+.4f}",
+            "- stability of the choice (Nogueira et al. 2018): "
+            + ("undefined" if nested.stability is None else _f(nested.stability, 3)),
+            "",
+        ]
+        lines += _table(
+            ["measurement", "chosen in share of outer folds"],
+            [[n, _f(v, 2)] for n, v in sorted(nested.selection_frequency.items(),
+                                              key=lambda kv: -kv[1]) if v > 0],
+        )
+    if frontier is not None:
+        frame = frontier.to_frame()
+        lines += ["", "## Accuracy against cost across budgets", ""]
+        lines += _table(
+            ["budget", "measurements", f"cost ({u})", "score", "± s.e.", "efficient"],
+            [
+                ["unlimited" if math.isnan(r.budget) else _f(float(r.budget), 2), r.selected,
+                 _f(float(r.cost), 2), _f(float(r.score_mean)), _f(float(r.score_sem)),
+                 "yes" if r.efficient else ""]
+                for r in frame.itertuples()
+            ],
+        )
+        lines += [
+            "",
+            f"The sweep used {frontier.n_fits} model fits; without sharing evaluations between "
+            f"budgets it would have needed {frontier.n_fits_without_cache}.",
+            "",
+            "![accuracy against cost](frontier.png)",
+        ]
+    if feature_table is not None:
+        lines += ["", "## Per-measurement screening table", ""]
+        cols = [str(c) for c in feature_table.columns]
+        rows = [
+            [_f(v) if isinstance(v, float) else str(v) for v in row]
+            for row in feature_table.itertuples(index=False)
+        ]
+        lines += _table(cols, rows)
+    return "\n".join(lines) + "\n"
+
+
+def write_report(folder: str | os.PathLike, result: SearchResult, **kwargs: Any) -> Path:
+    """Write ``report.md`` into ``folder`` (see :func:`render_report` for options)."""
+    out = Path(folder)
+    out.mkdir(parents=True, exist_ok=True)
+    path = out / "report.md"
+    tmp = out / ".report.md.tmp"
+    tmp.write_text(render_report(result, **kwargs), encoding="utf-8")
+    os.replace(tmp, path)
+    return path
