@@ -11,17 +11,36 @@ Built in (name usable in YAML under ``objective.name``):
     Maximise the mean CV score subject to cost <= budget (the default).
 ``penalized``
     Maximise ``score - lambda * cost`` (``lambda`` from the config; default 0).
+``expected_cost``
+    Minimise the expected total cost per sample: acquisition cost plus the expected
+    misclassification cost from a cost matrix, estimated on the cross-validation test
+    folds. The value is ``-(misclassification cost + acquisition cost)``.
+
+Ties between equal objective values are broken by higher mean score, then lower cost,
+then fewer features (see ``rank_key``).
 """
 
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from typing import ClassVar
+from collections.abc import Sequence
+from typing import Any, ClassVar
+
+import numpy as np
+from sklearn.metrics import make_scorer
 
 from featuresift.errors import InputError
 from featuresift.records import Evaluation
 
-__all__ = ["BaseObjective", "ScoreObjective", "PenalizedObjective", "OBJECTIVES", "make_objective"]
+__all__ = [
+    "BaseObjective",
+    "ScoreObjective",
+    "PenalizedObjective",
+    "ExpectedCostObjective",
+    "OBJECTIVES",
+    "register_objective",
+    "make_objective",
+]
 
 
 class BaseObjective(ABC):
@@ -44,6 +63,10 @@ class BaseObjective(ABC):
         (for example an expected misclassification cost) return a scikit-learn
         scorer here; the problem is then built with it.
         """
+        return None
+
+    def check_target(self, y: Any) -> None:
+        """Raise :class:`InputError` if this objective cannot value predictions of ``y``."""
         return None
 
 
@@ -90,9 +113,105 @@ class PenalizedObjective(BaseObjective):
         return {"name": self.name, "lambda": self.lam}
 
 
+def _mean_misclassification_cost(y_true, y_pred, *, matrix, index):
+    """Mean of ``matrix[true, predicted]`` over the samples (module level: picklable)."""
+    try:
+        rows = np.array([index[v] for v in np.asarray(y_true).tolist()], dtype=np.intp)
+        cols = np.array([index[v] for v in np.asarray(y_pred).tolist()], dtype=np.intp)
+    except KeyError as exc:
+        raise ValueError(
+            f"class {exc.args[0]!r} is not among the cost matrix labels {list(index)}"
+        ) from None
+    return float(matrix[rows, cols].mean()) if rows.size else 0.0
+
+
+class ExpectedCostObjective(BaseObjective):
+    """Minus the expected total cost per sample: misclassification plus acquisition.
+
+    The cross-validation evaluator scores each fold with :meth:`required_scorer`, the
+    negative mean misclassification cost per test sample under ``cost_matrix``; the
+    objective value is that score minus the subset's acquisition cost, i.e.
+    ``-(expected misclassification cost + acquisition cost)``, larger is better. Both
+    costs must be in the same unit, per sample.
+
+    Parameters
+    ----------
+    cost_matrix : sequence of sequences of float
+        ``cost_matrix[i][j]`` is the cost of predicting ``labels[j]`` for a sample whose
+        true class is ``labels[i]`` (rows: true class, columns: predicted). Square, finite,
+        non-negative.
+    labels : sequence, optional
+        Class labels in matrix order. Default ``0, 1, ..., k - 1``.
+
+    Examples
+    --------
+    A wrong 'accept' (true 0, predicted 1) costs 5, a wrong 'reject' 40:
+
+    >>> obj = ExpectedCostObjective([[0, 5], [40, 0]], labels=[0, 1])
+    >>> scorer_value = -(1 * 5 + 1 * 40) / 10      # 10 test samples, one error of each kind
+    >>> obj.value(Evaluation((0,), (scorer_value,)), cost=0.5)
+    -5.0
+    """
+
+    name = "expected_cost"
+
+    def __init__(self, cost_matrix: Sequence[Sequence[float]], labels: Sequence | None = None):
+        where = "objective.cost_matrix"
+        try:
+            matrix = np.array(cost_matrix, dtype=float)
+        except (TypeError, ValueError):
+            raise InputError(f"{where}: must be a square table of numbers") from None
+        if matrix.ndim != 2 or matrix.shape[0] != matrix.shape[1] or matrix.shape[0] < 2:
+            raise InputError(
+                f"{where}: must be a square table with at least 2 classes, got shape "
+                f"{matrix.shape}"
+            )
+        bad = np.argwhere(~np.isfinite(matrix) | (matrix < 0))
+        if bad.size:
+            i, j = bad[0]
+            raise InputError(
+                f"{where}: entry row {i + 1}, column {j + 1} must be a finite number >= 0, "
+                f"got {matrix[i, j]!r}"
+            )
+        k = matrix.shape[0]
+        labels = list(range(k)) if labels is None else list(labels)
+        if len(labels) != k:
+            raise InputError(f"objective.labels: {len(labels)} labels for a {k}x{k} cost matrix")
+        if len(set(labels)) != k:
+            raise InputError(f"objective.labels: labels must be distinct, got {labels}")
+        self.cost_matrix = matrix.tolist()
+        self.labels = labels
+        self._scorer = make_scorer(
+            _mean_misclassification_cost, greater_is_better=False,
+            matrix=matrix, index={v: i for i, v in enumerate(labels)},
+        )
+
+    def value(self, evaluation: Evaluation, cost: float) -> float:
+        return evaluation.mean - cost
+
+    def required_scorer(self):
+        """Negative mean misclassification cost per sample (one scorer per objective)."""
+        return self._scorer
+
+    def check_target(self, y: Any) -> None:
+        known = set(self.labels)
+        unknown = sorted({v for v in np.asarray(y).tolist() if v not in known}, key=str)
+        if unknown:
+            raise InputError(
+                f"class(es) {', '.join(map(repr, unknown))} of the target are not among the "
+                f"cost matrix labels {self.labels}",
+                key="objective.labels",
+            )
+
+    def describe(self) -> dict:
+        return {"name": self.name, "labels": list(self.labels),
+                "cost_matrix": [list(r) for r in self.cost_matrix]}
+
+
 OBJECTIVES: dict[str, type[BaseObjective]] = {
     ScoreObjective.name: ScoreObjective,
     PenalizedObjective.name: PenalizedObjective,
+    ExpectedCostObjective.name: ExpectedCostObjective,
 }
 """Registry of objectives by name (extended by :func:`register_objective`)."""
 

@@ -55,6 +55,15 @@ def _pick(space: SearchSpace, rule: str) -> Scored | None:
     return min(close, key=lambda s: (round(s.cost, 12), -s.value, len(s.subset), s.subset))
 
 
+def _with_scorer(problem: SelectionProblem, scorer: Any) -> SelectionProblem:
+    """The same problem (data, model, costs, splits) scored with ``scorer``."""
+    return SelectionProblem(
+        problem.X, problem.y, problem.estimator, cost_model=problem.cost_model,
+        cv=problem.splits, scoring=scorer, groups=problem.groups,
+        feature_names=problem.feature_names,
+    )
+
+
 def run_search(
     problem: SelectionProblem | BaseEvaluator,
     strategy: str | dict | SearchStrategy = "forward",
@@ -88,7 +97,8 @@ def run_search(
     budget : float, optional
         Maximum acquisition cost per sample (None: unlimited).
     objective : str, dict or BaseObjective, optional
-        Default "score" (maximise the mean CV score within the budget).
+        Default "score" (maximise the mean CV score within the budget). An objective
+        with its own scorer (``expected_cost``) replaces the problem's scorer.
     max_features, max_evaluations, max_time : optional
         User limits (size, distinct subsets evaluated, seconds).
     must_include, never_include : iterables of names or column indices
@@ -120,12 +130,19 @@ def run_search(
     if pick not in PICK_RULES:
         raise InputError(f"pick must be one of {PICK_RULES}, got {pick!r}")
     t0 = time.perf_counter()
+    objective = make_objective(objective)
     if isinstance(problem, SelectionProblem):
+        objective.check_target(problem.y)
+        required = objective.required_scorer()
+        if required is not None and repr(problem.scorer) != repr(required):
+            problem = _with_scorer(problem, required)
         evaluator: BaseEvaluator = CrossValidationEvaluator(problem, n_jobs=n_jobs)
         cost_model = problem.cost_model
         scoring = problem.scoring if isinstance(problem.scoring, str) else (
             "estimator score" if problem.scoring is None else getattr(
                 problem.scoring, "__name__", "custom scorer"))
+        if required is not None:
+            scoring = f"{objective.name} scorer"
     else:
         evaluator = problem
         cost_model = cost_model or CostModel.uniform(evaluator.feature_names)
@@ -146,7 +163,7 @@ def run_search(
         evaluator,
         cost_model,
         budget=budget,
-        objective=make_objective(objective),
+        objective=objective,
         max_features=max_features,
         max_evaluations=max_evaluations,
         max_time=max_time,
@@ -172,6 +189,7 @@ def run_search(
         for st in space.path
     ]
     strategy_desc = {"name": strat.name, "options": strat.get_options()}
+    extras = dict(space.extras)
     if best is None:
         return SearchResult(
             selected=[], support=[], cost=0.0, cost_unit=cost_model.unit, cost_breakdown=[],
@@ -182,6 +200,7 @@ def run_search(
             n_cache_hits=evaluator.n_cache_hits - hits_before,
             wall_time=time.perf_counter() - t0,
             stop_reason=space.stop_reason or "no allowed subset was evaluated", success=False,
+            extras=extras,
         )
     ev = best.evaluation
     return SearchResult(
@@ -204,4 +223,5 @@ def run_search(
         wall_time=time.perf_counter() - t0,
         stop_reason=space.stop_reason or "strategy finished",
         success=not limited,
+        extras=extras,
     )

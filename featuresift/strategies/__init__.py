@@ -1,5 +1,10 @@
-"""Search strategies, pluggable by name (see :mod:`featuresift.strategies.base`)."""
+"""Search strategies, pluggable by name (see :mod:`featuresift.strategies.base`).
 
+Registered names: ``forward``, ``backward`` (sequential), ``floating-forward``,
+``floating-backward`` (SFFS, SBFS), ``annealing``, ``genetic``, ``exhaustive``.
+"""
+
+from featuresift.strategies.annealing import SimulatedAnnealing
 from featuresift.strategies.base import (
     STRATEGIES,
     PathStep,
@@ -10,6 +15,9 @@ from featuresift.strategies.base import (
     make_strategy,
     register_strategy,
 )
+from featuresift.strategies.exhaustive import ExhaustiveSearch
+from featuresift.strategies.floating import FloatingBackwardSearch, FloatingForwardSearch
+from featuresift.strategies.genetic import GeneticSearch
 from featuresift.strategies.sequential import BackwardSelection, ForwardSelection
 
 __all__ = [
@@ -23,4 +31,9 @@ __all__ = [
     "register_strategy",
     "ForwardSelection",
     "BackwardSelection",
+    "FloatingForwardSearch",
+    "FloatingBackwardSearch",
+    "SimulatedAnnealing",
+    "GeneticSearch",
+    "ExhaustiveSearch",
 ]

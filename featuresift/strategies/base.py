@@ -4,17 +4,68 @@ A strategy is a small class with one method, :meth:`SearchStrategy.run`, that
 receives a :class:`SearchSpace`. Through the space it
 
 * proposes **batches** of subsets (:meth:`SearchSpace.evaluate`) and reads back
-  :class:`Scored` records (evaluation, cost, objective value) — it never fits a model;
+  :class:`Scored` records (evaluation, cost, objective value) — it never fits a model,
+  so any evaluator drives it: cross-validation, a plain function of the subset
+  (:class:`~featuresift.evaluator.CriterionEvaluator`) or a table of stored results;
 * asks which features may be added or removed under the budget and the user's limits
-  (:meth:`SearchSpace.addable`, :meth:`SearchSpace.removable`, :meth:`SearchSpace.is_allowed`);
+  (:meth:`SearchSpace.addable`, :meth:`SearchSpace.removable`, :meth:`SearchSpace.is_allowed`,
+  :meth:`SearchSpace.repair`, :meth:`SearchSpace.sample_allowed`);
 * compares subsets with :meth:`SearchSpace.rank_key` (objective, then higher score,
   lower cost, fewer features);
 * records the steps it takes (:meth:`SearchSpace.record`), and may name its final
   answer (:meth:`SearchSpace.choose`); otherwise the best allowed subset it evaluated wins;
+  anything else worth reporting goes into the ``space.extras`` dict, which ends up in
+  :attr:`SearchResult.extras <featuresift.result.SearchResult.extras>`;
 * draws random numbers only from ``space.rng`` (seeded), so runs reproduce.
 
+The limits (``max_evaluations``, ``max_time``, the callback) are enforced by the space:
+:meth:`SearchSpace.evaluate` raises :class:`StopSearch`, which the driver catches, so a
+strategy needs no code for them. Subsets evaluated earlier in the run are free (cached).
+
 Register a strategy with :func:`register_strategy` to make it available by name in
-YAML (``strategy.name``) and in :func:`featuresift.run_search`.
+YAML (``strategy: {name: ..., options: {...}}``) and in :func:`featuresift.run_search`.
+Its ``__init__`` keyword arguments are the YAML options; unknown options are rejected
+with an error naming them.
+
+A complete custom strategy
+--------------------------
+Add measurements cheapest first while the objective keeps improving::
+
+    from featuresift import CriterionEvaluator, CostModel, run_search
+    from featuresift.strategies import SearchStrategy, register_strategy
+
+    @register_strategy
+    class CheapestFirst(SearchStrategy):
+        name = "cheapest-first"
+
+        def __init__(self, min_gain: float = 0.0) -> None:
+            self.min_gain = min_gain  # stored unchanged: it is the YAML option
+
+        def run(self, space):
+            current = tuple(space.must_include)
+            now = space.evaluate([current])[0] if current else None
+            while True:
+                options = space.addable(current)          # budget, size, never_include
+                if not options:
+                    break
+                f = min(options, key=lambda f: (space.cost(current + (f,)), f))
+                (new,) = space.evaluate([current + (f,)])  # a batch of one subset
+                if now is not None and new.value - now.value <= self.min_gain:
+                    break
+                current, now = new.subset, new
+                space.record("add", current, f)            # the search path
+            if current:
+                space.choose(current)                      # else the best seen wins
+
+    costs = CostModel(["a", "b", "c"], {"a": 1.0, "b": 2.0, "c": 5.0})
+    table = {(0,): 0.6, (0, 1): 0.8, (0, 1, 2): 0.81}
+    ev = CriterionEvaluator(lambda s: table.get(s, 0.0), n_features=3)
+    result = run_search(ev, "cheapest-first", cost_model=costs, budget=4, min_gain=0.05)
+    print(result.selected)  # ['a', 'b']
+
+In YAML the same strategy is ``strategy: {name: cheapest-first, options: {min_gain: 0.05}}``
+(the module defining it must be imported first). :func:`featuresift.testing.check_strategy`
+runs the contract every strategy must pass (budget, limits, seeds, path) on such a class.
 """
 
 from __future__ import annotations
@@ -185,6 +236,7 @@ class SearchSpace:
         self.path: list[PathStep] = []
         self.visited: dict[tuple[int, ...], Scored] = {}
         self.chosen: tuple[int, ...] | None = None
+        self.extras: dict[str, Any] = {}
         self.stop_reason: str = ""
         self.n_evaluations = 0
         self._start = time.perf_counter()
@@ -194,6 +246,12 @@ class SearchSpace:
     def candidates(self) -> tuple[int, ...]:
         """Columns a strategy may choose from (all but ``never_include``)."""
         return tuple(i for i in range(self.n_features) if i not in self.never_include)
+
+    @property
+    def free_candidates(self) -> tuple[int, ...]:
+        """Columns a strategy may switch on or off (candidates not in ``must_include``)."""
+        must = set(self.must_include)
+        return tuple(i for i in self.candidates if i not in must)
 
     def cost(self, subset: Iterable[int]) -> float:
         """Acquisition cost of a subset."""
@@ -250,6 +308,35 @@ class SearchSpace:
             f = max(options, key=lambda f: (base - self.cost(s - {f}), f))
             s.discard(f)
         return tuple(sorted(s))
+
+    def sample_allowed(self, density: float = 0.5) -> tuple[int, ...]:
+        """A random allowed, non-empty subset drawn from ``rng`` (nothing is evaluated).
+
+        Starts from ``must_include`` and visits the free candidates in random order,
+        adding each with probability ``density`` when it keeps the subset allowed. If
+        that leaves the subset empty, one random affordable feature is added.
+
+        Examples
+        --------
+        >>> from featuresift.evaluator import CriterionEvaluator
+        >>> from featuresift.costs import CostModel
+        >>> space = SearchSpace(CriterionEvaluator(len, 4), CostModel.uniform("abcd"),
+        ...                     budget=2, random_state=1)
+        >>> s = space.sample_allowed(0.9)
+        >>> 1 <= len(s) <= 2 and space.is_allowed(s)
+        True
+        """
+        chosen = list(self.must_include)
+        for f in self.rng.permutation(self.free_candidates):
+            if len(chosen) >= self.max_features:
+                break
+            if self.rng.random() < density and self.within_budget(chosen + [int(f)]):
+                chosen.append(int(f))
+        if not chosen:
+            options = self.addable(())
+            if options:
+                chosen.append(int(options[int(self.rng.integers(len(options)))]))
+        return tuple(sorted(chosen))
 
     # -------------------------------------------------------------- evaluation
     def _check_time(self) -> None:

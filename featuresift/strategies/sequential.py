@@ -34,7 +34,7 @@ from featuresift.strategies.base import (
     register_strategy,
 )
 
-__all__ = ["ForwardSelection", "BackwardSelection"]
+__all__ = ["ForwardSelection", "BackwardSelection", "best_step", "best_removal"]
 
 
 def _check_common(n_features: int | None, tol: float | None) -> None:
@@ -53,6 +53,15 @@ def best_step(space: SearchSpace, moves: list[tuple[int, Scored]]) -> tuple[int,
         if key > best_key:
             best_f, best_s, best_key = f, s, key
     return best_f, best_s
+
+
+def best_removal(space: SearchSpace, current: tuple[int, ...]) -> tuple[int, Scored] | None:
+    """Best (feature, scored) removal from ``current`` (one batch); None if none is removable."""
+    feats = space.removable(current)
+    if not feats:
+        return None
+    scored = space.evaluate([tuple(x for x in current if x != f) for f in feats])
+    return best_step(space, list(zip(feats, scored)))
 
 
 @register_strategy
@@ -146,13 +155,6 @@ class BackwardSelection(SearchStrategy):
         self.n_features = n_features
         self.tol = tol
 
-    def _remove_best(self, space: SearchSpace, current: tuple[int, ...]):
-        feats = space.removable(current)
-        if not feats:
-            return None
-        scored = space.evaluate([tuple(x for x in current if x != f) for f in feats])
-        return best_step(space, list(zip(feats, scored)))
-
     def run(self, space: SearchSpace) -> None:
         tol = self.tol if self.tol is not None else (0.0 if self.n_features is None else None)
         current = tuple(sorted(set(space.candidates) | set(space.must_include)))
@@ -160,7 +162,7 @@ class BackwardSelection(SearchStrategy):
         space.record("start", current)
         # Phase one: reach the budget and the size limit.
         while not space.is_allowed(current) and len(current) > len(space.must_include):
-            move = self._remove_best(space, current)
+            move = best_removal(space, current)
             if move is None:
                 break
             f, current_scored = move
@@ -169,7 +171,7 @@ class BackwardSelection(SearchStrategy):
         # Phase two: keep removing while it does not hurt (or down to the target size).
         target = self.n_features
         while current and (target is None or len(current) > target):
-            move = self._remove_best(space, current)
+            move = best_removal(space, current)
             if move is None:
                 space.stop_reason = "only must_include features left"
                 break
