@@ -15,9 +15,21 @@ outer training fold (nested CV), or put the screen inside the model with
 ``fit`` and therefore only ever sees training rows. The redundancy objective uses
 ``X`` only (never ``y``), so computing its correlation matrix on all rows leaks no
 label information.
+
+Importing this package registers the ``redundancy_penalized`` objective, the
+``l1_order`` relevance scorer and the ``filter_order`` strategy.
 """
 
 from featuresift.filters.greedy import FilterSelection, FilterStep, budgeted_greedy, mrmr
+from featuresift.filters.l1path import L1Path, cost_weighted_l1_path, l1_order
+from featuresift.filters.objective import RedundancyPenalizedObjective
+from featuresift.filters.prescreen import (
+    ScreenedEstimator,
+    ScreenResult,
+    benjamini_hochberg,
+    prescreen,
+    screened_search,
+)
 from featuresift.filters.redundancy import (
     REDUNDANCY_PENALTIES,
     AbsCorrelationPenalty,
@@ -40,8 +52,22 @@ from featuresift.filters.relevance import (
     relevance_scores,
     spearman,
 )
+from featuresift.filters.report import feature_report, write_feature_report
+from featuresift.filters.strategy import FilterOrderSearch
 
 __all__ = [
+    "L1Path",
+    "cost_weighted_l1_path",
+    "l1_order",
+    "RedundancyPenalizedObjective",
+    "ScreenedEstimator",
+    "ScreenResult",
+    "benjamini_hochberg",
+    "prescreen",
+    "screened_search",
+    "feature_report",
+    "write_feature_report",
+    "FilterOrderSearch",
     "FilterSelection",
     "FilterStep",
     "budgeted_greedy",

@@ -14,6 +14,7 @@ import numpy as np
 
 from featuresift.costs import CostModel
 from featuresift.errors import InputError
+from featuresift.problem import _as_2d_float
 
 TASKS = ("classification", "regression")
 
@@ -24,16 +25,7 @@ DEFAULT_MAX_LEVELS = 10
 
 def check_xy(X: Any, y: Any, allow_nan: bool = True) -> tuple[np.ndarray, np.ndarray, list[str]]:
     """Float 2-D ``X`` (C order), 1-D ``y`` and column names; raises InputError."""
-    names = None
-    if hasattr(X, "columns"):
-        names = [str(c) for c in X.columns]
-        X = X.to_numpy()
-    try:
-        arr = np.asarray(X, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"X must be numeric: {exc}") from None
-    if arr.ndim != 2:
-        raise InputError(f"X must be 2-dimensional, got shape {arr.shape}")
+    arr, names = _as_2d_float(X)
     if names is None:
         names = [f"x{i}" for i in range(arr.shape[1])]
     yy = np.asarray(y.to_numpy() if hasattr(y, "to_numpy") else y)

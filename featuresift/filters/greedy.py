@@ -60,6 +60,7 @@ from featuresift.errors import InputError
 from featuresift.filters._common import check_xy, cost_arrays, resolve_cost_model
 from featuresift.filters.redundancy import BasePenalty, RunningRedundancy, make_penalty
 from featuresift.filters.relevance import relevance_scores
+from featuresift.search import _resolve_features
 
 __all__ = ["FilterStep", "FilterSelection", "budgeted_greedy", "mrmr", "FORMS", "COST_RULES"]
 
@@ -377,24 +378,9 @@ def budgeted_greedy(
         raise InputError(f"budget must be a number >= 0, got {budget!r}", key="budget")
     if min_gain is None and n_features is None:
         min_gain = 0.0
-    index = {n: i for i, n in enumerate(names)}
-
-    def cols(items, key):
-        out = []
-        for it in items:
-            if isinstance(it, str):
-                if it not in index:
-                    raise InputError(f"unknown feature '{it}'", key=key)
-                out.append(index[it])
-            else:
-                if not 0 <= int(it) < p:
-                    raise InputError(f"column index {it} out of range", key=key)
-                out.append(int(it))
-        return list(dict.fromkeys(out))
-
-    start = cols(must_include, "must_include")
+    start = list(dict.fromkeys(_resolve_features(must_include, names, "must_include")))
     banned = np.zeros(p, bool)
-    banned[cols(never_include, "never_include")] = True
+    banned[_resolve_features(never_include, names, "never_include")] = True
     if banned[start].any():
         raise InputError("a feature is both in must_include and never_include")
     if budget is not None and not cm.is_feasible(start, budget):
