@@ -1,0 +1,234 @@
+"""Command-line interface: ``featuresift run|validate|demo``.
+
+Every subcommand is a thin function over :mod:`featuresift.config` (or
+:mod:`featuresift.demo`). Exit codes: 0 success, 2 bad input (one line
+``featuresift: error: ...`` on stderr, nothing written), 1 an unexpected internal
+error (a short message; the traceback only with ``--debug``), 130 interrupted.
+
+Examples
+--------
+>>> main(["--version"])  # doctest: +ELLIPSIS
+featuresift ...
+0
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import sys
+import traceback
+from collections.abc import Sequence
+from typing import TextIO
+
+from featuresift import __version__
+from featuresift.config import build_run, describe_plan, load_config, run_from_config
+from featuresift.errors import FitFailedError, InputError
+
+__all__ = ["main", "build_parser"]
+
+PROG = "featuresift"
+
+_DESCRIPTION = """\
+Decide which measurements are worth paying for: search subsets of candidate
+measurements by cross-validated model score, under a cost budget, with panels
+of tests bought together for one price."""
+
+_RUN_EPILOG = """\
+exit codes: 0 done, 2 bad config or data (nothing written), 1 internal error.
+The YAML schema is documented in `python -m pydoc featuresift.config`;
+`featuresift demo` writes a complete example."""
+
+
+class _Quiet:
+    """A writable that discards everything (for --quiet)."""
+
+    def write(self, text: str) -> int:
+        return len(text)
+
+    def flush(self) -> None:
+        pass
+
+
+def _budget(text: str) -> float:
+    if text.strip().lower() in ("none", "null", "unlimited", "inf"):
+        return math.inf
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected a number or 'none', got {text!r}"
+        ) from None
+    if math.isnan(value) or value < 0:
+        raise argparse.ArgumentTypeError(f"expected a number >= 0, got {text!r}")
+    return value
+
+
+def _step_printer(stream: TextIO):
+    def show(step) -> None:
+        sc = step.scored
+        what = f"{step.action} {step.feature}" if step.feature else step.action
+        stream.write(
+            f"  step {step.step}: {what} -> {len(step.subset)} features, "
+            f"score {sc.mean:.4f}, cost {sc.cost:g} ({step.n_evaluations} evaluated)\n"
+        )
+        stream.flush()
+
+    return show
+
+
+# ------------------------------------------------------------------ subcommands
+def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
+    """``featuresift run CONFIG``: search, print, write the three result files."""
+    overrides = {
+        "output": args.output, "n_jobs": args.n_jobs, "budget": args.budget,
+        "strategy": args.strategy, "seed": args.seed,
+    }
+    cfg = load_config(args.config, **overrides)
+    if args.dry_run or args.verbose:
+        problem, _ = build_run(cfg)
+        out.write(describe_plan(cfg, problem) + "\n")
+        if args.dry_run:
+            out.write("Dry run: configuration and data are valid; nothing was fitted "
+                      "or written.\n")
+            return 0
+        out.write("\n")
+    callback = _step_printer(sys.stderr) if args.verbose else None
+    result = run_from_config(cfg, write=True, callback=callback)
+    out.write(result.summary() + "\n\n")
+    out.write("The CV score of a searched subset is optimistic for new data: the search "
+              "chose it on these folds.\n")
+    out.write(f"Results written to {cfg.output} (result.json, selected.csv, path.csv)\n")
+    return 0
+
+
+def cmd_validate(args: argparse.Namespace, out: TextIO) -> int:
+    """``featuresift validate CONFIG``: check config and data, fit nothing."""
+    cfg = load_config(args.config)
+    problem, _ = build_run(cfg)
+    budget = "unlimited" if cfg.budget is None else f"{cfg.budget:g}"
+    out.write(
+        f"OK: {args.config}: {problem.n_samples} rows, {problem.n_features} candidate "
+        f"features, {len(problem.splits)} CV splits, budget {budget} "
+        f"{cfg.cost_model.unit}\n"
+    )
+    return 0
+
+
+def cmd_demo(args: argparse.Namespace, out: TextIO) -> int:
+    """``featuresift demo``: write the invented grain-lab data set and its YAML."""
+    from featuresift.demo import write_demo
+
+    if args.n_lots < 10:
+        raise InputError(f"--n-lots must be at least 10, got {args.n_lots}")
+    paths = write_demo(args.folder, n_lots=args.n_lots, seed=args.seed)
+    for p in paths:
+        out.write(f"wrote {p}\n")
+    yml = next((p for p in paths if str(p).endswith((".yaml", ".yml"))), None)
+    if yml is not None:
+        out.write(f"next: featuresift run {yml}\n")
+    return 0
+
+
+# --------------------------------------------------------------------- parser
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser (subcommands run, validate, demo)."""
+    common = argparse.ArgumentParser(add_help=False)
+    common.add_argument("--debug", action="store_true",
+                        help="show the full traceback of an unexpected error")
+
+    parser = argparse.ArgumentParser(prog=PROG, description=_DESCRIPTION,
+                                     formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--version", action="version", version=f"{PROG} {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub.required = True
+
+    run = sub.add_parser(
+        "run", parents=[common], help="run the search described by a YAML config",
+        description="Load the data, search measurement subsets under the budget, print "
+        "the chosen measurements, their cost and CV score, and write result.json, "
+        "selected.csv and path.csv into the output folder.",
+        epilog=_RUN_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    run.add_argument("config", metavar="CONFIG", help="YAML run configuration")
+    run.add_argument("--output", metavar="DIR",
+                     help="write results here instead of output.folder (relative to the "
+                          "current directory; may be anywhere)")
+    run.add_argument("--n-jobs", type=int, metavar="N",
+                     help="parallel model fits, overriding n_jobs (-1: all cores)")
+    run.add_argument("--budget", type=_budget, metavar="X",
+                     help="cost budget per sample, overriding budget ('none' = unlimited)")
+    run.add_argument("--strategy", metavar="NAME",
+                     help="search strategy, overriding strategy.name (the file's strategy "
+                          "options are kept only if NAME is the same strategy)")
+    run.add_argument("--seed", type=int, metavar="S",
+                     help="random seed of the strategy, overriding seed (the CV folds "
+                          "keep cv.seed)")
+    noise = run.add_mutually_exclusive_group()
+    noise.add_argument("-q", "--quiet", action="store_true",
+                       help="print nothing except errors (files are still written)")
+    noise.add_argument("--verbose", action="store_true",
+                       help="print the plan first and each search step as it happens")
+    run.add_argument("--dry-run", action="store_true",
+                     help="check config and data and print the plan; fit and write nothing")
+    run.set_defaults(func=cmd_run)
+
+    val = sub.add_parser(
+        "validate", parents=[common], help="check a YAML config and its data, fit nothing",
+        description="Check the config and its data file (columns, costs, panels, budget, "
+        "model, CV folds, scorer, strategy). Exit 0 when valid, 2 otherwise.",
+    )
+    val.add_argument("config", metavar="CONFIG", help="YAML run configuration")
+    val.set_defaults(func=cmd_validate)
+
+    demo = sub.add_parser(
+        "demo", parents=[common],
+        help="write an invented grain-receiving-lab data set and its YAML config",
+        description="Write grain_lots.csv (a seeded, invented data set of wheat lots) and "
+        "grain_lab.yaml (a ready run configuration with invented costs) into a folder.",
+    )
+    demo.add_argument("--folder", default="featuresift-demo", metavar="DIR",
+                      help="folder to write into (default: %(default)s)")
+    demo.add_argument("--n-lots", type=int, default=1500, metavar="N",
+                      help="number of lots (rows) to generate (default: %(default)s)")
+    demo.add_argument("--seed", type=int, default=0, metavar="S",
+                      help="random seed of the generator (default: %(default)s)")
+    demo.set_defaults(func=cmd_demo)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; returns the exit code.
+
+    Parameters
+    ----------
+    argv : sequence of str, optional
+        Arguments without the program name (default: ``sys.argv[1:]``).
+    """
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # --help, --version, usage errors
+        return int(exc.code or 0) if not isinstance(exc.code, str) else 2
+    out: TextIO = _Quiet() if getattr(args, "quiet", False) else sys.stdout
+    try:
+        return args.func(args, out)
+    except InputError as exc:
+        print(f"{PROG}: error: {exc}", file=sys.stderr)
+        return 2
+    except FitFailedError as exc:
+        print(f"{PROG}: error: the model could not be fitted ({exc}); check model.params, "
+              "model.preprocessing and the data", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"{PROG}: interrupted", file=sys.stderr)
+        return 130
+    except Exception as exc:  # noqa: BLE001 - last line of defence of the CLI
+        if args.debug:
+            traceback.print_exc()
+        detail = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
+        print(f"{PROG}: internal error: {type(exc).__name__}"
+              + (f": {detail}" if detail else "")
+              + ("" if args.debug else " (run again with --debug for the traceback)"),
+              file=sys.stderr)
+        return 1
