@@ -12,8 +12,10 @@ cost keeps the subset within budget, and the size limit holds). It stops when
    ``tol`` over the current subset.
 
 Backward selection starts from all candidates (plus ``must_include``, minus
-``never_include``). Phase one removes features, best objective first, until the
-subset is within budget and size limit. Phase two keeps removing while the best
+``never_include``). Phase one removes features, best objective first (removals that
+reach the budget and size limit first), until the subset is allowed; should it end on a
+single feature still over the budget, it restarts from the best affordable single
+feature (added to ``must_include``). Phase two keeps removing while the best
 removal does not lower the objective by more than ``tol`` (default 0: "does not
 drop"), or — when ``n_features`` is given — until the target size is reached.
 
@@ -55,13 +57,21 @@ def best_step(space: SearchSpace, moves: list[tuple[int, Scored]]) -> tuple[int,
     return best_f, best_s
 
 
-def best_removal(space: SearchSpace, current: tuple[int, ...]) -> tuple[int, Scored] | None:
-    """Best (feature, scored) removal from ``current`` (one batch); None if none is removable."""
+def best_removal(
+    space: SearchSpace, current: tuple[int, ...], prefer_allowed: bool = False
+) -> tuple[int, Scored] | None:
+    """Best (feature, scored) removal from ``current`` (one batch); None if none is removable.
+
+    With ``prefer_allowed``, removals that leave an allowed subset win over those that
+    do not (used while the subset is still over the budget or the size limit).
+    """
     feats = space.removable(current)
     if not feats:
         return None
-    scored = space.evaluate([tuple(x for x in current if x != f) for f in feats])
-    return best_step(space, list(zip(feats, scored)))
+    moves = list(zip(feats, space.evaluate([tuple(x for x in current if x != f) for f in feats])))
+    if prefer_allowed:
+        moves = [m for m in moves if space.is_allowed(m[1].subset)] or moves
+    return best_step(space, moves)
 
 
 @register_strategy
@@ -161,13 +171,25 @@ class BackwardSelection(SearchStrategy):
         (current_scored,) = space.evaluate([current])
         space.record("start", current)
         # Phase one: reach the budget and the size limit.
-        while not space.is_allowed(current) and len(current) > len(space.must_include):
-            move = best_removal(space, current)
+        must = tuple(space.must_include)
+        while not space.is_allowed(current) and len(current) > max(len(must), 1):
+            move = best_removal(space, current, prefer_allowed=True)
             if move is None:
                 break
             f, current_scored = move
             current = current_scored.subset
             space.record("remove", current, f)
+        if not space.is_allowed(current):
+            # Elimination dead-ended above the budget (say, on one expensive panel):
+            # restart from the best affordable single addition to must_include.
+            feats = space.addable(must)
+            if not feats:
+                space.stop_reason = "no affordable subset"
+                return
+            f, current_scored = best_step(
+                space, list(zip(feats, space.evaluate([must + (g,) for g in feats]))))
+            current = current_scored.subset
+            space.record("restart", current, f)
         # Phase two: keep removing while it does not hurt (or down to the target size).
         target = self.n_features
         while current and (target is None or len(current) > target):
