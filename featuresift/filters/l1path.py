@@ -55,8 +55,8 @@ class L1Path:
     entry_step : ndarray of int
         Step at which each column entered (-1: never).
     entry_strength : ndarray of float
-        Penalty at entry divided by the largest penalty of the path: 1 for the first
-        column to enter, towards 0 for late ones, 0 for never.
+        Penalty at entry divided by the penalty at which the first column entered:
+        1 for the first column(s) to enter, towards 0 for late ones, 0 for never.
     penalties : ndarray
         Penalty of each step, decreasing (lasso ``alpha``; ``1/C`` for logistic).
     coefs : ndarray of shape (n_steps, n_features)
@@ -110,7 +110,8 @@ def _entry(coefs: np.ndarray, penalties: np.ndarray) -> tuple[list[int], np.ndar
     at_entry = np.where(entered, coefs[np.maximum(step, 0), np.arange(p)], 0.0)
     cols = np.where(entered)[0]
     order = sorted(cols.tolist(), key=lambda j: (step[j], -at_entry[j], j))
-    strength = np.where(entered, penalties[np.maximum(step, 0)] / penalties[0], 0.0)
+    first = penalties[step[entered].min()] if entered.any() else 1.0
+    strength = np.where(entered, penalties[np.maximum(step, 0)] / first, 0.0)
     return order, step, strength
 
 
@@ -204,8 +205,8 @@ def l1_order(X: Any, y: Any, task: str | None = None, n_steps: int = 50,
              eps: float = 1e-3) -> tuple[np.ndarray, None]:
     """Relevance from the ordinary L1 path: the entry strength of each column.
 
-    Returns the penalty at which each column enters divided by the largest penalty
-    (1 = first to enter, 0 = never), and no p-value.
+    Returns the penalty at which each column enters divided by the penalty at which
+    the first column entered (1 = first to enter, 0 = never), and no p-value.
 
     Examples
     --------
