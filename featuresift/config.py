@@ -1111,6 +1111,14 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
     for name in cfg.candidates:
         _numeric_column(frame, name, cfg.data.path.name)
     _check_target(cfg, ctx)
+    stratified = cfg.classification if cfg.cv.stratified is None else cfg.cv.stratified
+    if stratified:
+        counts = frame[cfg.data.target].value_counts()
+        if counts.min() < cfg.cv.folds:
+            raise ctx.error(
+                f"{cfg.cv.folds} folds, but class {counts.idxmin()!r} of the target has only "
+                f"{counts.min()} rows; every test fold needs each class", "cv.folds",
+            )
     if cfg.cv.group_column is not None:
         groups = frame[cfg.cv.group_column]
         if groups.isna().any():
