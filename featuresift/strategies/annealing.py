@@ -82,6 +82,7 @@ def neighbours(
     outs = space.removable(current)
     kinds = [kind for kind, ok in (("add", adds), ("drop", drops), ("swap", outs)) if ok]
     found: dict[tuple[int, ...], tuple[str, int | None, tuple[int, ...]]] = {}
+    swap_ins: dict[int, list[int]] = {}
     for _ in range(8 * k):
         if len(found) >= k or not kinds:
             break
@@ -95,7 +96,9 @@ def neighbours(
         else:
             out = int(outs[int(rng.integers(len(outs)))])
             rest = tuple(sorted(base - {out}))
-            ins = [g for g in space.addable(rest) if g != out]
+            if out not in swap_ins:
+                swap_ins[out] = [g for g in space.addable(rest) if g != out]
+            ins = swap_ins[out]
             if not ins:
                 continue
             f = int(ins[int(rng.integers(len(ins)))])

@@ -76,6 +76,7 @@ import time
 from abc import ABC, abstractmethod
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any, ClassVar
 
 import numpy as np
@@ -124,7 +125,7 @@ class Scored:
         """Sorted column indices."""
         return self.evaluation.subset
 
-    @property
+    @cached_property
     def mean(self) -> float:
         """Mean CV score."""
         return self.evaluation.mean
@@ -133,6 +134,19 @@ class Scored:
     def complete(self) -> bool:
         """True when every fold was run (not dropped by racing, not all failed)."""
         return self.evaluation.status == COMPLETE
+
+    @cached_property
+    def rank_key(self) -> tuple:
+        """Sort key, larger is better (see :meth:`SearchSpace.rank_key`); computed once."""
+        value = self.value if not math.isnan(self.value) else -math.inf
+        return (
+            self.complete,
+            value,
+            self.mean,
+            -round(self.cost, 12),
+            -len(self.subset),
+            tuple(-i for i in self.subset),
+        )
 
 
 @dataclass(frozen=True)
@@ -385,21 +399,13 @@ class SearchSpace:
 
         Incomplete evaluations (dropped by racing or failed) rank below complete ones.
         """
-        value = scored.value if not math.isnan(scored.value) else -math.inf
-        return (
-            scored.complete,
-            value,
-            scored.mean,
-            -round(scored.cost, 12),
-            -len(scored.subset),
-            tuple(-i for i in scored.subset),
-        )
+        return scored.rank_key
 
     def best_of(self, scored: Iterable[Scored]) -> Scored | None:
         """The best of some scored subsets by :meth:`rank_key` (None if empty)."""
         best = None
         for s in scored:
-            if best is None or self.rank_key(s) > self.rank_key(best):
+            if best is None or s.rank_key > best.rank_key:
                 best = s
         return best
 

@@ -17,7 +17,8 @@ reach the budget and size limit first), until the subset is allowed; should it e
 single feature still over the budget, it restarts from the best affordable single
 feature (added to ``must_include``). Phase two keeps removing while the best
 removal does not lower the objective by more than ``tol`` (default 0: "does not
-drop"), or — when ``n_features`` is given — until the target size is reached.
+drop"), or — when ``n_features`` is given — until the target size is reached; it
+never removes the last feature (the empty subset is not evaluated).
 
 Tie-break at every step: higher objective, then higher mean score, then lower cost,
 then fewer features, then the feature that comes first in column order.
@@ -192,7 +193,7 @@ class BackwardSelection(SearchStrategy):
             space.record("restart", current, f)
         # Phase two: keep removing while it does not hurt (or down to the target size).
         target = self.n_features
-        while current and (target is None or len(current) > target):
+        while len(current) > 1 and (target is None or len(current) > target):
             move = best_removal(space, current)
             if move is None:
                 space.stop_reason = "only must_include features left"
@@ -204,7 +205,8 @@ class BackwardSelection(SearchStrategy):
             current, current_scored = best.subset, best
             space.record("remove", current, f)
         else:
-            if target is not None:
-                space.stop_reason = f"target size {target} reached"
+            space.stop_reason = (
+                f"target size {target} reached" if target is not None else "one feature left"
+            )
         if space.is_allowed(current):
             space.choose(current)
