@@ -1096,6 +1096,8 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
     elif output is None:
         output = (path.parent / "results" / path.stem).resolve()
     if output.exists() and not output.is_dir():
+        if "output" in given:
+            raise InputError(f"--output {output}: exists and is not a folder")
         raise ctx.error(f"{output} exists and is not a folder", "output.folder")
     core = {k: v for k, v in parsed.items() if k in _CORE_FIELDS}
     extra = {k: v for k, v in parsed.items() if k not in _CORE_FIELDS}
@@ -1275,8 +1277,8 @@ def run_from_config(
     >>> import tempfile
     >>> from featuresift.demo import write_demo
     >>> with tempfile.TemporaryDirectory() as d:
-    ...     res = run_from_config(write_demo(d, n_lots=80)[1], budget=3.0)
-    >>> res.cost <= 3.0
+    ...     res = run_from_config(write_demo(d, n_lots=80)[1], budget=0.5)
+    >>> res.cost <= 0.5
     True
     """
     if isinstance(config, RunConfig):
@@ -1307,6 +1309,15 @@ def describe_plan(cfg: RunConfig, problem: SelectionProblem | None = None) -> st
     cfg : RunConfig
     problem : SelectionProblem, optional
         When given, the number of CV splits actually made is reported.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     plan = describe_plan(load_config(write_demo(d, n_lots=60)[1]))
+    >>> print(plan.splitlines()[-3])
+    Search: forward {}, seed 0, n_jobs 1
     """
     cm = cfg.cost_model
     unit = cm.unit
@@ -1340,7 +1351,9 @@ def describe_plan(cfg: RunConfig, problem: SelectionProblem | None = None) -> st
     n_splits = len(problem.splits) if problem is not None else cv.folds * cv.repeats
     group = f", groups from '{cv.group_column}'" if cv.group_column else ""
     lines.append(f"CV:     {desc}, {n_splits} splits{group}, seed {cv.seed}")
-    lines.append(f"Score:  {cfg.scoring or 'estimator score method'}; objective "
+    own = make_objective(cfg.objective).required_scorer() is not None
+    scorer = "the objective's own scorer" if own else (cfg.scoring or "estimator score method")
+    lines.append(f"Score:  {scorer}; objective "
                  f"{_plain(cfg.objective)}; pick {cfg.pick}")
     lines.append(f"Search: {cfg.strategy['name']} {_plain(cfg.strategy['options'])}, "
                  f"seed {cfg.seed}, n_jobs {cfg.n_jobs}")

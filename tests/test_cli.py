@@ -82,6 +82,16 @@ def test_bad_override_on_the_command_line(tmp_path, capsys):
     assert not (tmp_path / "c" / "results").exists()
 
 
+def test_output_override_that_is_a_file(tmp_path, capsys):
+    path = cases.write_case(tmp_path / "c")
+    blocker = tmp_path / "taken.txt"
+    blocker.write_text("not a folder")
+    assert main(["run", str(path), "--output", str(blocker)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"featuresift: error: --output {blocker}: exists and is not a folder")
+    assert blocker.read_text() == "not a folder"
+
+
 def test_missing_config_file(tmp_path, capsys):
     assert main(["validate", str(tmp_path / "nope.yaml")]) == 2
     err = capsys.readouterr().err
