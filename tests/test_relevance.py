@@ -366,3 +366,21 @@ def test_registry_names_options_and_callables():
         relevance_scores(X, X[:, 0], "anova_f")
     with pytest.raises(InputError, match="returned 2 scores for 4 columns"):
         relevance_scores(X, y, lambda X, y: (np.zeros(2), None))
+
+
+def test_vectorised_discretisation_equals_the_column_rule():
+    from featuresift.filters._common import discretize_column, discretize_matrix
+
+    rng = np.random.default_rng(11)
+    X = np.column_stack([
+        rng.normal(size=90),                       # continuous
+        rng.integers(0, 4, size=90),               # few integer levels: used as they are
+        rng.integers(0, 40, size=90),              # many integer levels: binned
+        np.repeat([1.5, 2.5, 2.5], 30),            # heavy ties: repeated quantile edges
+        np.full(90, 3.0),                          # constant
+        np.where(rng.uniform(size=90) < 0.1, np.nan, rng.normal(size=90)),  # missing
+    ])
+    for n_bins in (2, 5, 7):
+        codes = discretize_matrix(X, n_bins)
+        for j in range(X.shape[1]):
+            np.testing.assert_array_equal(codes[:, j], discretize_column(X[:, j], n_bins))

@@ -106,6 +106,79 @@ def discretize_column(
     return out
 
 
+def discretize_matrix(
+    X: np.ndarray, n_bins: int = 5, max_levels: int = DEFAULT_MAX_LEVELS
+) -> np.ndarray:
+    """:func:`discretize_column` applied to every column, vectorised over columns.
+
+    Gives exactly the codes of :func:`discretize_column` (tested), in O(n p log n)
+    array operations instead of a Python loop; columns with NaN use the loop.
+    """
+    X = np.asarray(X, dtype=float)
+    n, p = X.shape
+    codes = np.empty((n, p), dtype=np.intp)
+    has_nan = np.isnan(X).any(axis=0)
+    for j in np.where(has_nan)[0]:
+        codes[:, j] = discretize_column(X[:, j], n_bins, max_levels)
+    clean = np.where(~has_nan)[0]
+    if clean.size == 0 or n == 0:
+        return codes
+    Xc = X[:, clean]
+    order = np.argsort(Xc, axis=0, kind="stable")
+    Xs = np.take_along_axis(Xc, order, axis=0)
+    step = np.vstack([np.zeros((1, clean.size), bool), np.diff(Xs, axis=0) != 0])
+    n_levels = step.sum(axis=0) + 1
+    discrete = (n_levels <= max_levels) & np.all(Xc == np.round(Xc), axis=0)
+    out = np.empty(Xc.shape, dtype=np.intp)
+    # Discrete columns: dense ranks of the values (= np.unique's inverse).
+    dense = np.cumsum(step, axis=0)
+    np.put_along_axis(out, order, dense, axis=0)
+    cont = np.where(~discrete)[0]
+    if cont.size:
+        Xk = Xc[:, cont]
+        edges = np.quantile(Xk, np.linspace(0, 1, n_bins + 1)[1:-1], axis=0)
+        if edges.ndim == 1:
+            edges = edges[:, None]
+        fresh = np.vstack([np.ones((1, cont.size), bool), np.diff(edges, axis=0) != 0])
+        raw = np.zeros(Xk.shape, dtype=np.intp)
+        for k in range(edges.shape[0]):
+            raw += (Xk >= edges[k]) & fresh[k]
+        # Relabel so that empty bins are skipped (as np.unique's inverse does).
+        width = edges.shape[0] + 1
+        present = np.zeros((cont.size, width), bool)
+        present[np.repeat(np.arange(cont.size)[None, :], n, axis=0), raw] = True
+        remap = np.cumsum(present, axis=1) - 1
+        out[:, cont] = remap[np.arange(cont.size)[None, :], raw]
+    codes[:, clean] = out
+    return codes
+
+
+def joint_tables(codes: np.ndarray, target: np.ndarray, n_target: int) -> np.ndarray:
+    """Contingency tables of every column against an integer target, shape (p, L, k).
+
+    Rows whose column code is -1 (missing) are left out of that column's table.
+    """
+    n, p = codes.shape
+    levels = int(codes.max()) + 1 if codes.size else 1
+    safe = np.where(codes < 0, levels, codes)  # missing -> a trash level, dropped below
+    idx = (np.arange(p)[None, :] * (levels + 1) + safe) * n_target + target[:, None]
+    tab = np.bincount(idx.ravel(), minlength=p * (levels + 1) * n_target)
+    return tab.reshape(p, levels + 1, n_target)[:, :levels, :].astype(float)
+
+
+def plugin_mi_tables(tables: np.ndarray) -> np.ndarray:
+    """Plug-in mutual information (nats) of each (L, k) table in a (p, L, k) stack."""
+    n = tables.sum(axis=(1, 2))
+    a = tables.sum(axis=2, keepdims=True)
+    b = tables.sum(axis=1, keepdims=True)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        terms = tables * (np.log(tables) + np.log(n)[:, None, None] - np.log(a) - np.log(b))
+    terms[tables == 0] = 0.0
+    with np.errstate(invalid="ignore"):
+        mi = terms.sum(axis=(1, 2)) / n
+    return np.maximum(np.nan_to_num(mi, nan=0.0), 0.0)
+
+
 def check_positive_int(value: Any, name: str, minimum: int = 1) -> int:
     """``value`` as an int >= ``minimum``; InputError naming ``name`` otherwise."""
     if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < minimum:

@@ -46,7 +46,13 @@ from typing import Any, ClassVar
 import numpy as np
 
 from featuresift.errors import InputError
-from featuresift.filters._common import DEFAULT_MAX_LEVELS, check_positive_int, discretize_column
+from featuresift.filters._common import (
+    DEFAULT_MAX_LEVELS,
+    check_positive_int,
+    discretize_matrix,
+    joint_tables,
+    plugin_mi_tables,
+)
 
 __all__ = [
     "BasePenalty",
@@ -171,32 +177,17 @@ class MutualInfoPenalty(BasePenalty):
         self.max_levels = check_positive_int(max_levels, "max_levels", 1)
 
     def prepare(self, X: np.ndarray) -> MutualInfoPenalty:
-        X = np.asarray(X, dtype=float)
-        codes = np.empty(X.shape, dtype=np.intp)
-        for j in range(X.shape[1]):
-            c = discretize_column(X[:, j], self.n_bins, self.max_levels)
-            # "missing" is one more level
-            codes[:, j] = np.where(c < 0, c.max() + 1, c)
+        codes = discretize_matrix(np.asarray(X, dtype=float), self.n_bins, self.max_levels)
+        # "missing" is one more level of its column
+        top = codes.max(axis=0, initial=-1)
+        codes = np.where(codes < 0, top + 1, codes)
         self._codes = codes
-        self._levels = codes.max(axis=0) + 1 if codes.size else np.zeros(0, np.intp)
-        self._lmax = int(self._levels.max()) if codes.size else 1
+        self._levels = codes.max(axis=0, initial=0) + 1
         return self
 
     def similarity(self, j: int) -> np.ndarray:
-        codes = self._codes
-        n, p = codes.shape
-        cj = codes[:, j]
-        lj = int(self._levels[j])
-        lmax = self._lmax
-        idx = (np.arange(p)[None, :] * lmax + codes) * lj + cj[:, None]
-        joint = np.bincount(idx.ravel(), minlength=p * lmax * lj).reshape(p, lmax, lj)
-        joint = joint.astype(float)
-        pa = joint.sum(axis=2, keepdims=True)
-        pb = joint.sum(axis=1, keepdims=True)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            terms = joint * (np.log(joint) + np.log(n) - np.log(pa) - np.log(pb))
-        terms[joint == 0] = 0.0
-        return np.maximum(terms.sum(axis=(1, 2)) / n, 0.0)
+        tables = joint_tables(self._codes, self._codes[:, j], int(self._levels[j]))
+        return plugin_mi_tables(tables)
 
 
 REDUNDANCY_PENALTIES: dict[str, tuple[type[BasePenalty], dict]] = {

@@ -82,10 +82,13 @@ from featuresift.filters._common import (
     check_positive_int,
     check_xy,
     discretize_column,
+    discretize_matrix,
     encode_labels,
     infer_task,
     is_discrete_column,
+    joint_tables,
     numeric_target,
+    plugin_mi_tables,
 )
 
 __all__ = [
@@ -271,15 +274,26 @@ def chi_square(
     if mode != "contingency":
         raise InputError(f"chi2 mode must be 'contingency' or 'frequency', got {mode!r}")
     n_bins = check_positive_int(n_bins, "n_bins", 2)
-    p = X.shape[1]
-    scores, pvals = np.zeros(p), np.ones(p)
-    for j in range(p):
-        xc = discretize_column(X[:, j], n_bins, max_levels)
-        ok = xc >= 0
-        levels = int(xc[ok].max()) + 1 if ok.any() else 0
-        table = np.bincount(xc[ok] * k + codes[ok], minlength=levels * k).reshape(levels, k)
-        scores[j], pvals[j], _ = pearson_chi_square_table(table)
-    return scores, pvals
+    tables = joint_tables(discretize_matrix(X, n_bins, max_levels), codes, k)
+    return _chi2_of_tables(tables)
+
+
+def _chi2_of_tables(tables: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Pearson X^2 and p-value of each table of a (p, L, k) stack (empty rows/columns
+    dropped; a table left with one row or column gives 0 and 1)."""
+    n = tables.sum(axis=(1, 2))
+    a = tables.sum(axis=2, keepdims=True)
+    b = tables.sum(axis=1, keepdims=True)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        expected = a * b / n[:, None, None]
+        cells = np.where(expected > 0, (tables - expected) ** 2 / expected, 0.0)
+    stat = cells.sum(axis=(1, 2))
+    dof = ((a[:, :, 0] > 0).sum(axis=1) - 1) * ((b[:, 0, :] > 0).sum(axis=1) - 1)
+    ok = dof > 0
+    pvals = np.ones(stat.size)
+    pvals[ok] = stats.chi2.sf(stat[ok], dof[ok])
+    stat[~ok] = 0.0
+    return stat, pvals
 
 
 # ---------------------------------------------------------- mutual information
@@ -370,7 +384,10 @@ def mutual_info(
         yf = numeric_target(y)
         ydisc = estimator == "plugin" or is_discrete_column(yf, max_levels)
         ycodes = discretize_column(yf, n_bins, max_levels) if ydisc else None
-    discrete = np.array([is_discrete_column(X[:, j], max_levels) for j in range(p)], bool)
+    if estimator == "plugin":
+        discrete = np.ones(p, bool)  # unused: every column is binned
+    else:
+        discrete = np.array([is_discrete_column(X[:, j], max_levels) for j in range(p)], bool)
     if estimator == "plugin":
         use_plugin = np.ones(p, bool)
     elif estimator == "knn":
@@ -379,15 +396,17 @@ def mutual_info(
         use_plugin = discrete & ydisc
     scores = np.zeros(p)
     pvals = np.full(p, np.nan)
-    for j in np.where(use_plugin)[0]:
-        xc = discretize_column(X[:, j], n_bins, max_levels)
-        ok = xc >= 0
-        mi = plugin_mutual_info(xc[ok], ycodes[ok])
-        scores[j] = mi
-        lx = np.unique(xc[ok]).size
-        ly = np.unique(ycodes[ok]).size
-        dof = (lx - 1) * (ly - 1)
-        pvals[j] = stats.chi2.sf(2 * ok.sum() * mi, dof) if dof > 0 else 1.0
+    plug = np.where(use_plugin)[0]
+    if plug.size:
+        codes = discretize_matrix(X[:, plug], n_bins, max_levels)
+        tables = joint_tables(codes, ycodes, int(ycodes.max()) + 1)
+        mi = plugin_mi_tables(tables)
+        scores[plug] = mi
+        a = (tables.sum(axis=2) > 0).sum(axis=1)
+        b = (tables.sum(axis=1) > 0).sum(axis=1)
+        dof = (a - 1) * (b - 1)
+        g = 2 * tables.sum(axis=(1, 2)) * mi
+        pvals[plug] = np.where(dof > 0, stats.chi2.sf(g, np.maximum(dof, 1)), 1.0)
     knn_cols = np.where(~use_plugin)[0]
     func = mutual_info_classif if task == "classification" else mutual_info_regression
     target = y if task == "classification" else numeric_target(y)
