@@ -1,0 +1,159 @@
+"""MeasurementSelector: scikit-learn API compliance and behaviour."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from sklearn.base import clone
+from sklearn.datasets import load_iris, make_classification
+from sklearn.impute import SimpleImputer
+from sklearn.linear_model import LogisticRegression
+from sklearn.naive_bayes import GaussianNB
+from sklearn.pipeline import make_pipeline
+from sklearn.utils.estimator_checks import parametrize_with_checks
+
+from featuresift.errors import InputError
+from featuresift.problem import SelectionProblem
+from featuresift.search import run_search
+from featuresift.selector import MeasurementSelector, build_cost_model
+
+pytestmark = pytest.mark.usefixtures("single_blas_thread")
+
+
+# Reference: scikit-learn's own estimator API checks. Every check applies and passes, so
+# no expected-failure dict is needed. GaussianNB and 2 folds keep the run short.
+@parametrize_with_checks([MeasurementSelector(GaussianNB(), cv=2)])
+def test_sklearn_estimator_checks(estimator, check):
+    check(estimator)
+
+
+@pytest.fixture(scope="module")
+def iris_frame():
+    X, y = load_iris(return_X_y=True, as_frame=True)
+    return X, y
+
+
+IRIS_PRICES = {
+    "sepal length (cm)": 1.0, "sepal width (cm)": 1.0,
+    "petal length (cm)": 4.0, "petal width (cm)": 4.0,
+}
+
+
+def test_dataframe_in_feature_names_out(iris_frame):
+    X, y = iris_frame
+    sel = MeasurementSelector(GaussianNB(), costs=IRIS_PRICES, budget=5.0, cv=3).fit(X, y)
+    assert list(sel.feature_names_in_) == list(X.columns)
+    assert list(sel.get_feature_names_out()) == sel.selected_features_
+    assert sel.selected_features_ == [X.columns[i] for i in np.flatnonzero(sel.support_)]
+    out = sel.set_output(transform="pandas").transform(X)
+    assert isinstance(out, pd.DataFrame)
+    assert list(out.columns) == sel.selected_features_
+    assert sel.cost_ <= 5.0
+    assert sel.cost_ == sel.cost_model_.cost(sel.selected_features_)
+
+
+def test_selector_matches_run_search_on_the_same_problem(iris_frame):
+    # The facade must add nothing: the same problem through run_search picks the same.
+    X, y = iris_frame
+    sel = MeasurementSelector(GaussianNB(), costs=IRIS_PRICES, budget=6.0, cv=3).fit(X, y)
+    problem = SelectionProblem(X, y, GaussianNB(), cost_model=sel.cost_model_, cv=3)
+    direct = run_search(problem, "forward", budget=6.0)
+    assert sel.selected_features_ == direct.selected
+    assert sel.score_ == direct.score_mean
+    assert sel.result_.to_dict()["path"] == direct.to_dict()["path"]
+
+
+def test_array_input_with_array_costs_and_a_panel():
+    X, y = make_classification(
+        n_samples=120, n_features=6, n_informative=3, n_redundant=0, random_state=0
+    )
+    # x2 and x3 come from one panel (price 3); their own entries must be 0 or NaN.
+    costs = [1.0, 2.0, 0.0, np.nan, 0.5, 1.5]
+    sel = MeasurementSelector(
+        GaussianNB(), costs=costs, panels={"kit": {"cost": 3.0, "features": ["x2", "x3"]}},
+        cost_unit="EUR", budget=4.0, cv=3,
+    ).fit(X, y)
+    assert sel.n_features_in_ == 6
+    assert not hasattr(sel, "feature_names_in_")
+    assert sel.cost_ <= 4.0
+    assert sel.result_.cost_unit == "EUR"
+    assert sel.transform(X).shape == (120, int(sel.support_.sum()))
+    assert sel.cost_model_.cost(["x2", "x3"]) == 3.0  # hand-worked: the panel, once
+
+
+def test_no_costs_means_one_per_feature(iris_frame):
+    X, y = iris_frame
+    sel = MeasurementSelector(GaussianNB(), budget=2, cv=3).fit(X, y)
+    assert sel.cost_ == len(sel.selected_features_) <= 2
+    assert sel.result_.cost_unit == "features"
+
+
+def test_strategy_options_and_must_never_include(iris_frame):
+    X, y = iris_frame
+    sel = MeasurementSelector(
+        GaussianNB(), strategy="forward", strategy_options={"n_features": 3}, cv=3,
+        must_include=["sepal width (cm)"], never_include=["petal length (cm)"],
+    ).fit(X, y)
+    assert len(sel.selected_features_) == 3
+    assert "sepal width (cm)" in sel.selected_features_
+    assert "petal length (cm)" not in sel.selected_features_
+
+
+def test_backward_strategy_by_name(iris_frame):
+    X, y = iris_frame
+    sel = MeasurementSelector(GaussianNB(), strategy="backward", costs=IRIS_PRICES,
+                              budget=5.0, cv=3).fit(X, y)
+    assert sel.result_.strategy["name"] == "backward"
+    assert sel.cost_ <= 5.0
+
+
+def test_in_a_pipeline_and_cloned(iris_frame):
+    X, y = iris_frame
+    pipe = make_pipeline(
+        MeasurementSelector(GaussianNB(), costs=IRIS_PRICES, budget=5.0, cv=3),
+        LogisticRegression(max_iter=500),
+    )
+    pipe.fit(X, y)
+    assert pipe.predict(X).shape == (150,)
+    sel = pipe[0]
+    copy = clone(sel)
+    assert copy.get_params()["costs"] is not None
+    assert not hasattr(copy, "support_")
+
+
+def test_missing_values_follow_the_estimator():
+    X, y = make_classification(n_samples=80, n_features=4, random_state=1)
+    X[::7, 1] = np.nan
+    with pytest.raises(ValueError, match="NaN"):
+        MeasurementSelector(GaussianNB(), cv=2).fit(X, y)
+    imputing = make_pipeline(SimpleImputer(), GaussianNB())
+    sel = MeasurementSelector(imputing, cv=2).fit(X, y)
+    assert sel.support_.any()
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "match"),
+    [
+        ({"budget": 0.5}, r"budget: budget 0.5 features is below the cheapest"),
+        ({"costs": [1.0, 2.0]}, r"costs: 2 costs given for 4 columns"),
+        ({"costs": {"x0": -1.0, "x1": 1, "x2": 1, "x3": 1}}, r"costs\.features\.x0"),
+        ({"panels": {"kit": {"cost": 2.0}}}, r"panels\.kit: a panel is"),
+        ({"panels": {"kit": (2.0, "x1")}}, r"panels\.kit\.features"),
+        ({"costs": [1.0, 1.0, 1.0, 1.0], "panels": {"kit": (2.0, ["x3"])}},
+         r"costs\[3\]: 'x3' is paid through its panel"),
+        ({"must_include": ["nope"]}, r"must_include: unknown feature 'nope'"),
+        ({"strategy": "no-such-strategy"}, r"unknown strategy 'no-such-strategy'"),
+    ],
+)
+def test_bad_arguments_raise_input_error(kwargs, match):
+    X, y = make_classification(n_samples=40, n_features=4, random_state=0)
+    with pytest.raises(InputError, match=match):
+        MeasurementSelector(GaussianNB(), cv=2, **kwargs).fit(X, y)
+
+
+def test_cost_model_instance_must_match_the_columns():
+    cm = build_cost_model(["a", "b"])
+    X, y = make_classification(n_samples=40, n_features=4, random_state=0)
+    with pytest.raises(InputError, match="features must be the columns"):
+        MeasurementSelector(GaussianNB(), costs=cm, cv=2).fit(X, y)
