@@ -5,28 +5,64 @@ it never learns how the scores are computed. :class:`CrossValidationEvaluator`
 fits clones of a scikit-learn estimator on fixed CV splits; :class:`CriterionEvaluator`
 scores subsets with a plain function (useful for tests and for model-free criteria).
 
-Both memoise by subset: within one evaluator no subset is evaluated twice.
+How :class:`CrossValidationEvaluator` spends its time
+------------------------------------------------------
+* **One dispatch per batch.** Every (subset, fold) fit a batch needs goes into one
+  joblib call, grouped into a few tasks per worker (``chunk_size``) so that the
+  per-task overhead is paid a few times per batch rather than once per fit. The
+  estimator template, data and splits travel with each task (joblib memory-maps
+  large arrays); each fit clones the template inside the worker.
+* **One BLAS thread per fit** (``inner_threads``), in workers and in-process alike:
+  small fits are several times faster single-threaded, and two workers on two cores
+  must not each start two BLAS threads.
+* **A fold-level cache.** What is known about a subset is kept fold by fold, so a
+  subset is fitted at most once per fold; the optional journal keeps the same cache
+  on disk across runs (:mod:`featuresift.journal`).
+* **Optional racing** (:mod:`featuresift.racing`): a batch is scored in rounds of
+  folds and candidates statistically behind the leader stop early.
+
+Results never depend on ``n_jobs``, ``chunk_size``, the joblib backend, the cache
+or the journal: the fits are the same, results are put back in (subset, fold)
+order, and a race's decisions depend only on the fold scores.
 """
 
 from __future__ import annotations
 
+import math
+import os
 import time
 from abc import ABC, abstractmethod
 from collections.abc import Callable, Iterable, Sequence
+from contextlib import nullcontext
+from typing import Any
 
 import numpy as np
+from joblib import effective_n_jobs
+from sklearn.base import clone
 from sklearn.dummy import DummyClassifier, DummyRegressor
 from sklearn.utils.parallel import Parallel, delayed
 
 from featuresift.errors import FitFailedError, InputError
+from featuresift.journal import Journal, open_journal
 from featuresift.problem import SelectionProblem
-from featuresift.records import COMPLETE, FAILED, Evaluation
+from featuresift.progress import make_progress
+from featuresift.racing import BaseRace, make_race
+from featuresift.records import DROPPED, Evaluation, FoldTable
 
 __all__ = ["BaseEvaluator", "CrossValidationEvaluator", "CriterionEvaluator", "normalise_subset"]
 
+ON_FIT_ERROR = ("raise", "record")
+"""Failure policies: stop at the first failing fit, or record the fold as NaN."""
+
 
 def normalise_subset(subset: Iterable[int], n_features: int) -> tuple[int, ...]:
-    """Sorted tuple of unique column indices, range-checked."""
+    """Sorted tuple of unique column indices, range-checked.
+
+    Examples
+    --------
+    >>> normalise_subset([3, 1, 3], n_features=5)
+    (1, 3)
+    """
     out = tuple(sorted({int(i) for i in subset}))
     if out and (out[0] < 0 or out[-1] >= n_features):
         raise InputError(f"subset {out} has a column index outside 0..{n_features - 1}")
@@ -38,16 +74,18 @@ class BaseEvaluator(ABC):
 
     Subclasses implement :meth:`_evaluate_new` for subsets not seen before; this
     base class handles normalisation, de-duplication within a batch, memoisation
-    and the history.
+    and the history. Evaluations with status ``"dropped"`` (racing) are kept for
+    :meth:`lookup` but never served as cached answers.
 
     Attributes
     ----------
     history : list of Evaluation
-        Every distinct evaluation, in the order it was first computed.
+        Every evaluation produced, in order (a subset dropped by racing and
+        completed later appears twice).
     n_fits : int
         Model fits performed (one per subset and fold for CV evaluators).
     n_cache_hits : int
-        Requests answered from memory.
+        Requests answered without any fit.
     """
 
     def __init__(self, n_features: int, feature_names: Sequence[str] | None = None) -> None:
@@ -68,34 +106,56 @@ class BaseEvaluator(ABC):
         ----------
         subsets : sequence of iterables of int
             Column indices of each subset. Order within a subset does not matter.
+
+        Returns
+        -------
+        list of Evaluation
+            Repeated subsets get the same object.
         """
         keys = [normalise_subset(s, self.n_features) for s in subsets]
-        todo: list[tuple[int, ...]] = []
-        seen: set[tuple[int, ...]] = set()
-        for k in keys:
-            if k in self._memo or k in seen:
-                self.n_cache_hits += 1
-            else:
-                seen.add(k)
-                todo.append(k)
+        unique = list(dict.fromkeys(keys))
+        self.n_cache_hits += len(keys) - len(unique)
+        found = self._evaluate_unique(unique)
+        return [found[k] for k in keys]
+
+    def _evaluate_unique(
+        self, keys: list[tuple[int, ...]]
+    ) -> dict[tuple[int, ...], Evaluation]:
+        todo = [k for k in keys if not self._is_cached(k)]
+        self.n_cache_hits += len(keys) - len(todo)
         if todo:
             for ev in self._evaluate_new(todo):
-                self._memo[ev.subset] = ev
-                self.history.append(ev)
-        return [self._memo[k] for k in keys]
+                self._remember(ev)
+        return {k: self._memo[k] for k in keys}
+
+    def _is_cached(self, key: tuple[int, ...]) -> bool:
+        ev = self._memo.get(key)
+        return ev is not None and ev.status != DROPPED
+
+    def _remember(self, ev: Evaluation) -> Evaluation:
+        """Store ``ev`` (or keep an equal stored one); returns the stored object."""
+        old = self._memo.get(ev.subset)
+        if old is not None and old == ev and old.n_folds_run == ev.n_folds_run:
+            return old
+        self._memo[ev.subset] = ev
+        self.history.append(ev)
+        return ev
 
     def lookup(self, subset: Iterable[int]) -> Evaluation | None:
-        """The stored evaluation of a subset, or None (never triggers a fit)."""
+        """The latest evaluation of a subset (possibly ``"dropped"``), or None.
+
+        Never triggers a fit.
+        """
         return self._memo.get(normalise_subset(subset, self.n_features))
 
     @property
     def n_evaluations(self) -> int:
-        """Number of distinct subsets evaluated."""
+        """Number of evaluations produced (see ``history``)."""
         return len(self.history)
 
     @abstractmethod
     def _evaluate_new(self, subsets: list[tuple[int, ...]]) -> list[Evaluation]:
-        """Evaluate subsets never seen before (sorted, unique tuples)."""
+        """Evaluate subsets that have no usable stored evaluation (sorted, unique tuples)."""
 
 
 class CriterionEvaluator(BaseEvaluator):
@@ -130,39 +190,64 @@ class CriterionEvaluator(BaseEvaluator):
         return out
 
 
+# --------------------------------------------------------------------------- workers
+_CONTROLLER: Any = None
+
+
+def _limit_threads(inner_threads: int | None):
+    """Context limiting BLAS threads in this process (a no-op for None)."""
+    global _CONTROLLER
+    if inner_threads is None:
+        return nullcontext()
+    if _CONTROLLER is None:
+        from threadpoolctl import ThreadpoolController
+
+        _CONTROLLER = ThreadpoolController()
+    return _CONTROLLER.limit(limits=inner_threads, user_api="blas")
+
+
 def _baseline_estimator(classification: bool):
     return DummyClassifier(strategy="prior") if classification else DummyRegressor()
 
 
-def _fit_and_score(estimator, X, y, cols, train, test, scorer, classification, on_error):
-    """Fit one clone on one fold and score it. Module-level so joblib can pickle it.
+def _fit_chunk(template, X, y, splits, items, scorer, classification, on_error, inner_threads):
+    """Fit and score a list of ``(columns, fold)`` items. Module-level so joblib can pickle it.
 
-    Returns ``(score, seconds, error_message_or_None)``.
+    Returns one ``(score, seconds, error_message_or_None)`` per item, in order.
     """
-    t0 = time.perf_counter()
-    if len(cols) == 0:
-        # The empty subset: a prior-only baseline fitted on a constant column.
-        Xs = np.zeros((X.shape[0], 1))
-        estimator = _baseline_estimator(classification)
-    else:
-        Xs = X[:, cols]
-    try:
-        estimator.fit(Xs[train], y[train])
-        score = float(scorer(estimator, Xs[test], y[test]))
-    except Exception as exc:  # noqa: BLE001 - the policy decides
-        if on_error == "raise":
-            raise FitFailedError(
-                f"fit failed on subset {list(cols)}: {type(exc).__name__}: {exc}"
-            ) from exc
-        return float("nan"), time.perf_counter() - t0, f"{type(exc).__name__}: {exc}"
-    return score, time.perf_counter() - t0, None
+    out = []
+    cols_seen: tuple[int, ...] | None = None
+    Xs = X
+    with _limit_threads(inner_threads):
+        for cols, fold in items:
+            t0 = time.perf_counter()
+            if cols != cols_seen:
+                # The empty subset is scored by a prior-only baseline on a constant column.
+                Xs = np.zeros((X.shape[0], 1)) if not cols else X[:, list(cols)]
+                cols_seen = cols
+            train, test = splits[fold]
+            est = _baseline_estimator(classification) if not cols else clone(template)
+            try:
+                est.fit(Xs[train], y[train])
+                score = float(scorer(est, Xs[test], y[test]))
+            except Exception as exc:  # noqa: BLE001 - the failure policy decides
+                message = f"{type(exc).__name__}: {exc}"
+                if on_error == "raise":
+                    raise FitFailedError(
+                        f"fit failed on subset {list(cols)}, fold {fold}: {message}"
+                    ) from exc
+                out.append((math.nan, time.perf_counter() - t0, message))
+                continue
+            out.append((score, time.perf_counter() - t0, None))
+    return out
 
 
 class CrossValidationEvaluator(BaseEvaluator):
     """Fits clones of the problem's estimator on its fixed CV splits.
 
-    Every (subset, fold) fit of a batch is dispatched in one joblib call, so the
-    user's :func:`joblib.parallel_config` (backend, including dask) applies.
+    Every (subset, fold) fit of a batch is dispatched in one joblib call
+    (:mod:`sklearn.utils.parallel`), so the user's :func:`joblib.parallel_config`
+    (backend, including dask) applies; no backend is named here.
 
     Parameters
     ----------
@@ -172,8 +257,34 @@ class CrossValidationEvaluator(BaseEvaluator):
         Parallel workers for the fits (joblib semantics; None means 1 unless a
         ``parallel_config`` says otherwise).
     on_fit_error : {"raise", "record"}, default="raise"
-        ``"raise"`` stops the search at the first failing fit; ``"record"`` stores the
-        fold as NaN, counts it, and goes on.
+        ``"raise"`` stops at the first failing fit with
+        :class:`~featuresift.errors.FitFailedError`; ``"record"`` stores the fold as
+        NaN, counts it in ``n_failed_fits`` and goes on. A subset whose folds all
+        failed gets status ``"failed"``.
+    racing : bool, str, dict or BaseRace, optional
+        Off by default. True or ``"f-race"``: F-race; ``"hoeffding"``: Hoeffding race;
+        a dict adds options (``{"name": "f-race", "alpha": 0.1}``). See
+        :mod:`featuresift.racing`. Dropped candidates get status ``"dropped"``.
+    journal : str, path-like or Journal, optional
+        SQLite file recording every evaluation; a run started again with the same
+        problem reuses what it holds (see :mod:`featuresift.journal`).
+    chunk_size : int, optional
+        Fits per joblib task. None: about four tasks per worker and batch.
+    inner_threads : int or None, default=1
+        BLAS threads per fit (threadpoolctl); None leaves the libraries alone.
+    verbose : int, default=0
+        0: silent; 1: a progress bar in interactive sessions; 2: always a bar.
+
+    Attributes
+    ----------
+    fingerprint : str
+        The problem's fingerprint (cache and journal key).
+    n_failed_fits : int
+        Fold fits that failed under ``on_fit_error="record"``.
+    n_dropped : int
+        Candidates dropped by racing (counted once per batch they were dropped in).
+    n_journal_hits : int
+        Subsets served from the journal without any fit.
 
     Examples
     --------
@@ -184,6 +295,8 @@ class CrossValidationEvaluator(BaseEvaluator):
     >>> ev = CrossValidationEvaluator(p)
     >>> len(ev.evaluate([[2, 3], [0]])[0].fold_scores), ev.n_fits
     (3, 6)
+    >>> _ = ev.evaluate([[3, 2]]); ev.n_fits, ev.n_cache_hits
+    (6, 1)
     """
 
     def __init__(
@@ -191,41 +304,182 @@ class CrossValidationEvaluator(BaseEvaluator):
         problem: SelectionProblem,
         n_jobs: int | None = None,
         on_fit_error: str = "raise",
+        *,
+        racing: Any = None,
+        journal: str | os.PathLike | Journal | None = None,
+        chunk_size: int | None = None,
+        inner_threads: int | None = 1,
+        verbose: int = 0,
     ) -> None:
         super().__init__(problem.n_features, problem.feature_names)
-        if on_fit_error not in ("raise", "record"):
-            raise InputError(f"on_fit_error must be 'raise' or 'record', got {on_fit_error!r}")
+        if on_fit_error not in ON_FIT_ERROR:
+            raise InputError(
+                f"on_fit_error must be 'raise' or 'record', got {on_fit_error!r}",
+                key="on_fit_error",
+            )
+        if chunk_size is not None and (
+            isinstance(chunk_size, bool) or not isinstance(chunk_size, int) or chunk_size < 1
+        ):
+            raise InputError(f"chunk_size must be a positive integer, got {chunk_size!r}",
+                             key="chunk_size")
+        if inner_threads is not None and (
+            isinstance(inner_threads, bool) or not isinstance(inner_threads, int)
+            or inner_threads < 1
+        ):
+            raise InputError(
+                f"inner_threads must be a positive integer or None, got {inner_threads!r}",
+                key="inner_threads",
+            )
         self.problem = problem
         self.n_jobs = n_jobs
         self.on_fit_error = on_fit_error
+        self.race: BaseRace | None = make_race(racing)
+        self.chunk_size = chunk_size
+        self.inner_threads = inner_threads
+        self.verbose = int(verbose)
         self.n_failed_fits = 0
+        self.n_dropped = 0
+        self.n_journal_hits = 0
+        self.n_folds = len(problem.splits)
+        self.fingerprint = problem.fingerprint()
+        self._owns_journal = not isinstance(journal, Journal)
+        self.journal = open_journal(journal)
+        self._tables: dict[tuple[int, ...], FoldTable] = {}
+        self._from_journal: set[tuple[int, ...]] = set()
+        if self.journal is not None:
+            for key, table in self.journal.load(self.fingerprint).items():
+                if table.n_folds == self.n_folds:
+                    self._tables[key] = table
+                    self._from_journal.add(key)
 
+    # ----------------------------------------------------------------- public
+    def stats(self) -> dict[str, Any]:
+        """Counters of this evaluator's work (for reports).
+
+        Examples
+        --------
+        >>> from sklearn.linear_model import LinearRegression
+        >>> X = np.arange(20.0).reshape(10, 2)
+        >>> ev = CrossValidationEvaluator(SelectionProblem(X, 2 * X[:, 0], LinearRegression(), cv=2))
+        >>> _ = ev.evaluate([[0], [0, 1]]); ev.stats()["n_fits"]
+        4
+        """
+        return {
+            "n_fits": self.n_fits,
+            "n_cache_hits": self.n_cache_hits,
+            "n_failed_fits": self.n_failed_fits,
+            "n_dropped": self.n_dropped,
+            "n_journal_hits": self.n_journal_hits,
+            "racing": None if self.race is None else self.race.describe(),
+            "journal": None if self.journal is None else str(self.journal.path),
+        }
+
+    def close(self) -> None:
+        """Close the journal if this evaluator opened it."""
+        if self.journal is not None and self._owns_journal:
+            self.journal.close()
+            self.journal = None
+
+    # ------------------------------------------------------------ evaluation
     def _evaluate_new(self, subsets: list[tuple[int, ...]]) -> list[Evaluation]:
-        p = self.problem
-        n_folds = len(p.splits)
-        tasks = [
-            delayed(_fit_and_score)(
-                p.new_estimator(), p.X, p.y, np.asarray(s, dtype=np.intp), tr, te,
-                p.scorer, p.classification, self.on_fit_error,
-            )
-            for s in subsets
-            for tr, te in p.splits
-        ]
-        results = Parallel(n_jobs=self.n_jobs)(tasks)
-        self.n_fits += len(tasks)
-        out = []
-        for i, s in enumerate(subsets):
-            chunk = results[i * n_folds:(i + 1) * n_folds]
-            scores = tuple(r[0] for r in chunk)
-            n_failed = sum(r[2] is not None for r in chunk)
-            self.n_failed_fits += n_failed
-            details = {}
-            if n_failed:
-                details["errors"] = sorted({r[2] for r in chunk if r[2] is not None})
-            out.append(
-                Evaluation(
-                    s, scores, float(sum(r[1] for r in chunk)),
-                    FAILED if n_failed == n_folds else COMPLETE, n_failed, details,
-                )
-            )
+        found = self._evaluate_unique(subsets)
+        return [found[k] for k in subsets]
+
+    def _evaluate_unique(
+        self, keys: list[tuple[int, ...]]
+    ) -> dict[tuple[int, ...], Evaluation]:
+        touched: set[tuple[int, ...]] = set()
+        fitted: set[tuple[int, ...]] = set()
+        all_folds = range(self.n_folds)
+        if self.race is None or len(keys) < 2:
+            self._fit_missing(keys, all_folds, touched, fitted)
+            seen = {k: self.n_folds for k in keys}
+        else:
+            seen = self._race(keys, touched, fitted)
+        if self.journal is not None and touched:
+            self.journal.store(self.fingerprint, {k: self._tables[k] for k in touched})
+        out = {}
+        for k in keys:
+            if k not in fitted:
+                self.n_cache_hits += 1
+                if k in self._from_journal and not self._is_cached(k):
+                    self.n_journal_hits += 1
+            n = seen[k]
+            if n == self.n_folds and self._is_cached(k):
+                out[k] = self._memo[k]
+                continue
+            ev = self._tables[k].evaluation(k, None if n == self.n_folds else n)
+            out[k] = self._remember(ev)
         return out
+
+    def _race(self, keys, touched, fitted) -> dict[tuple[int, ...], int]:
+        """Score ``keys`` in rounds of folds; returns the folds seen by each candidate."""
+        assert self.race is not None
+        alive = list(keys)
+        seen: dict[tuple[int, ...], int] = {}
+        n = min(self.race.min_folds, self.n_folds)
+        while True:
+            self._fit_missing(alive, range(n), touched, fitted)
+            matrix = np.array([self._tables[k].scores[:n] for k in alive], dtype=float)
+            keep = self.race.keep(matrix, self.n_folds)
+            for k, kept in zip(alive, keep):
+                if not kept:
+                    seen[k] = n
+            self.n_dropped += int((~keep).sum())
+            alive = [k for k, kept in zip(alive, keep) if kept]
+            if n == self.n_folds:
+                break
+            # A lone survivor has nothing to race against: finish it in one round.
+            n = self.n_folds if len(alive) == 1 else n + 1
+        for k in alive:
+            seen[k] = self.n_folds
+        return seen
+
+    def _fit_missing(self, keys, folds, touched, fitted) -> None:
+        """Fit every (subset, fold) among ``keys`` x ``folds`` not known yet."""
+        retry = self.on_fit_error == "raise"
+        work: list[tuple[tuple[int, ...], int]] = []
+        for k in keys:
+            table = self._tables.get(k)
+            if table is None:
+                table = self._tables[k] = FoldTable.empty(self.n_folds)
+            work.extend((k, f) for f in table.missing(folds, retry_failed=retry))
+        if not work:
+            return
+        results = self._dispatch(work)
+        for (k, f), (score, seconds, error) in zip(work, results):
+            self._tables[k].set(f, score, seconds, error)
+            touched.add(k)
+            fitted.add(k)
+            if error is not None:
+                self.n_failed_fits += 1
+        self.n_fits += len(work)
+
+    def _chunks(self, work: list) -> list[list]:
+        if self.chunk_size is not None:
+            size = self.chunk_size
+        else:
+            workers = max(1, effective_n_jobs(self.n_jobs))
+            size = max(1, math.ceil(len(work) / (4 * workers)))
+        return [work[i:i + size] for i in range(0, len(work), size)]
+
+    def _dispatch(self, work: list[tuple[tuple[int, ...], int]]) -> list[tuple]:
+        """Run the fits of ``work`` in one joblib call; results in ``work`` order."""
+        p = self.problem
+        chunks = self._chunks(work)
+        bar = make_progress(len(work), self.verbose, "featuresift fits")
+        results: list[tuple] = []
+        try:
+            tasks = (
+                delayed(_fit_chunk)(
+                    p.estimator, p.X, p.y, p.splits, chunk, p.scorer, p.classification,
+                    self.on_fit_error, self.inner_threads,
+                )
+                for chunk in chunks
+            )
+            for part in Parallel(n_jobs=self.n_jobs, return_as="generator")(tasks):
+                results.extend(part)
+                bar.update(len(part))
+        finally:
+            bar.close()
+        return results

@@ -7,8 +7,11 @@ the same folds, and a fingerprint identifies the problem for caching and journal
 
 from __future__ import annotations
 
+import functools
 import hashlib
+import inspect
 import json
+import re
 from collections.abc import Callable, Sequence
 from typing import Any
 
@@ -35,6 +38,32 @@ def _as_2d_float(X: Any) -> tuple[np.ndarray, list[str] | None]:
     if arr.ndim != 2:
         raise InputError(f"X must be 2-dimensional, got shape {arr.shape}")
     return np.ascontiguousarray(arr), names
+
+
+_ADDRESS = re.compile(r" at 0x[0-9a-fA-F]+")
+
+
+def _stable_repr(obj: Any) -> str:
+    """A text form of ``obj`` that is the same in every process.
+
+    Plain ``repr`` of a function or of many objects contains a memory address, which
+    would give a problem a new fingerprint in every run (and so defeat the journal).
+    Functions are named by module, qualified name and a digest of their code.
+    """
+    if isinstance(obj, functools.partial):
+        args = ", ".join(_stable_repr(a) for a in obj.args)
+        kwargs = ", ".join(f"{k}={_stable_repr(v)}" for k, v in sorted(obj.keywords.items()))
+        return f"partial({_stable_repr(obj.func)}, {args}, {kwargs})"
+    if inspect.isfunction(obj) or inspect.ismethod(obj):
+        fn = obj.__func__ if inspect.ismethod(obj) else obj
+        code = fn.__code__
+        digest = hashlib.sha256(
+            code.co_code + _ADDRESS.sub("", repr(code.co_consts)).encode()
+        ).hexdigest()[:16]
+        return f"{fn.__module__}.{fn.__qualname__}#{digest}"
+    if inspect.isclass(obj) or inspect.isbuiltin(obj):
+        return f"{getattr(obj, '__module__', '')}.{getattr(obj, '__qualname__', repr(obj))}"
+    return _ADDRESS.sub("", repr(obj))
 
 
 class SelectionProblem:
@@ -151,18 +180,21 @@ class SelectionProblem:
         """
         if self._fingerprint is None:
             h = hashlib.sha256()
-            h.update(b"featuresift-problem-v1")
+            h.update(b"featuresift-problem-v2")
             h.update(str(self.X.shape).encode())
             h.update(np.ascontiguousarray(self.X).tobytes())
             h.update(np.asarray(self.y).astype(str).astype("U").tobytes())
             h.update(repr(type(self.estimator)).encode())
             params = self.estimator.get_params(deep=True)
-            h.update(json.dumps({k: repr(v) for k, v in sorted(params.items())}).encode())
+            h.update(
+                json.dumps({k: _stable_repr(v) for k, v in sorted(params.items())}).encode()
+            )
             for tr, te in self.splits:
                 h.update(np.asarray(tr, dtype=np.int64).tobytes())
                 h.update(b"|")
                 h.update(np.asarray(te, dtype=np.int64).tobytes())
                 h.update(b"#")
-            h.update(repr(self.scoring if isinstance(self.scoring, str) else self.scorer).encode())
+            h.update(_stable_repr(
+                self.scoring if isinstance(self.scoring, str) else self.scorer).encode())
             self._fingerprint = h.hexdigest()
         return self._fingerprint
