@@ -24,6 +24,7 @@ from typing import TextIO
 from featuresift import __version__
 from featuresift.config import build_run, describe_plan, load_config, run_from_config
 from featuresift.errors import FitFailedError, InputError
+from featuresift.strategies import STRATEGIES
 
 __all__ = ["main", "build_parser"]
 
@@ -145,8 +146,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     run = sub.add_parser(
         "run", parents=[common], help="run the search described by a YAML config",
-        description="Load the data, search measurement subsets under the budget, print "
-        "the chosen measurements, their cost and CV score, and write result.json, "
+        description="Load the data, search measurement subsets under the budget, print the\n"
+        "chosen measurements, their cost and CV score, and write result.json,\n"
         "selected.csv and path.csv into the output folder.",
         epilog=_RUN_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter,
     )
@@ -160,7 +161,8 @@ def build_parser() -> argparse.ArgumentParser:
                      help="cost budget per sample, overriding budget ('none' = unlimited)")
     run.add_argument("--strategy", metavar="NAME",
                      help="search strategy, overriding strategy.name (the file's strategy "
-                          "options are kept only if NAME is the same strategy)")
+                          "options are kept only if NAME is the same strategy); one of: "
+                          + ", ".join(sorted(STRATEGIES)))
     run.add_argument("--seed", type=int, metavar="S",
                      help="random seed of the strategy, overriding seed (the CV folds "
                           "keep cv.seed)")

@@ -112,6 +112,7 @@ from sklearn.pipeline import Pipeline
 from sklearn.preprocessing import MinMaxScaler, RobustScaler, StandardScaler
 from sklearn.utils.multiclass import type_of_target
 
+import featuresift.filters  # noqa: F401 - registers the filter strategy and objective by name
 from featuresift.costs import CostModel
 from featuresift.errors import InputError
 from featuresift.objectives import make_objective
