@@ -281,6 +281,10 @@ def _dump_yaml(config: dict) -> str:
 def write_demo(folder: str | os.PathLike, n_lots: int = 1500, seed: int = 0) -> list[Path]:
     """Write the demo data (``grain_lots.csv``) and configuration (``grain_lab.yaml``).
 
+    The configuration is :data:`GRAIN_CONFIG` dumped with :func:`yaml.safe_dump`. A
+    ``grain_lab.yaml`` already in the folder that holds the same configuration is left
+    as it is, so a commented copy (like the shipped ``examples/grain_lab.yaml``) survives.
+
     Parameters
     ----------
     folder : path
@@ -307,8 +311,17 @@ def write_demo(folder: str | os.PathLike, n_lots: int = 1500, seed: int = 0) -> 
     data_path = out / "grain_lots.csv"
     make_grain_lots(n_lots=n_lots, seed=seed).to_csv(data_path, index=False, lineterminator="\n")
     config_path = out / "grain_lab.yaml"
-    config_path.write_text(_dump_yaml(copy.deepcopy(GRAIN_CONFIG)), encoding="utf-8")
+    if not _holds_config(config_path, GRAIN_CONFIG):
+        config_path.write_text(_dump_yaml(copy.deepcopy(GRAIN_CONFIG)), encoding="utf-8")
     return [data_path, config_path]
+
+
+def _holds_config(path: Path, config: dict) -> bool:
+    """Whether ``path`` exists and its YAML content equals ``config`` (comments aside)."""
+    try:
+        return yaml.safe_load(path.read_text(encoding="utf-8")) == config
+    except (OSError, UnicodeDecodeError, yaml.YAMLError):
+        return False
 
 
 if __name__ == "__main__":

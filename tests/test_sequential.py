@@ -24,42 +24,33 @@ pytestmark = pytest.mark.usefixtures("single_blas_thread")
 
 
 def _scaled_logistic():
-    return make_pipeline(StandardScaler(), LogisticRegression(solver="liblinear"))
+    return make_pipeline(StandardScaler(), LogisticRegression(solver="newton-cholesky"))
 
 
 # ------------------------------------------------------- parity with scikit-learn
 
 
-def test_forward_matches_sklearn_sequential_selector_on_breast_cancer():
-    # Reference: scikit-learn's SequentialFeatureSelector (direction="forward"), same
-    # estimator, same StratifiedKFold(5) splits, same scorer, on sklearn's breast-cancer data.
-    # Without costs or budget the two greedy searches must agree step for step.
-    X, y = load_breast_cancer(return_X_y=True)
+# Reference: scikit-learn's SequentialFeatureSelector, same estimator, same
+# StratifiedKFold(5) splits, same scorer, on scikit-learn's breast-cancer and wine data.
+# Without costs or budget the greedy searches must agree step for step. sklearn's backward
+# step removes the feature whose removal scores best, ties going to the lowest column index
+# (max() over a dict filled in column order, sklearn/feature_selection/_sequential.py);
+# featuresift documents the same tie-break, so backward parity is exact too.
+@pytest.mark.parametrize(
+    ("loader", "direction", "scoring"),
+    [(load_breast_cancer, "forward", "roc_auc"), (load_wine, "backward", "accuracy")],
+)
+def test_matches_sklearn_sequential_selector(loader, direction, scoring):
+    X, y = loader(return_X_y=True)
     cv = StratifiedKFold(5)
     reference = SequentialFeatureSelector(
-        _scaled_logistic(), n_features_to_select=5, direction="forward", cv=cv,
-        scoring="roc_auc",
+        _scaled_logistic(), n_features_to_select=5, direction=direction, cv=cv,
+        scoring=scoring,
     ).fit(X, y)
-    problem = SelectionProblem(X, y, _scaled_logistic(), cv=cv, scoring="roc_auc")
-    result = run_search(problem, "forward", n_features=5)
+    problem = SelectionProblem(X, y, _scaled_logistic(), cv=cv, scoring=scoring)
+    result = run_search(problem, direction, n_features=5)
     assert result.support == list(np.flatnonzero(reference.get_support()))
     assert len(result.support) == 5
-
-
-def test_backward_matches_sklearn_sequential_selector_on_wine():
-    # Reference: scikit-learn's SequentialFeatureSelector (direction="backward") on sklearn's
-    # wine data. Its backward step removes the feature whose removal scores best, ties going
-    # to the lowest column index (max() over a dict filled in column order, see
-    # sklearn/feature_selection/_sequential.py); featuresift documents the same tie-break.
-    X, y = load_wine(return_X_y=True)
-    cv = StratifiedKFold(5)
-    reference = SequentialFeatureSelector(
-        _scaled_logistic(), n_features_to_select=5, direction="backward", cv=cv,
-        scoring="accuracy",
-    ).fit(X, y)
-    problem = SelectionProblem(X, y, _scaled_logistic(), cv=cv, scoring="accuracy")
-    result = run_search(problem, "backward", n_features=5)
-    assert result.support == list(np.flatnonzero(reference.get_support()))
 
 
 # ------------------------------------------------------------ budget behaviour
