@@ -256,3 +256,35 @@ def test_python_dash_m_entry_point(tmp_path, monkeypatch, capsys):
     assert info.value.code == 2
     err = capsys.readouterr().err
     assert err.startswith("featuresift: error: config file not found") and "Traceback" not in err
+
+
+def _leaf_paths(node, path=()):
+    if path:
+        yield path
+    items = node.items() if isinstance(node, dict) else (
+        enumerate(node) if isinstance(node, list) else ())
+    for k, v in items:
+        yield from _leaf_paths(v, path + (k,))
+
+
+def test_no_value_anywhere_crashes_validate(tmp_path, capsys):
+    """Any wrong value at any key gives exit 0 or 2 with one message, never a crash."""
+    base = yaml.safe_load(cases.BASE_YAML)
+    paths = list(_leaf_paths(base))
+    values = [None, True, "text", -1, 1.5, [1, "a"], {"x": 1}, float("nan"), "moisture_pct"]
+    rng = np.random.default_rng(0)
+    picks = [(paths[i], values[j]) for i, j in zip(rng.integers(0, len(paths), 40),
+                                                   rng.integers(0, len(values), 40))]
+    folder = tmp_path / "fz"
+    path = cases.write_case(folder)
+    for key_path, value in picks:
+        cfg = yaml.safe_load(cases.BASE_YAML)
+        node = cfg
+        for k in key_path[:-1]:
+            node = node[k]
+        node[key_path[-1]] = value
+        path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
+        code = main(["validate", str(path)])
+        err = capsys.readouterr().err
+        assert code in (0, 2), (key_path, value, err)
+        assert "Traceback" not in err and err.count("\n") == (code == 2), (key_path, value)
