@@ -15,7 +15,6 @@ from sklearn.linear_model import LogisticRegression
 from sklearn.model_selection import StratifiedKFold, cross_val_score
 from sklearn.pipeline import Pipeline
 from sklearn.preprocessing import StandardScaler
-from threadpoolctl import threadpool_limits
 
 from featuresift.config import (
     PREPROCESSORS,
@@ -31,12 +30,8 @@ from featuresift.costs import CostModel
 from featuresift.demo import GRAIN_CONFIG, make_grain_lots
 from featuresift.errors import InputError
 
-
-@pytest.fixture(autouse=True)
-def _one_blas_thread():
-    """Tiny model fits: BLAS threads only contend (about 4x slower on a busy 2-core box)."""
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
+# Many tiny model fits: one BLAS thread is several times faster on a busy 2-core box.
+pytestmark = pytest.mark.usefixtures("single_blas_thread")
 
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
