@@ -176,6 +176,9 @@ class MutualInfoPenalty(BasePenalty):
         self.n_bins = check_positive_int(n_bins, "n_bins", 2)
         self.max_levels = check_positive_int(max_levels, "max_levels", 1)
 
+    # Level-indicator matrices larger than this (bytes) fall back to counting with bincount.
+    _INDICATOR_LIMIT = 1 << 30
+
     def prepare(self, X: np.ndarray) -> MutualInfoPenalty:
         codes = discretize_matrix(np.asarray(X, dtype=float), self.n_bins, self.max_levels)
         # "missing" is one more level of its column
@@ -183,10 +186,30 @@ class MutualInfoPenalty(BasePenalty):
         codes = np.where(codes < 0, top + 1, codes)
         self._codes = codes
         self._levels = codes.max(axis=0, initial=0) + 1
+        n, p = codes.shape
+        n_lev = int(self._levels.max(initial=1))
+        self._indicators = None
+        if n < 2**24 and n * p * n_lev * 4 <= self._INDICATOR_LIMIT:
+            # (n, L * p) float32 indicators: a column's tables against every other
+            # column are then one matrix product (counts are exact below 2**24 rows).
+            ind = np.zeros((n, n_lev, p), dtype=np.float32)
+            rows = np.arange(n)[:, None]
+            ind[rows, codes, np.arange(p)[None, :]] = 1.0
+            self._indicators = ind.reshape(n, n_lev * p)
+            self._n_lev = n_lev
         return self
 
     def similarity(self, j: int) -> np.ndarray:
-        tables = joint_tables(self._codes, self._codes[:, j], int(self._levels[j]))
+        target = self._codes[:, j]
+        k = int(self._levels[j])
+        if self._indicators is None:
+            tables = joint_tables(self._codes, target, k)
+        else:
+            onehot = np.zeros((target.size, k), dtype=np.float32)
+            onehot[np.arange(target.size), target] = 1.0
+            p = self._codes.shape[1]
+            prod = self._indicators.T @ onehot  # (L * p, k)
+            tables = prod.reshape(self._n_lev, p, k).transpose(1, 0, 2).astype(float)
         return plugin_mi_tables(tables)
 
 
