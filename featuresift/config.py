@@ -283,6 +283,11 @@ class RunConfig:
     lines: dict[str, int] = field(default_factory=dict, repr=False)
 
     @property
+    def stratified(self) -> bool:
+        """Whether the CV folds are stratified (``cv.stratified``, default: classifiers)."""
+        return self.classification if self.cv.stratified is None else self.cv.stratified
+
+    @property
     def base_dir(self) -> Path:
         """Folder of the YAML file (relative paths start here)."""
         return self.path.parent
@@ -913,6 +918,28 @@ def _check_target(cfg: RunConfig, ctx: _Context) -> None:
         )
 
 
+def _check_folds(cfg: RunConfig, ctx: _Context) -> None:
+    """Every stratified test fold can hold each class; groups are complete and enough."""
+    cv, frame = cfg.cv, cfg.frame
+    if cfg.stratified:
+        counts = frame[cfg.data.target].value_counts()
+        if counts.min() < cv.folds:
+            raise ctx.error(
+                f"{cv.folds} folds, but class {counts.idxmin()!r} of the target has only "
+                f"{counts.min()} rows; every test fold needs each class", "cv.folds",
+            )
+    if cv.group_column is not None:
+        groups = frame[cv.group_column]
+        if groups.isna().any():
+            raise ctx.error(f"group column '{cv.group_column}' has missing values",
+                            "cv.group_column")
+        if groups.nunique() < cv.folds:
+            raise ctx.error(
+                f"group column '{cv.group_column}' has {groups.nunique()} groups, fewer "
+                f"than cv.folds = {cv.folds}", "cv.group_column",
+            )
+
+
 def _build_cost_model(cfg: RunConfig, ctx: _Context) -> CostModel:
     spec, frame, cands = cfg.costs, cfg.frame, cfg.candidates
     if not spec.given:
@@ -1106,7 +1133,7 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
     cfg = RunConfig(path=path, output=output, frame=frame, extra=extra, **core)
     cfg.overridden = given
     cfg.lines = lines
-    cfg.classification = bool(is_classifier(cfg.model.estimator_class()))
+    cfg.classification = bool(is_classifier(cfg.model.build()))
     if cfg.cv.stratified and not cfg.classification:
         raise ctx.error("stratified folds need a classifier; set stratified: false",
                         "cv.stratified")
@@ -1114,25 +1141,7 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
     for name in cfg.candidates:
         _numeric_column(frame, name, cfg.data.path.name)
     _check_target(cfg, ctx)
-    stratified = cfg.classification if cfg.cv.stratified is None else cfg.cv.stratified
-    if stratified:
-        counts = frame[cfg.data.target].value_counts()
-        if counts.min() < cfg.cv.folds:
-            raise ctx.error(
-                f"{cfg.cv.folds} folds, but class {counts.idxmin()!r} of the target has only "
-                f"{counts.min()} rows; every test fold needs each class", "cv.folds",
-            )
-    if cfg.cv.group_column is not None:
-        groups = frame[cfg.cv.group_column]
-        if groups.isna().any():
-            raise ctx.error(f"group column '{cfg.cv.group_column}' has missing values",
-                            "cv.group_column")
-        n_groups = groups.nunique()
-        if n_groups < cfg.cv.folds:
-            raise ctx.error(
-                f"group column '{cfg.cv.group_column}' has {n_groups} groups, fewer than "
-                f"cv.folds = {cfg.cv.folds}", "cv.group_column",
-            )
+    _check_folds(cfg, ctx)
     cfg.cost_model = _build_cost_model(cfg, ctx)
     _check_lists(cfg, ctx)
     _check_missing_values(cfg, ctx)
@@ -1142,7 +1151,7 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
 
 def _splitter(cfg: RunConfig) -> Any:
     cv = cfg.cv
-    stratified = cfg.classification if cv.stratified is None else cv.stratified
+    stratified = cfg.stratified
     seed = cv.seed if cv.shuffle else None
     if cv.group_column is not None:
         if stratified:
