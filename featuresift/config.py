@@ -846,6 +846,11 @@ def _numeric_column(frame: pd.DataFrame, name: str, file_name: str) -> pd.Series
             )
         col = converted
     values = col.astype(float)
+    if values.isna().all():
+        raise InputError(
+            f"data file {file_name}, column '{name}': every value is missing; "
+            "list the column under data.exclude"
+        )
     if np.isinf(values.to_numpy()).any():
         row = int(np.flatnonzero(np.isinf(values.to_numpy()))[0])
         raise InputError(
