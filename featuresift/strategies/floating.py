@@ -10,7 +10,8 @@ Floating forward search (``"floating-forward"``) alternates
 Floating backward search (``"floating-backward"``) is the mirror: exclusion of the
 least useful feature, then conditional inclusion among the *addable* features while
 that beats the record of the larger size. When the full set breaks the budget or the
-size limit, plain exclusions come first until the subset is allowed.
+size limit, plain exclusions come first until the subset is allowed (see
+:func:`~featuresift.strategies.sequential.eliminate_to_allowed`).
 
 Bookkeeping and guarantees
 --------------------------
@@ -51,6 +52,7 @@ from featuresift.strategies.sequential import (
     ForwardSelection,
     best_removal,
     best_step,
+    eliminate_to_allowed,
 )
 
 __all__ = ["FloatingForwardSearch", "FloatingBackwardSearch"]
@@ -239,18 +241,11 @@ class FloatingBackwardSearch(_FloatingSearch):
         bottom = max(len(must), 1)
         if self.n_features is not None:
             bottom = max(bottom, self.n_features - self.look_beyond)
-        current = tuple(sorted(set(space.candidates) | set(must)))
-        records.offer(space.evaluate([current])[0])
-        space.record("start", current)
-        # Plain exclusions until the subset fits the budget and the size limit.
-        while not space.is_allowed(current):
-            move = best_removal(space, current)
-            if move is None:
-                break
-            g, dropped = move
-            current = dropped.subset
-            records.offer(dropped)
-            space.record("remove", current, g)
+        start = eliminate_to_allowed(space)
+        if start is None:
+            return
+        records.offer(start)
+        current = start.subset
         space.stop_reason = f"size {bottom} reached"
         while len(current) > bottom:
             if records.seen_before(current):

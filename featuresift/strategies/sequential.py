@@ -37,7 +37,13 @@ from featuresift.strategies.base import (
     register_strategy,
 )
 
-__all__ = ["ForwardSelection", "BackwardSelection", "best_step", "best_removal"]
+__all__ = [
+    "ForwardSelection",
+    "BackwardSelection",
+    "best_step",
+    "best_removal",
+    "eliminate_to_allowed",
+]
 
 
 def _check_common(n_features: int | None, tol: float | None) -> None:
@@ -73,6 +79,38 @@ def best_removal(
     if prefer_allowed:
         moves = [m for m in moves if space.is_allowed(m[1].subset)] or moves
     return best_step(space, moves)
+
+
+def eliminate_to_allowed(space: SearchSpace) -> Scored | None:
+    """Start from every candidate and remove features until the subset is allowed.
+
+    Each step removes the feature whose removal is best by ``rank_key``, preferring
+    removals that reach the budget and size limit. Should that end on a single
+    feature still over the budget (say, one expensive panel member), it restarts from
+    the best affordable single feature added to ``must_include``. Steps are recorded
+    ("start", "remove", "restart"). Returns the allowed subset reached, or None when
+    no allowed subset exists.
+    """
+    must = tuple(space.must_include)
+    current = tuple(sorted(set(space.candidates) | set(must)))
+    (scored,) = space.evaluate([current])
+    space.record("start", current)
+    while not space.is_allowed(current) and len(current) > max(len(must), 1):
+        move = best_removal(space, current, prefer_allowed=True)
+        if move is None:
+            break
+        f, scored = move
+        current = scored.subset
+        space.record("remove", current, f)
+    if space.is_allowed(current):
+        return scored
+    feats = space.addable(must)
+    if not feats:
+        space.stop_reason = "no affordable subset"
+        return None
+    f, scored = best_step(space, list(zip(feats, space.evaluate([must + (g,) for g in feats]))))
+    space.record("restart", scored.subset, f)
+    return scored
 
 
 @register_strategy
@@ -168,29 +206,10 @@ class BackwardSelection(SearchStrategy):
 
     def run(self, space: SearchSpace) -> None:
         tol = self.tol if self.tol is not None else (0.0 if self.n_features is None else None)
-        current = tuple(sorted(set(space.candidates) | set(space.must_include)))
-        (current_scored,) = space.evaluate([current])
-        space.record("start", current)
-        # Phase one: reach the budget and the size limit.
-        must = tuple(space.must_include)
-        while not space.is_allowed(current) and len(current) > max(len(must), 1):
-            move = best_removal(space, current, prefer_allowed=True)
-            if move is None:
-                break
-            f, current_scored = move
-            current = current_scored.subset
-            space.record("remove", current, f)
-        if not space.is_allowed(current):
-            # Elimination dead-ended above the budget (say, on one expensive panel):
-            # restart from the best affordable single addition to must_include.
-            feats = space.addable(must)
-            if not feats:
-                space.stop_reason = "no affordable subset"
-                return
-            f, current_scored = best_step(
-                space, list(zip(feats, space.evaluate([must + (g,) for g in feats]))))
-            current = current_scored.subset
-            space.record("restart", current, f)
+        current_scored = eliminate_to_allowed(space)
+        if current_scored is None:
+            return
+        current = current_scored.subset
         # Phase two: keep removing while it does not hurt (or down to the target size).
         target = self.n_features
         while len(current) > 1 and (target is None or len(current) > target):
