@@ -37,20 +37,20 @@ def _scaled_logistic():
 # (max() over a dict filled in column order, sklearn/feature_selection/_sequential.py);
 # featuresift documents the same tie-break, so backward parity is exact too.
 @pytest.mark.parametrize(
-    ("loader", "direction", "scoring"),
-    [(load_breast_cancer, "forward", "roc_auc"), (load_wine, "backward", "accuracy")],
+    ("loader", "direction", "scoring", "n_select"),
+    [(load_breast_cancer, "forward", "roc_auc", 5), (load_wine, "backward", "accuracy", 8)],
 )
-def test_matches_sklearn_sequential_selector(loader, direction, scoring):
+def test_matches_sklearn_sequential_selector(loader, direction, scoring, n_select):
     X, y = loader(return_X_y=True)
     cv = StratifiedKFold(5)
     reference = SequentialFeatureSelector(
-        _scaled_logistic(), n_features_to_select=5, direction=direction, cv=cv,
+        _scaled_logistic(), n_features_to_select=n_select, direction=direction, cv=cv,
         scoring=scoring,
     ).fit(X, y)
     problem = SelectionProblem(X, y, _scaled_logistic(), cv=cv, scoring=scoring)
-    result = run_search(problem, direction, n_features=5)
+    result = run_search(problem, direction, n_features=n_select)
     assert result.support == list(np.flatnonzero(reference.get_support()))
-    assert len(result.support) == 5
+    assert len(result.support) == n_select
 
 
 # ------------------------------------------------------------ budget behaviour
