@@ -192,3 +192,13 @@ def test_greedy_candidates_restrict_a_wrapper_search():
     prob = SelectionProblem(X, y, LogisticRegression(), cv=3)
     res = run_search(prob, "forward", n_features=2, **sel.search_options())
     assert set(res.selected) <= set(sel.selected)
+
+
+def test_filter_selection_to_dict_is_json_ready():
+    import json
+
+    X, y = _informative()
+    sel = budgeted_greedy(X, y, relevance="pearson", n_features=2, must_include=[5])
+    d = json.loads(json.dumps(sel.to_dict(), allow_nan=False))
+    assert d["selected"] == sel.selected and d["steps"][0]["gain"] is None  # must_include
+    assert d["runs"]["gain"]["order"] == sel.runs["gain"]["order"]

@@ -162,6 +162,21 @@ class FilterSelection:
 
         return pd.DataFrame([s.__dict__ for s in self.steps])
 
+    def to_dict(self) -> dict:
+        """JSON-ready description (selection, steps, both runs; no per-column arrays)."""
+
+        def num(x: float) -> float | None:
+            return float(x) if np.isfinite(x) else None
+
+        return {
+            "selected": list(self.selected), "order": list(self.order), "value": self.value,
+            "cost": self.cost, "cost_unit": self.cost_unit, "budget": self.budget,
+            "rule": self.rule, "runs": self.runs, "relevance": self.relevance_scorer,
+            "form": self.form, "redundancy": self.redundancy, "stop_reason": self.stop_reason,
+            "steps": [{k: (num(v) if isinstance(v, float) else v) for k, v in s.__dict__.items()}
+                      for s in self.steps],
+        }
+
     def search_options(self, how: str = "candidates", top: int | None = None) -> dict:
         """Keyword arguments handing the filter's order to a wrapper search.
 

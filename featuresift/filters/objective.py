@@ -21,7 +21,6 @@ candidate subset.
 
 from __future__ import annotations
 
-from itertools import combinations
 from typing import Any
 
 import numpy as np
@@ -109,8 +108,7 @@ class RedundancyPenalizedObjective(BaseObjective):
         if idx.max() >= self.correlation.shape[0]:
             raise InputError(f"subset column {int(idx.max())} is outside the "
                              f"{self.correlation.shape[0]}-column correlation matrix")
-        rows, cols = zip(*combinations(range(idx.size), 2))
-        vals = self.correlation[idx[list(rows)], idx[list(cols)]]
+        vals = self.correlation[np.ix_(idx, idx)][np.triu_indices(idx.size, 1)]
         return float(vals.max() if self.aggregate == "max" else vals.mean())
 
     def value(self, evaluation: Evaluation, cost: float) -> float:
