@@ -80,6 +80,10 @@ def run_search(
     random_state: int | None = 0,
     n_jobs: int | None = None,
     callback: Callable | None = None,
+    racing: Any = None,
+    journal: Any = None,
+    chunk_size: int | None = None,
+    verbose: int = 0,
     **strategy_options: Any,
 ) -> SearchResult:
     """Search feature subsets and return the chosen measurements.
@@ -112,6 +116,9 @@ def run_search(
         Parallel fits (when an evaluator is built here).
     callback : callable, optional
         ``callback(step)`` after each path step; returning True stops.
+    racing, journal, chunk_size, verbose : optional
+        Passed to the :class:`CrossValidationEvaluator` built here (racing rule,
+        SQLite journal path for resumable runs, fits per parallel task, progress bar).
 
     Returns
     -------
@@ -136,7 +143,10 @@ def run_search(
         required = objective.required_scorer()
         if required is not None and repr(problem.scorer) != repr(required):
             problem = _with_scorer(problem, required)
-        evaluator: BaseEvaluator = CrossValidationEvaluator(problem, n_jobs=n_jobs)
+        evaluator: BaseEvaluator = CrossValidationEvaluator(
+            problem, n_jobs=n_jobs, racing=racing, journal=journal, chunk_size=chunk_size,
+            verbose=verbose,
+        )
         cost_model = problem.cost_model
         scoring = problem.scoring if isinstance(problem.scoring, str) else (
             "estimator score" if problem.scoring is None else getattr(
@@ -190,6 +200,8 @@ def run_search(
     ]
     strategy_desc = {"name": strat.name, "options": strat.get_options()}
     extras = dict(space.extras)
+    if isinstance(evaluator, CrossValidationEvaluator):
+        extras["engine"] = evaluator.stats()
     if best is None:
         return SearchResult(
             selected=[], support=[], cost=0.0, cost_unit=cost_model.unit, cost_breakdown=[],
