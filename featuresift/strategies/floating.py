@@ -106,6 +106,7 @@ class _SizeRecords:
                 self.offer(s)
 
     def finish(self, n_features: int | None) -> None:
+        """Answer with the record of size ``n_features`` (None: the best subset seen)."""
         if n_features is not None and n_features in self.best:
             self.space.choose(self.best[n_features].subset)
 
@@ -116,6 +117,44 @@ def _best_addition(space: SearchSpace, current: tuple[int, ...]):
     if not feats:
         return None
     return best_step(space, list(zip(feats, space.evaluate([current + (f,) for f in feats]))))
+
+
+def _float(space: SearchSpace, records: _SizeRecords, current: tuple[int, ...],
+           forward: bool, limit: int) -> None:
+    """The floating loop: a main step, then conditional steps back while they pay.
+
+    Forward: add (main) until size ``limit``, then conditionally exclude, never down to
+    ``len(must_include) + 1`` (the first inclusion already tried every single feature).
+    Backward: remove until size ``limit``, then conditionally include.
+    """
+    main, undo = (_best_addition, best_removal) if forward else (best_removal, _best_addition)
+    main_action, undo_action = ("add", "exclude") if forward else ("remove", "include")
+    lowest = len(space.must_include) + 2
+    space.stop_reason = f"size {limit} reached"
+    while len(current) < limit if forward else len(current) > limit:
+        if records.seen_before(current):
+            return
+        move = main(space, current)
+        if move is None:
+            space.stop_reason = ("no affordable feature left to add" if forward
+                                 else "only must_include features left")
+            return
+        f, scored = move
+        current = scored.subset
+        records.offer(scored)
+        space.record(main_action, current, f)
+        last: int | None = f
+        while not forward or len(current) - 1 >= lowest:
+            back = undo(space, current)
+            if back is None:
+                break
+            g, scored = back
+            if g == last or not records.beats(scored):
+                break
+            current = scored.subset
+            records.offer(scored)
+            space.record(undo_action, current, g)
+            last = None
 
 
 class _FloatingSearch(SearchStrategy):
@@ -132,6 +171,15 @@ class _FloatingSearch(SearchStrategy):
         self.n_features = n_features
         self.look_beyond = check_int(look_beyond, "look_beyond", minimum=0)
         self.sequential_floor = bool(sequential_floor)
+
+    def _wrap_up(self, space: SearchSpace, records: _SizeRecords,
+                 plain: SearchStrategy) -> None:
+        """Optional sequential floor, then the answer (record of ``n_features`` or best seen)."""
+        if self.sequential_floor:
+            plain.run(space)
+            records.absorb_visited()
+        space.chosen = None
+        records.finish(self.n_features)
 
 
 @register_strategy
@@ -166,44 +214,15 @@ class FloatingForwardSearch(_FloatingSearch):
 
     def run(self, space: SearchSpace) -> None:
         records = _SizeRecords(space)
-        must = tuple(space.must_include)
-        # Removing down to len(must) + 1 never pays: the first inclusion already
-        # tried every addable single feature.
-        lowest = len(must) + 2
+        current = tuple(space.must_include)
         target = space.max_features
         if self.n_features is not None:
             target = min(target, self.n_features + self.look_beyond)
-        current = must
         if current:
             records.offer(space.evaluate([current])[0])
             space.record("start", current)
-        space.stop_reason = f"size {target} reached"
-        while len(current) < target:
-            if records.seen_before(current):
-                break
-            move = _best_addition(space, current)
-            if move is None:
-                space.stop_reason = "no affordable feature left to add"
-                break
-            f, added = move
-            current = added.subset
-            records.offer(added)
-            space.record("add", current, f)
-            just_added: int | None = f
-            while len(current) - 1 >= lowest:
-                g, dropped = best_removal(space, current)
-                if g == just_added or not records.beats(dropped):
-                    break
-                current = dropped.subset
-                records.offer(dropped)
-                space.record("exclude", current, g)
-                just_added = None
-        if self.sequential_floor:
-            ForwardSelection(n_features=target).run(space)
-            records.absorb_visited()
-        records.finish(self.n_features)
-        if self.n_features is None:
-            space.chosen = None
+        _float(space, records, current, forward=True, limit=target)
+        self._wrap_up(space, records, ForwardSelection(n_features=target))
 
 
 @register_strategy
@@ -245,34 +264,5 @@ class FloatingBackwardSearch(_FloatingSearch):
         if start is None:
             return
         records.offer(start)
-        current = start.subset
-        space.stop_reason = f"size {bottom} reached"
-        while len(current) > bottom:
-            if records.seen_before(current):
-                break
-            move = best_removal(space, current)
-            if move is None:
-                space.stop_reason = "only must_include features left"
-                break
-            g, dropped = move
-            current = dropped.subset
-            records.offer(dropped)
-            space.record("remove", current, g)
-            just_removed: int | None = g
-            while True:
-                move = _best_addition(space, current)
-                if move is None:
-                    break
-                f, added = move
-                if f == just_removed or not records.beats(added):
-                    break
-                current = added.subset
-                records.offer(added)
-                space.record("include", current, f)
-                just_removed = None
-        if self.sequential_floor:
-            BackwardSelection(n_features=bottom).run(space)
-            records.absorb_visited()
-        records.finish(self.n_features)
-        if self.n_features is None:
-            space.chosen = None
+        _float(space, records, start.subset, forward=False, limit=bottom)
+        self._wrap_up(space, records, BackwardSelection(n_features=bottom))
