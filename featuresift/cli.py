@@ -1,4 +1,4 @@
-"""Command-line interface: ``featuresift run|validate|demo``.
+"""Command-line interface: ``featuresift run|sweep|screen|validate|demo``.
 
 Every subcommand is a thin function over :mod:`featuresift.config` (or
 :mod:`featuresift.demo`). Exit codes: 0 success, 2 bad input (one line
@@ -15,6 +15,7 @@ featuresift ...
 from __future__ import annotations
 
 import argparse
+import json
 import math
 import sys
 import traceback
@@ -22,8 +23,16 @@ from collections.abc import Sequence
 from typing import TextIO
 
 from featuresift import __version__
-from featuresift.config import build_run, describe_plan, load_config, run_from_config
+from featuresift.config import (
+    build_run,
+    describe_plan,
+    load_config,
+    nested_from_config,
+    run_from_config,
+    sweep_from_config,
+)
 from featuresift.errors import FitFailedError, InputError
+from featuresift.report import write_report
 from featuresift.strategies import STRATEGIES
 
 __all__ = ["main", "build_parser"]
@@ -95,11 +104,83 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
             return 0
         out.write("\n")
     callback = _step_printer(sys.stderr) if args.verbose else None
+    nested = None
+    if args.nested is not None:
+        # Validate and run the honest estimate first, so that nothing is written when
+        # it fails; it re-runs the whole search in each outer fold.
+        nested = nested_from_config(cfg, args.nested)
     result = run_from_config(cfg, write=True, callback=callback)
+    write_report(cfg.output, result, nested=nested, source=str(cfg.path))
+    files = "result.json, selected.csv, path.csv, report.md"
+    if nested is not None:
+        (cfg.output / "nested.json").write_text(
+            json.dumps(nested.to_dict(), indent=2) + "\n", encoding="utf-8")
+        files += ", nested.json"
     out.write(result.summary() + "\n\n")
-    out.write("The CV score of a searched subset is optimistic for new data: the search "
-              "chose it on these folds.\n")
-    out.write(f"Results written to {cfg.output} (result.json, selected.csv, path.csv)\n")
+    if nested is not None:
+        out.write(nested.summary() + "\n\n")
+    else:
+        out.write("The CV score of a searched subset is optimistic for new data: the search "
+                  "chose it on these folds (use --nested K for an honest estimate).\n")
+    out.write(f"Results written to {cfg.output} ({files})\n")
+    return 0
+
+
+def _budget_list(text: str) -> list[float | None]:
+    out: list[float | None] = []
+    for part in text.split(","):
+        value = _budget(part)
+        out.append(None if math.isinf(value) else value)
+    if not out:
+        raise argparse.ArgumentTypeError("expected a comma-separated list of budgets")
+    return out
+
+
+def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
+    """``featuresift sweep CONFIG``: one search per budget, the cost/score frontier."""
+    overrides = {"output": args.output, "n_jobs": args.n_jobs, "seed": args.seed,
+                 "strategy": args.strategy}
+    cfg = load_config(args.config, **overrides)
+
+    def show(res) -> None:
+        budget = "unlimited" if res.budget is None else f"{res.budget:g}"
+        out.write(f"  budget {budget:>10}: {len(res.selected):>2} measurements, cost "
+                  f"{res.cost:g}, {res.scoring} {res.score_mean:.4f}\n")
+
+    frontier = sweep_from_config(cfg, args.budgets, write=True, callback=show)
+    frame = frontier.to_frame()[["budget", "n_selected", "cost", "score_mean", "score_sem",
+                                 "efficient"]]
+    out.write("\n" + frame.to_string(index=False, na_rep="unlimited",
+                                     float_format=lambda v: f"{v:.4g}") + "\n\n")
+    out.write(f"{frontier.n_fits} model fits for the sweep ({frontier.n_fits_without_cache} "
+              "without sharing evaluations between budgets).\n")
+    out.write(f"Results written to {cfg.output} (frontier.csv, frontier.json, "
+              "frontier.png, report.md)\n")
+    return 0
+
+
+def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:
+    """``featuresift screen CONFIG``: per-measurement relevance, cost and redundancy table."""
+    from featuresift.filters import feature_report, write_feature_report
+
+    cfg = load_config(args.config, output=args.output)
+    problem, _ = build_run(cfg)
+    relevance = args.relevance or ("anova_f" if cfg.classification else "pearson")
+    import pandas as pd
+
+    X = pd.DataFrame(problem.X, columns=problem.feature_names)
+    table = feature_report(
+        X, problem.y, problem.cost_model, relevance=relevance,
+        task="classification" if cfg.classification else "regression",
+    )
+    cfg.output.mkdir(parents=True, exist_ok=True)
+    path = write_feature_report(table, cfg.output / "features.csv")
+    shown = table.drop(columns=["cost_unit"], errors="ignore")
+    out.write(f"Cost in {problem.cost_model.unit}.\n")
+    out.write(shown.to_string(index=False, float_format=lambda v: f"{v:.4g}") + "\n\n")
+    out.write(f"Relevance: {relevance}. Univariate scores miss measurements that only help "
+              "together; use `featuresift run` for a model-based search.\n")
+    out.write(f"Written to {path}\n")
     return 0
 
 
@@ -173,7 +254,52 @@ def build_parser() -> argparse.ArgumentParser:
                        help="print the plan first and each search step as it happens")
     run.add_argument("--dry-run", action="store_true",
                      help="check config and data and print the plan; fit and write nothing")
+    run.add_argument("--nested", type=int, metavar="K",
+                     help="also estimate performance honestly: re-run the whole search in "
+                          "each of K outer folds and score on data it never saw (K times "
+                          "the work); writes nested.json and a report section")
     run.set_defaults(func=cmd_run)
+
+    sweep = sub.add_parser(
+        "sweep", parents=[common], help="search once per budget: accuracy against cost",
+        description="Run the configured search for each budget (sharing every evaluation\n"
+        "between budgets) and write frontier.csv, frontier.json, frontier.png and\n"
+        "report.md into the output folder. Budgets come from --budgets, else the\n"
+        "`sweep` section (budgets: [..] or n_budgets: N), else 8 evenly spaced budgets.",
+        epilog=_RUN_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    sweep.add_argument("config", metavar="CONFIG", help="YAML run configuration")
+    sweep.add_argument("--budgets", type=_budget_list, metavar="LIST",
+                       help="comma-separated budgets, 'none' for unlimited (e.g. 5,10,20,none)")
+    sweep.add_argument("--output", metavar="DIR",
+                       help="write results here instead of output.folder")
+    sweep.add_argument("--n-jobs", type=int, metavar="N",
+                       help="parallel model fits, overriding n_jobs (-1: all cores)")
+    sweep.add_argument("--strategy", metavar="NAME",
+                       help="search strategy, overriding strategy.name")
+    sweep.add_argument("--seed", type=int, metavar="S",
+                       help="random seed of the strategy, overriding seed")
+    sweep.add_argument("-q", "--quiet", action="store_true",
+                       help="print nothing except errors (files are still written)")
+    sweep.set_defaults(func=cmd_sweep)
+
+    screen = sub.add_parser(
+        "screen", parents=[common],
+        help="per-measurement table: relevance, p-value, cost, most redundant partner",
+        description="Score every candidate on its own (no model fits): relevance to the\n"
+        "target and its p-value, cost, relevance per cost, and the other candidate it\n"
+        "correlates with most. Writes features.csv into the output folder.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    screen.add_argument("config", metavar="CONFIG", help="YAML run configuration")
+    screen.add_argument("--relevance", metavar="NAME",
+                        help="relevance scorer (default: anova_f for classification, "
+                             "pearson for regression)")
+    screen.add_argument("--output", metavar="DIR",
+                        help="write features.csv here instead of output.folder")
+    screen.add_argument("-q", "--quiet", action="store_true",
+                        help="print nothing except errors (the file is still written)")
+    screen.set_defaults(func=cmd_screen)
 
     val = sub.add_parser(
         "validate", parents=[common], help="check a YAML config and its data, fit nothing",

@@ -137,6 +137,8 @@ __all__ = [
     "build_run",
     "run_from_config",
     "describe_plan",
+    "sweep_from_config",
+    "nested_from_config",
 ]
 
 PREPROCESSORS: dict[str, Callable[[], Any]] = {
@@ -1380,3 +1382,129 @@ def describe_plan(cfg: RunConfig, problem: SelectionProblem | None = None) -> st
                      f"{', '.join(cfg.never_include) or '-'}")
     lines.append(f"Output: {cfg.output}")
     return "\n".join(lines)
+
+
+# ------------------------------------------------------------------ budget sweep
+def _parse_sweep(value: Any, ctx: _Context) -> dict:
+    """The ``sweep`` section: budgets for ``featuresift sweep``.
+
+    ``budgets`` is a list of numbers (``null`` = unlimited); ``n_budgets`` asks for that
+    many evenly spaced budgets from the cheapest measurement to all of them.
+    """
+    d = ctx.mapping(value, "sweep", ["budgets", "n_budgets"])
+    if "budgets" in d and "n_budgets" in d:
+        raise ctx.error("give either budgets or n_budgets, not both", "sweep")
+    budgets = None
+    if d.get("budgets") is not None:
+        raw = d["budgets"]
+        if not isinstance(raw, list) or not raw:
+            raise ctx.error(f"expected a non-empty list of budgets, got {_show(raw)}",
+                            "sweep.budgets")
+        budgets = [
+            ctx.number(b, f"sweep.budgets[{i}]", minimum=0, optional=True)
+            for i, b in enumerate(raw)
+        ]
+    n = ctx.integer(d.get("n_budgets"), "sweep.n_budgets", minimum=2, optional=True)
+    return {"budgets": budgets, "n_budgets": 8 if n is None else n}
+
+
+register_section("sweep", Section(_parse_sweep))
+
+
+def _search_options(kwargs: dict) -> dict:
+    """run_search keyword arguments without the budget (set per sweep point)."""
+    return {k: v for k, v in kwargs.items() if k not in ("budget",)}
+
+
+def sweep_from_config(
+    cfg: RunConfig,
+    budgets: list[float | None] | None = None,
+    *,
+    write: bool = False,
+    callback: Callable | None = None,
+):
+    """Run the configured search once per budget on a shared evaluator.
+
+    Parameters
+    ----------
+    cfg : RunConfig
+        From :func:`load_config`.
+    budgets : list of float or None, optional
+        Budgets (None = unlimited); default from the ``sweep`` section, else 8 evenly
+        spaced budgets.
+    write : bool, default=False
+        Write ``frontier.csv``, ``frontier.json``, ``frontier.png`` and ``report.md``
+        into the output folder.
+    callback : callable, optional
+        Called with each finished :class:`~featuresift.result.SearchResult`.
+
+    Returns
+    -------
+    Frontier
+    """
+    from featuresift.frontier import budget_sweep, default_budgets
+    from featuresift.report import write_report
+
+    problem, kwargs = build_run(cfg)
+    spec = cfg.extra.get("sweep") or {"budgets": None, "n_budgets": 8}
+    if budgets is None:
+        budgets = spec["budgets"] or default_budgets(cfg.cost_model, spec["n_budgets"])
+    cheapest = cfg.cost_model.cheapest_feature_cost()
+    for b in budgets:
+        if b is not None and b < cheapest:
+            raise InputError(
+                f"budget {b:g} {cfg.cost_model.unit} is below the cheapest possible subset "
+                f"({cheapest:g} {cfg.cost_model.unit})",
+                key="sweep.budgets", line=cfg.lines.get("sweep.budgets"),
+            )
+    frontier = budget_sweep(problem, list(budgets), **_search_options(kwargs))
+    if callback is not None:
+        for r in frontier.results:
+            callback(r)
+    if write:
+        best = max(frontier.results, key=lambda r: r.score_mean)
+        try:
+            frontier.write(cfg.output)
+            budget = "unlimited" if best.budget is None else f"{best.budget:g}"
+            write_report(cfg.output, best, frontier=frontier, source=str(cfg.path),
+                         title="featuresift budget sweep",
+                         chosen_heading=f"Highest-scoring choice (budget {budget})")
+        except OSError as exc:
+            raise InputError(
+                f"cannot write the results to {cfg.output}: {exc.strerror or exc}",
+                key="output.folder", line=cfg.lines.get("output.folder"),
+            ) from None
+    return frontier
+
+
+def nested_from_config(cfg: RunConfig, outer_folds: int = 5):
+    """Nested CV of the configured search (the whole search re-run per outer fold).
+
+    The outer folds follow ``cv`` (stratified for classifiers, grouped when
+    ``cv.group_column`` is set, shuffled with ``cv.seed``); the inner CV is ``cv``
+    itself.
+
+    Returns
+    -------
+    NestedEvaluation
+    """
+    from featuresift.nested import nested_evaluation
+
+    if outer_folds < 2:
+        raise InputError(f"--nested needs at least 2 outer folds, got {outer_folds}")
+    problem, kwargs = build_run(cfg)
+    cv = cfg.cv
+    if cv.group_column is not None:
+        outer = GroupKFold(n_splits=outer_folds)
+    elif cfg.stratified:
+        outer = StratifiedKFold(outer_folds, shuffle=True, random_state=cv.seed)
+    else:
+        outer = KFold(outer_folds, shuffle=True, random_state=cv.seed)
+    opts = dict(kwargs)
+    strategy = opts.pop("strategy")
+    return nested_evaluation(
+        problem.X, problem.y, problem.estimator, cost_model=problem.cost_model,
+        outer_cv=outer, inner_cv=_splitter(cfg), scoring=problem.scoring,
+        groups=problem.groups, feature_names=problem.feature_names, strategy=strategy,
+        **opts,
+    )

@@ -149,7 +149,7 @@ class Frontier:
         )
         ax.step(eff["cost"], eff["score_mean"], where="post", color="tab:green",
                 label="cost-efficient choices")
-        ax.plot(eff["cost"], eff["score_mean"], "o", color="tab:green")
+        ax.plot(eff["cost"], eff["score_mean"], "o", color="tab:green", zorder=4)
         for _, row in eff.iterrows():
             ax.annotate(f"{int(row['n_selected'])}", (row["cost"], row["score_mean"]),
                         textcoords="offset points", xytext=(4, -12), fontsize=8)

@@ -49,6 +49,7 @@ def render_report(
     nested: Any = None,
     feature_table: Any = None,
     source: str | None = None,
+    chosen_heading: str = "Chosen measurements",
 ) -> str:
     """Markdown text of the report.
 
@@ -67,6 +68,8 @@ def render_report(
         A per-feature table (relevance, cost, ...) to include.
     source : str, optional
         Where the run came from (config path), shown under the title.
+    chosen_heading : str
+        Heading of the section describing ``result``.
 
     Examples
     --------
@@ -83,7 +86,7 @@ def render_report(
     lines += [CAUTION, ""]
     budget = "unlimited" if result.budget is None else f"{result.budget:g} {u}"
     lines += [
-        "## Chosen measurements",
+        f"## {chosen_heading}",
         "",
         f"Strategy **{result.strategy.get('name')}**, budget {budget}, "
         f"scoring `{result.scoring}`.",

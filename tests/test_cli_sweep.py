@@ -1,0 +1,112 @@
+"""`featuresift sweep`, `featuresift screen` and `featuresift run --nested` end to end."""
+
+from __future__ import annotations
+
+import copy
+import json
+
+import pandas as pd
+import pytest
+import yaml
+from scipy import stats
+
+from featuresift.cli import main
+from featuresift.costs import CostModel
+from featuresift.demo import GRAIN_CONFIG, GRAIN_TARGET, make_grain_lots
+
+pytestmark = pytest.mark.usefixtures("single_blas_thread")
+
+CANDIDATES = ["moisture_pct", "test_weight_kg_hl", "protein_nir_pct", "falling_number_s",
+              "don_ppm", "zearalenone_ppb", "fusarium_damaged_kernels"]
+
+
+@pytest.fixture
+def small_config(tmp_path):
+    frame = make_grain_lots(n_lots=200, seed=3)
+    frame[["lot_id", GRAIN_TARGET, *CANDIDATES]].to_csv(tmp_path / "lots.csv", index=False)
+    cfg = copy.deepcopy(GRAIN_CONFIG)
+    cfg["data"] = {"path": "lots.csv", "target": GRAIN_TARGET, "exclude": ["lot_id"]}
+    costs = cfg["costs"]
+    costs["features"] = {k: v for k, v in costs["features"].items() if k in CANDIDATES}
+    costs["panels"] = {"mycotoxin_panel": {"cost": costs["panels"]["mycotoxin_panel"]["cost"],
+                                           "features": ["don_ppm", "zearalenone_ppb"]}}
+    cfg["cv"] = {"folds": 3, "seed": 0}
+    cfg["strategy"] = {"name": "forward", "options": {"n_features": 3}}
+    cfg["output"] = {"folder": "out"}
+    path = tmp_path / "small.yaml"
+    path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
+    return path, cfg
+
+
+def _cost_model(cfg):
+    c = cfg["costs"]
+    return CostModel(
+        CANDIDATES, c["features"],
+        panels={k: (v["cost"], v["features"]) for k, v in c["panels"].items()},
+    )
+
+
+def test_sweep_writes_frontier_within_each_budget(small_config, capsys):
+    path, cfg = small_config
+    assert main(["sweep", str(path), "--budgets", "0.5,10,none"]) == 0
+    out_dir = path.parent / "out"
+    frame = pd.read_csv(out_dir / "frontier.csv")
+    assert len(frame) == 3
+    cm = _cost_model(cfg)
+    for budget, chosen, cost in zip(frame["budget"], frame["selected"], frame["cost"]):
+        names = chosen.split(" + ")
+        assert cost == pytest.approx(cm.cost(names))  # independent cost model
+        assert pd.isna(budget) or cost <= budget + 1e-9
+    data = json.loads((out_dir / "frontier.json").read_text())
+    assert data["n_fits"] <= data["n_fits_without_cache"]
+    report = (out_dir / "report.md").read_text()
+    assert "licensed practice" in report and "Accuracy against cost" in report
+    assert "unlimited" in capsys.readouterr().out
+
+
+def test_sweep_budget_below_cheapest_exits_2_and_writes_nothing(small_config, capsys):
+    path, cfg = small_config
+    cfg["sweep"] = {"budgets": [-0.0, 5]}
+    cfg["costs"]["features"]["moisture_pct"] = 0.25
+    cfg["costs"]["features"]["test_weight_kg_hl"] = 0.25
+    path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
+    assert main(["sweep", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert "sweep.budgets" in err and "cheapest" in err and "Traceback" not in err
+    assert not (path.parent / "out").exists()
+
+
+def test_sweep_section_typo_is_named(small_config, capsys):
+    path, cfg = small_config
+    cfg["sweep"] = {"budget": [1, 2]}
+    path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
+    assert main(["validate", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert "sweep.budget" in err and "budgets" in err
+
+
+def test_screen_table_matches_scipy_anova(small_config):
+    path, _ = small_config
+    assert main(["screen", str(path), "-q"]) == 0
+    table = pd.read_csv(path.parent / "out" / "features.csv").set_index("feature")
+    frame = pd.read_csv(path.parent / "lots.csv")
+    # Reference: scipy.stats.f_oneway on the complete cases of one column.
+    col = frame[["protein_nir_pct", GRAIN_TARGET]].dropna()
+    groups = [g["protein_nir_pct"].to_numpy() for _, g in col.groupby(GRAIN_TARGET)]
+    ref = stats.f_oneway(*groups)
+    assert table.loc["protein_nir_pct", "relevance"] == pytest.approx(ref.statistic, rel=1e-9)
+    assert table.loc["protein_nir_pct", "p_value"] == pytest.approx(ref.pvalue, rel=1e-6)
+    assert table.loc["don_ppm", "panel"] == "mycotoxin_panel"
+
+
+def test_run_nested_writes_honest_estimate(small_config, capsys):
+    path, _ = small_config
+    assert main(["run", str(path), "--nested", "2"]) == 0
+    out_dir = path.parent / "out"
+    nested = json.loads((out_dir / "nested.json").read_text())
+    assert len(nested["outer_scores"]) == 2
+    assert all(len(s) == 3 for s in nested["selected"])
+    assert 0.0 <= nested["outer_mean"] <= 1.0
+    report = (out_dir / "report.md").read_text()
+    assert "nested cross-validation" in report
+    assert "outer (honest)" in capsys.readouterr().out
