@@ -36,6 +36,7 @@ from typing import Any
 
 import numpy as np
 from sklearn.base import BaseEstimator, MetaEstimatorMixin, clone
+from sklearn.utils.metaestimators import available_if
 from sklearn.utils.validation import check_is_fitted
 
 from featuresift.costs import CostModel
@@ -232,7 +233,9 @@ class ScreenedEstimator(MetaEstimatorMixin, BaseEstimator):
 
     Because the screen runs in ``fit``, cross-validating this estimator (or using it
     as the model of a wrapper search) screens on each training part only: the
-    held-out rows never influence which columns the model may use.
+    held-out rows never influence which columns the model may use. At prediction
+    time only the kept columns are read, so dropped columns may hold anything,
+    missing values included.
 
     Parameters
     ----------
@@ -292,45 +295,58 @@ class ScreenedEstimator(MetaEstimatorMixin, BaseEstimator):
 
     def fit(self, X: Any, y: Any, **fit_params: Any) -> ScreenedEstimator:
         """Screen on ``(X, y)``, then fit a clone of the estimator on the kept columns."""
-        Xa = np.asarray(X.to_numpy() if hasattr(X, "to_numpy") else X, dtype=float)
+        from sklearn.base import is_classifier
+        from sklearn.utils.multiclass import check_classification_targets
+        from sklearn.utils.validation import validate_data
+
+        Xa, ya = validate_data(self, X, y, ensure_all_finite="allow-nan")
+        task = self.task
+        if task is None:
+            task = "classification" if is_classifier(self.estimator) else "regression"
+        if task == "classification":
+            check_classification_targets(ya)
         self.screen_ = prescreen(
-            Xa, y, self.cost_model, relevance=self.relevance,
+            Xa, ya, self.cost_model, relevance=self.relevance,
             relevance_options=self.relevance_options, rule=self.rule, keep=self.keep,
-            alpha=self.alpha, cost_basis=self.cost_basis, task=self.task,
+            alpha=self.alpha, cost_basis=self.cost_basis, task=task,
         )
         self.kept_columns_ = np.sort(self.screen_.kept)
-        self.n_features_in_ = Xa.shape[1]
         if self.kept_columns_.size == 0:
             raise InputError("the screen kept no column; loosen alpha or raise keep")
-        self.estimator_ = clone(self.estimator).fit(Xa[:, self.kept_columns_], y,
+        self.estimator_ = clone(self.estimator).fit(Xa[:, self.kept_columns_], ya,
                                                     **fit_params)
         if hasattr(self.estimator_, "classes_"):
             self.classes_ = self.estimator_.classes_
         return self
 
     def _cut(self, X: Any) -> np.ndarray:
+        from sklearn.utils.validation import validate_data
+
         check_is_fitted(self, "estimator_")
-        Xa = np.asarray(X.to_numpy() if hasattr(X, "to_numpy") else X, dtype=float)
-        if Xa.ndim != 2 or Xa.shape[1] != self.n_features_in_:
-            raise InputError(f"X has {Xa.shape[-1]} columns; the model was fitted on "
-                             f"{self.n_features_in_}")
+        Xa = validate_data(self, X, reset=False, ensure_all_finite="allow-nan")
         return Xa[:, self.kept_columns_]
 
     def predict(self, X: Any) -> np.ndarray:
         """Predict with the model fitted on the kept columns."""
-        return self.estimator_.predict(self._cut(X))
+        Xs = self._cut(X)
+        return self.estimator_.predict(Xs)
 
+    @available_if(lambda self: hasattr(self.estimator, "predict_proba"))
     def predict_proba(self, X: Any) -> np.ndarray:
         """Class probabilities (when the estimator has ``predict_proba``)."""
-        return self.estimator_.predict_proba(self._cut(X))
+        Xs = self._cut(X)
+        return self.estimator_.predict_proba(Xs)
 
+    @available_if(lambda self: hasattr(self.estimator, "decision_function"))
     def decision_function(self, X: Any) -> np.ndarray:
         """Decision function (when the estimator has one)."""
-        return self.estimator_.decision_function(self._cut(X))
+        Xs = self._cut(X)
+        return self.estimator_.decision_function(Xs)
 
     def score(self, X: Any, y: Any) -> float:
         """The estimator's default score on the kept columns."""
-        return self.estimator_.score(self._cut(X), y)
+        Xs = self._cut(X)
+        return self.estimator_.score(Xs, y)
 
 
 def screened_search(
