@@ -30,7 +30,7 @@ from featuresift.strategies.genetic import marginal_estimates, repair_by_value
 
 FAST = {
     "annealing": {"n_steps": 10, "n_neighbours": 4, "n_restarts": 1},
-    "genetic": {"population_size": 8, "max_generations": 6, "patience": 3},
+    "genetic": {"n_individuals": 8, "generation_limit": 6, "stall_limit": 3},
 }
 ALLOWED_ONLY = ("forward", "floating-forward", "annealing", "genetic", "exhaustive")
 
@@ -194,7 +194,7 @@ def test_marginal_estimates_match_group_means():
 
 def test_genetic_stops_on_stagnation_or_evaluation_limit():
     ev = CriterionEvaluator(_table_criterion(8, 9), 8, _names(8))
-    res = run_search(ev, "genetic", patience=2, max_generations=50, random_state=1)
+    res = run_search(ev, "genetic", stall_limit=2, generation_limit=50, random_state=1)
     assert res.stop_reason == "no improvement in 2 generations" and res.success
     generations = [r for r in res.path if r.action == "generation"]
     assert 2 <= len(generations) < 50

@@ -2,13 +2,13 @@
 
 One generation
 --------------
-1. **Elitism**: the ``n_elite`` best individuals pass on unchanged.
-2. **Tournament selection**: each parent is the best of ``tournament_size`` individuals
+1. **Elitism**: the ``n_kept`` best individuals pass on unchanged.
+2. **Tournament selection**: each parent is the best of ``contestants`` individuals
    drawn at random (with replacement) from the current population.
-3. **Uniform crossover** (with probability ``crossover_rate``): each bit comes from
+3. **Uniform crossover** (with probability ``crossover_chance``): each bit comes from
    either parent with probability 1/2; otherwise the child copies the first parent.
 4. **Mutation**: every free bit (not ``must_include``/``never_include``) flips with
-   probability ``mutation_rate`` (default ``1 / number of free features``).
+   probability ``flip_chance`` (default ``1 / number of free features``).
 5. **Repair** (:func:`repair_by_value`): the child is made allowed by dropping, while it
    breaks the size limit, the feature of lowest estimated value, and, while it breaks the
    budget, the unit (a lone feature, or the subset's members of one panel) of lowest
@@ -25,8 +25,8 @@ subsets that contain the feature minus the mean over those that do not (0 when e
 group is empty). It costs no evaluation; it is recomputed once per generation from
 every complete evaluation of the run.
 
-Stopping: after ``max_generations`` generations, or when the best subset has not
-improved for ``patience`` generations, or at the space's evaluation or time limit.
+Stopping: after ``generation_limit`` generations, or when the best subset has not
+improved for ``stall_limit`` generations, or at the space's evaluation or time limit.
 The answer is the best allowed subset evaluated.
 """
 
@@ -127,19 +127,19 @@ class GeneticSearch(SearchStrategy):
 
     Parameters
     ----------
-    population_size : int, default=24
+    n_individuals : int, default=24
         Individuals per generation.
-    max_generations : int, default=40
+    generation_limit : int, default=40
         Generations after the initial population.
-    patience : int, default=8
+    stall_limit : int, default=8
         Stop after this many generations without a better best subset.
-    tournament_size : int, default=3
+    contestants : int, default=3
         Individuals compared to pick each parent.
-    crossover_rate : float, default=0.9
+    crossover_chance : float, default=0.9
         Probability that a child is a uniform crossover of two parents.
-    mutation_rate : float, optional
+    flip_chance : float, optional
         Per-bit flip probability. Default ``1 / number of free features``.
-    n_elite : int, default=2
+    n_kept : int, default=2
         Best individuals copied unchanged into the next generation.
     start_density : float, default=0.3
         Chance of each free feature being on in an initial individual.
@@ -150,7 +150,7 @@ class GeneticSearch(SearchStrategy):
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 4}) - 0.1 * len(s), 6)
     >>> space = SearchSpace(ev, CostModel.uniform("abcdef"), random_state=0)
-    >>> GeneticSearch(population_size=10).run(space)
+    >>> GeneticSearch(n_individuals=10).run(space)
     >>> space.best_of(space.visited.values()).subset
     (1, 4)
     """
@@ -159,33 +159,33 @@ class GeneticSearch(SearchStrategy):
 
     def __init__(
         self,
-        population_size: int = 24,
-        max_generations: int = 40,
-        patience: int = 8,
-        tournament_size: int = 3,
-        crossover_rate: float = 0.9,
-        mutation_rate: float | None = None,
-        n_elite: int = 2,
+        n_individuals: int = 24,
+        generation_limit: int = 40,
+        stall_limit: int = 8,
+        contestants: int = 3,
+        crossover_chance: float = 0.9,
+        flip_chance: float | None = None,
+        n_kept: int = 2,
         start_density: float = 0.3,
     ) -> None:
-        self.population_size = check_int(population_size, "population_size", minimum=2)
-        self.max_generations = check_int(max_generations, "max_generations")
-        self.patience = check_int(patience, "patience")
-        self.tournament_size = check_int(tournament_size, "tournament_size")
-        self.crossover_rate = check_fraction(
-            crossover_rate, "crossover_rate", open_low=False, open_high=False)
-        if mutation_rate is not None:
-            check_fraction(mutation_rate, "mutation_rate", open_high=False)
-        self.mutation_rate = mutation_rate
-        self.n_elite = check_int(n_elite, "n_elite", minimum=0)
-        if n_elite >= population_size:
+        self.n_individuals = check_int(n_individuals, "n_individuals", minimum=2)
+        self.generation_limit = check_int(generation_limit, "generation_limit")
+        self.stall_limit = check_int(stall_limit, "stall_limit")
+        self.contestants = check_int(contestants, "contestants")
+        self.crossover_chance = check_fraction(
+            crossover_chance, "crossover_chance", open_low=False, open_high=False)
+        if flip_chance is not None:
+            check_fraction(flip_chance, "flip_chance", open_high=False)
+        self.flip_chance = flip_chance
+        self.n_kept = check_int(n_kept, "n_kept", minimum=0)
+        if n_kept >= n_individuals:
             raise InputError(
-                f"n_elite must be smaller than population_size ({population_size}), got {n_elite}"
+                f"n_kept must be smaller than n_individuals ({n_individuals}), got {n_kept}"
             )
         self.start_density = check_fraction(start_density, "start_density", open_high=False)
 
     def _parent(self, space: SearchSpace, pop: list[Scored]) -> Scored:
-        picks = space.rng.integers(len(pop), size=self.tournament_size)
+        picks = space.rng.integers(len(pop), size=self.contestants)
         return space.best_of(pop[int(i)] for i in picks)
 
     def _child(self, space: SearchSpace, pop: list[Scored], free: np.ndarray,
@@ -193,7 +193,7 @@ class GeneticSearch(SearchStrategy):
         rng = space.rng
         a = set(self._parent(space, pop).subset)
         b = set(self._parent(space, pop).subset)
-        if rng.random() < self.crossover_rate:
+        if rng.random() < self.crossover_chance:
             take_a = rng.random(free.size) < 0.5
             child = {int(f) for f, ta in zip(free, take_a) if (f in a if ta else f in b)}
         else:
@@ -209,20 +209,20 @@ class GeneticSearch(SearchStrategy):
 
     def run(self, space: SearchSpace) -> None:
         free = np.array(space.free_candidates, dtype=int)
-        rate = self.mutation_rate
+        rate = self.flip_chance
         if rate is None:
             rate = 1.0 / max(1, free.size)
-        starts = [space.sample_allowed(self.start_density) for _ in range(self.population_size)]
+        starts = [space.sample_allowed(self.start_density) for _ in range(self.n_individuals)]
         pop = space.evaluate(starts)
         best = space.best_of(pop)
         space.record("start", best.subset)
         stale = 0
-        for _ in range(self.max_generations):
+        for _ in range(self.generation_limit):
             estimate = marginal_estimates(space)
             ranked = sorted(pop, key=space.rank_key, reverse=True)
-            elite = [s.subset for s in ranked[: self.n_elite]]
+            elite = [s.subset for s in ranked[: self.n_kept]]
             children: list[tuple[int, ...]] = []
-            while len(children) < self.population_size - self.n_elite:
+            while len(children) < self.n_individuals - self.n_kept:
                 for _ in range(_NOVELTY_TRIES):
                     child = self._child(space, pop, free, rate, estimate)
                     if child not in space.visited and child not in children:
@@ -235,7 +235,7 @@ class GeneticSearch(SearchStrategy):
             else:
                 stale += 1
             space.record("generation", best.subset)
-            if stale >= self.patience:
-                space.stop_reason = f"no improvement in {self.patience} generations"
+            if stale >= self.stall_limit:
+                space.stop_reason = f"no improvement in {self.stall_limit} generations"
                 return
-        space.stop_reason = f"{self.max_generations} generations done"
+        space.stop_reason = f"{self.generation_limit} generations done"
