@@ -69,6 +69,14 @@ class BaseObjective(ABC):
         """Raise :class:`InputError` if this objective cannot value predictions of ``y``."""
         return None
 
+    def prepare(self, X: Any, y: Any) -> None:
+        """Called once with the problem's data before a search (default: check ``y``).
+
+        Objectives that need the candidate matrix (for example a redundancy term)
+        compute what they need here.
+        """
+        self.check_target(y)
+
 
 class ScoreObjective(BaseObjective):
     """Mean CV score (the budget is a hard constraint, applied by the search).

@@ -139,7 +139,7 @@ def run_search(
     t0 = time.perf_counter()
     objective = make_objective(objective)
     if isinstance(problem, SelectionProblem):
-        objective.check_target(problem.y)
+        objective.prepare(problem.X, problem.y)
         required = objective.required_scorer()
         if required is not None and repr(problem.scorer) != repr(required):
             problem = _with_scorer(problem, required)

@@ -94,6 +94,12 @@ class RedundancyPenalizedObjective(BaseObjective):
         self._set_matrix(abs_correlation_matrix(arr))
         return self
 
+    def prepare(self, X: Any, y: Any) -> None:
+        """Bind to the problem's candidate matrix unless a matrix was given."""
+        super().prepare(X, y)
+        if self.correlation is None:
+            self.bind(X)
+
     def redundancy(self, subset: tuple[int, ...]) -> float:
         """Mean (or max) |correlation| over the pairs of ``subset`` (0 below 2 columns)."""
         if self.correlation is None:
