@@ -23,8 +23,8 @@ from featuresift.search import run_search
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
 
 
-def _scaled_logistic():
-    return make_pipeline(StandardScaler(), LogisticRegression(solver="newton-cholesky"))
+def _scaled_logistic(solver: str = "newton-cholesky"):
+    return make_pipeline(StandardScaler(), LogisticRegression(solver=solver))
 
 
 # ------------------------------------------------------- parity with scikit-learn
@@ -37,17 +37,20 @@ def _scaled_logistic():
 # (max() over a dict filled in column order, sklearn/feature_selection/_sequential.py);
 # featuresift documents the same tie-break, so backward parity is exact too.
 @pytest.mark.parametrize(
-    ("loader", "direction", "scoring", "n_select"),
-    [(load_breast_cancer, "forward", "roc_auc", 5), (load_wine, "backward", "accuracy", 8)],
+    ("loader", "solver", "direction", "scoring", "n_select"),
+    [
+        (load_breast_cancer, "liblinear", "forward", "roc_auc", 5),  # liblinear: binary only
+        (load_wine, "newton-cholesky", "backward", "accuracy", 8),
+    ],
 )
-def test_matches_sklearn_sequential_selector(loader, direction, scoring, n_select):
+def test_matches_sklearn_sequential_selector(loader, solver, direction, scoring, n_select):
     X, y = loader(return_X_y=True)
     cv = StratifiedKFold(5)
     reference = SequentialFeatureSelector(
-        _scaled_logistic(), n_features_to_select=n_select, direction=direction, cv=cv,
+        _scaled_logistic(solver), n_features_to_select=n_select, direction=direction, cv=cv,
         scoring=scoring,
     ).fit(X, y)
-    problem = SelectionProblem(X, y, _scaled_logistic(), cv=cv, scoring=scoring)
+    problem = SelectionProblem(X, y, _scaled_logistic(solver), cv=cv, scoring=scoring)
     result = run_search(problem, direction, n_features=n_select)
     assert result.support == list(np.flatnonzero(reference.get_support()))
     assert len(result.support) == n_select
