@@ -6,11 +6,15 @@ Budget-aware, panel-aware feature-subset search around a cross-validation evalua
 from featuresift.costs import CostLine, CostModel
 from featuresift.errors import InputError
 from featuresift.evaluator import BaseEvaluator, CriterionEvaluator, CrossValidationEvaluator
-from featuresift.objectives import BaseObjective, make_objective
+from featuresift.frontier import Frontier, budget_sweep, default_budgets
+from featuresift.nested import NestedEvaluation, nested_evaluation
+from featuresift.objectives import BaseObjective, make_objective, register_objective
 from featuresift.problem import SelectionProblem
 from featuresift.records import Evaluation
 from featuresift.result import SearchResult
 from featuresift.search import run_search
+from featuresift.selector import MeasurementSelector
+from featuresift.stability import kuncheva_index, nogueira_stability
 from featuresift.strategies import (
     STRATEGIES,
     SearchSpace,
@@ -30,6 +34,15 @@ __all__ = [
     "CrossValidationEvaluator",
     "BaseObjective",
     "make_objective",
+    "register_objective",
+    "Frontier",
+    "budget_sweep",
+    "default_budgets",
+    "NestedEvaluation",
+    "nested_evaluation",
+    "MeasurementSelector",
+    "kuncheva_index",
+    "nogueira_stability",
     "SelectionProblem",
     "Evaluation",
     "SearchResult",
