@@ -2,7 +2,8 @@
 
 The cost of a subset S is C(S) = sum of the prices of the lone features in S plus, for
 each panel that S touches, the panel price paid once (the grouped/shared test-cost model
-of Turney 1995 and Paclik et al. 2002, written out in /work/shared/CHECKS.md section 10).
+of Turney 1995, JAIR 2, and Paclik et al. 2002, SSPR/SPR, LNCS 2396; the latter cited from
+memory).
 Every expected number below is worked out by hand from that formula.
 """
 

@@ -15,7 +15,8 @@ from featuresift.filters import (
 
 
 def test_gain_per_cost_trap_returns_the_item_worth_ten():
-    # CHECKS.md item 10 (COMPUTED fixture; Leskovec et al. 2007): budget 10,
+    # Failure mode of benefit/cost greedy described by Leskovec et al. (2007), "Cost-effective
+    # outbreak detection in networks", KDD; fixture computed for this test: budget 10,
     # a = (value 0.2, cost 0.1), b = (value 10, cost 10). Ratio-greedy alone gets 0.2.
     cm = CostModel(["a", "b"], {"a": 0.1, "b": 10.0})
     X = np.zeros((4, 2))
@@ -62,7 +63,8 @@ def test_mrmr_with_duplicated_column_takes_one_copy():
 
 
 def test_xor_inputs_have_zero_relevance_so_greedy_buys_nothing():
-    # CHECKS.md item 8: each XOR input alone is independent of the class, so a
+    # XOR example (exact, from the definition of mutual information): each input alone is
+    # independent of the class, so a
     # relevance-driven filter sees nothing to buy; only a wrapper evaluating the pair can.
     X = np.array([[0, 0], [0, 1], [1, 0], [1, 1]] * 4, float)
     z = X[:, 0].astype(int) ^ X[:, 1].astype(int)

@@ -1,9 +1,8 @@
 """Sequential floating search (SFFS, SBFS).
 
-Reference: the hand-traceable six-feature example of CHECKS.md item 5 (Pudil,
-Novovičová & Kittler 1994, "Floating search methods in feature selection", Pattern
-Recognition Letters 15(11); algorithm steps from memory plus a secondary tutorial,
-counterexample values computed and traced by hand there).
+Reference: Pudil, Novovičová & Kittler (1994), "Floating search methods in feature
+selection", Pattern Recognition Letters 15(11); algorithm steps from memory plus a secondary
+tutorial. The six-feature example is hand-traced and computed for these tests.
 """
 
 from __future__ import annotations
@@ -21,7 +20,8 @@ from featuresift.strategies import (
     SearchSpace,
 )
 
-# CHECKS.md item 5: J per subset; subsets not listed have J = 0 and are never queried.
+# Pudil, Novovičová & Kittler (1994), hand-traced six-feature example computed for this test:
+# J per subset; subsets not listed have J = 0 and are never queried.
 _TABLE = """
 a 40  b 29  c 6  d 3  e 41  f 32
 ac 10 ae 8 af 39 be 4 ce 7 cf 21 de 5 ef 15
@@ -32,7 +32,7 @@ abcde 26 abcdf 31 abcef 25 abdef 2 acdef 27 bcdef 13   abcdef 28
 _NAMES = list("abcdef")
 
 
-def _checks_space(**kwargs) -> SearchSpace:
+def _six_feature_space(**kwargs) -> SearchSpace:
     tokens = _TABLE.split()
     table = {
         tuple(_NAMES.index(ch) for ch in key): float(value)
@@ -47,10 +47,10 @@ def _letters(subset) -> str:
 
 
 def test_sffs_reproduces_published_path_size_by_size():
-    space = _checks_space()
+    space = _six_feature_space()
     FloatingForwardSearch().run(space)
     steps = [(st.action, _letters(st.subset), st.scored.value) for st in space.path]
-    # CHECKS.md item 5, SFFS trace steps 1-6.
+    # Hand-traced SFFS steps 1-6 (Pudil, Novovičová & Kittler 1994 algorithm).
     assert steps == [
         ("add", "e", 41), ("add", "ef", 15), ("add", "aef", 20),
         ("exclude", "af", 39),
@@ -60,43 +60,43 @@ def test_sffs_reproduces_published_path_size_by_size():
         ("add", "abcdf", 31), ("add", "abcdef", 28),
     ]
     records = space.extras["best_by_size"]
-    # CHECKS.md item 5: SFFS {2: af 39, 3: acf 37, 4: abcd 35, 5: abcdf 31}.
+    # Hand-traced SFFS records: {2: af 39, 3: acf 37, 4: abcd 35, 5: abcdf 31}.
     assert {k: ("".join(v["features"]), v["value"]) for k, v in records.items() if 2 <= k <= 5} \
         == {2: ("af", 39), 3: ("acf", 37), 4: ("abcd", 35), 5: ("abcdf", 31)}
 
 
 def test_sfs_path_and_floating_not_above_it_everywhere():
-    space = _checks_space()
+    space = _six_feature_space()
     ForwardSelection(n_features=6).run(space)
-    # CHECKS.md item 5, SFS: e(41) -> ef(15) -> aef(20) -> adef(38) -> acdef(27) -> abcdef(28).
+    # Hand-traced SFS: e(41) -> ef(15) -> aef(20) -> adef(38) -> acdef(27) -> abcdef(28).
     assert [(_letters(st.subset), st.scored.value) for st in space.path] == [
         ("e", 41), ("ef", 15), ("aef", 20), ("adef", 38), ("acdef", 27), ("abcdef", 28)
     ]
-    sffs = _checks_space()
+    sffs = _six_feature_space()
     FloatingForwardSearch().run(sffs)
     # Not a theorem: SFFS is worse than SFS at size 4 on this criterion (35 < 38).
     assert sffs.extras["best_by_size"][4]["value"] == 35 < 38
 
 
 def test_sequential_floor_keeps_the_better_record_per_size():
-    space = _checks_space()
+    space = _six_feature_space()
     FloatingForwardSearch(sequential_floor=True).run(space)
     got = {k: ("".join(v["features"]), v["value"])
            for k, v in space.extras["best_by_size"].items()}
-    # max(SFS, SFFS) per size, values from CHECKS.md item 5.
+    # max(SFS, SFFS) per size, values from the hand-traced six-feature example.
     assert got[4] == ("adef", 38)
     assert got[2] == ("af", 39) and got[3] == ("acf", 37) and got[5] == ("abcdf", 31)
 
 
 def test_n_features_answers_with_the_record_of_that_size():
     costs = CostModel.uniform(_NAMES)
-    res = run_search(_checks_space().evaluator, "floating-forward", n_features=4,
+    res = run_search(_six_feature_space().evaluator, "floating-forward", n_features=4,
                      cost_model=costs)
-    # Stops at size 4: acdf(30) is the record then (CHECKS.md item 5, step 4).
+    # Stops at size 4: acdf(30) is the record then (hand-traced SFFS, step 4).
     assert "".join(res.selected) == "acdf"
     assert res.extras["best_by_size"].keys() == {1, 2, 3, 4}
     # Looking one size beyond lets the backtrack from abcdf improve size 4 (step 5).
-    res = run_search(_checks_space().evaluator, "floating-forward", n_features=4,
+    res = run_search(_six_feature_space().evaluator, "floating-forward", n_features=4,
                      look_beyond=1, cost_model=costs)
     assert "".join(res.selected) == "abcd" and res.score_mean == 35
 
@@ -128,7 +128,8 @@ def test_records_never_decrease_and_search_terminates(cls, seed):
 
 
 def test_additive_criterion_floating_equals_sequential():
-    # CHECKS.md item 5 (G1): with an additive J no backtrack succeeds, SFFS = SFS.
+    # Follows from the Pudil et al. (1994) steps: with an additive J no backtrack succeeds,
+    # so SFFS = SFS.
     rng = np.random.default_rng(3)
     w = rng.random(7)
     names = [f"x{i}" for i in range(7)]
@@ -185,7 +186,7 @@ def test_floating_stays_within_budget_and_limits():
 def test_cycle_guard_reports_repeated_state():
     from featuresift.strategies.floating import _SizeRecords
 
-    space = _checks_space()
+    space = _six_feature_space()
     records = _SizeRecords(space)
     assert not records.seen_before((0, 1))
     assert records.seen_before((0, 1))

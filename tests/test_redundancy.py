@@ -17,8 +17,9 @@ from featuresift.filters import (
 from featuresift.objectives import OBJECTIVES, make_objective
 from featuresift.records import Evaluation
 
-# CHECKS.md item 7: fixture where MID and MIQ choose different second features
-# (plug-in MI in nats; values there are COMPUTED and cross-checked with mutual_info_score).
+# Fixture where the MID and MIQ criteria of Peng, Long & Ding (2005) choose different second
+# features (plug-in MI in nats; values computed from the published formulas for this test and
+# cross-checked with sklearn.metrics.mutual_info_score).
 C7 = np.array([0, 0, 0, 0, 1, 1, 1, 1])
 X7 = np.array([
     [0, 1, 1, 1, 1, 0, 1, 1],  # x1
@@ -31,13 +32,14 @@ X7 = np.array([
 def test_mrmr_mid_and_miq_reproduce_published_fixture():
     mid = mrmr(X7, C7, 2, "difference", keep_gains=True)
     miq = mrmr(X7, C7, 2, "quotient", keep_gains=True)
-    # Relevances I(x_j; c) (CHECKS.md 7).
+    # Relevances I(x_j; c), computed with mutual_info_score for this test.
     np.testing.assert_allclose(mid.relevance, [0.0, 0.0338221, 0.0956026, 0.2157616],
                                atol=5e-8)
-    # First pick x4 in both; MID second x3, MIQ second x2 (CHECKS.md 7).
+    # First pick x4 in both; MID second x3, MIQ second x2 (Peng, Long & Ding 2005 criteria).
     assert mid.selected == ["x3", "x2"]  # 0-based names: x3 is the fixture's x4
     assert miq.selected == ["x3", "x1"]
-    # Second-step criterion values (CHECKS.md 7): MID x1 -0.084950, x2 0.022931, x3 0.056753.
+    # Second-step criterion values, computed from the published formulas:
+    # MID x1 -0.084950, x2 0.022931, x3 0.056753.
     np.testing.assert_allclose(mid.candidate_gains[1][:3], [-0.084950, 0.022931, 0.056753],
                                atol=5e-7)
     # MIQ x1 0.000000, x2 3.105559, x3 2.460860.

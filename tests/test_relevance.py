@@ -1,7 +1,7 @@
 """Relevance scorers against scipy, scikit-learn and published worked examples.
 
-Published values come from /work/shared/CHECKS.md (item numbers given beside each
-check, with the original source named there).
+The original source of each published value is named beside its check; values from
+memory and values computed for these tests say so.
 """
 
 import math
@@ -36,7 +36,7 @@ def _groups_to_xy(groups):
 
 
 # ------------------------------------------------------------------ ANOVA F
-# CHECKS.md 1a: NIST StRD SiRstv (certified values).
+# NIST StRD ANOVA dataset SiRstv (Ehrstein & Croarkin), certified values.
 SIRSTV = [
     [196.3052, 196.1240, 196.1890, 196.2569, 196.3403],
     [196.3042, 196.3825, 196.1669, 196.3257, 196.0422],
@@ -45,7 +45,8 @@ SIRSTV = [
     [196.2119, 196.1051, 196.1850, 196.0052, 196.2090],
 ]
 
-# CHECKS.md 1c: McDonald mussel data (as quoted in the scipy f_oneway docstring).
+# McDonald, Handbook of Biological Statistics, one-way ANOVA mussel data (as quoted in the
+# scipy.stats.f_oneway docstring).
 MUSSELS = [
     [0.0571, 0.0813, 0.0831, 0.0976, 0.0817, 0.0859, 0.0735, 0.0659, 0.0923, 0.0836],
     [0.0873, 0.0662, 0.0672, 0.0819, 0.0749, 0.0649, 0.0835, 0.0725],
@@ -56,18 +57,19 @@ MUSSELS = [
 
 
 def test_anova_nist_sirstv_certified_f():
-    # NIST StRD SiRstv certified F = 1.18046237440255 (CHECKS.md 1a), rel 1e-9.
+    # NIST StRD ANOVA dataset SiRstv, certified F = 1.18046237440255, rel 1e-9.
     X, y = _groups_to_xy(SIRSTV)
     f, p = anova_f(X, y)
     assert f[0] == pytest.approx(1.18046237440255, rel=1e-9)
-    # p-value COMPUTED in CHECKS.md 1a (F(4, 20) upper tail).
+    # NIST certifies no p-value: computed with scipy for this test (F(4, 20) upper tail).
     assert p[0] == pytest.approx(0.349447493402, rel=1e-9)
 
 
 def _smls(n_pairs, offset=0.0):
-    # NIST StRD SmLs01-03 (CHECKS.md 1b): treatment 1 = 1.4 then (1.3, 1.5) pairs, the
-    # others alternate base 1.3 / 1.5 (bases of treatments 3-9 are MEMORY; any such
-    # arrangement reproduces the certified values, as CHECKS.md notes).
+    # NIST StRD ANOVA datasets SmLs01-03 (Simon & Lesage 1989, Computational Statistics &
+    # Data Analysis 8): treatment 1 = 1.4 then (1.3, 1.5) pairs, the others alternate base
+    # 1.3 / 1.5 (bases of treatments 3-9 are a value from memory; any such arrangement
+    # reproduces the certified values, checked with exact rational arithmetic).
     bases = [1.4, 1.3, 1.5, 1.3, 1.5, 1.3, 1.5, 1.3, 1.5]
     groups = [[offset + b] + [offset + b + d for _ in range(n_pairs) for d in (-0.1, 0.1)]
               for b in bases]
@@ -76,23 +78,23 @@ def _smls(n_pairs, offset=0.0):
 
 @pytest.mark.parametrize("n_pairs,certified", [(10, 21.0), (100, 201.0), (1000, 2001.0)])
 def test_anova_nist_smls_certified_f(n_pairs, certified):
-    # NIST StRD SmLs01/02/03 certified F = 21 / 201 / 2001 (CHECKS.md 1b), rel 1e-9.
+    # NIST StRD ANOVA datasets SmLs01/02/03, certified F = 21 / 201 / 2001, rel 1e-9.
     X, y = _smls(n_pairs)
     f, _ = anova_f(X, y)
     assert f[0] == pytest.approx(certified, rel=1e-9)
 
 
 def test_anova_smls04_offset_data():
-    # SmLs04 (7 constant leading digits): float64 inputs give 21.0000000007761
-    # (CHECKS.md 1b, COMPUTED); rel 1e-8 against the certified 21.
+    # NIST StRD SmLs04 (7 constant leading digits), certified F = 21. The float64 inputs give
+    # 21.0000000007761 (computed with scipy and exact rational arithmetic); rel 1e-8.
     X, y = _smls(10, offset=1000000.0)
     f, _ = anova_f(X, y)
     assert f[0] == pytest.approx(21.0, rel=1e-8)
 
 
 def test_anova_mcdonald_mussels():
-    # scipy f_oneway docstring / McDonald handbook: F = 7.1210194716424473,
-    # p = 0.00028122423145345439 (CHECKS.md 1c).
+    # scipy.stats.f_oneway docstring (McDonald, Handbook of Biological Statistics):
+    # F = 7.1210194716424473, p = 0.00028122423145345439.
     X, y = _groups_to_xy(MUSSELS)
     f, p = anova_f(X, y)
     assert f[0] == pytest.approx(7.1210194716424473, rel=1e-12)
@@ -100,11 +102,12 @@ def test_anova_mcdonald_mussels():
 
 
 def test_anova_agresti_franklin_klingenberg():
-    # Agresti, Franklin & Klingenberg Ch.14 Ex.3: F = 6.43 with df (2, 12) (CHECKS.md 1e).
+    # Agresti, Franklin & Klingenberg, Statistics: The Art and Science of Learning from Data,
+    # 5th ed., Ch. 14 Example 3: F = 6.43 with df (2, 12).
     X, y = _groups_to_xy([[5, 1, 11, 2, 8], [0, 1, 4, 6, 3], [13, 9, 8, 15, 7]])
     f, p = anova_f(X, y)
     assert round(f[0], 2) == 6.43
-    assert p[0] == pytest.approx(0.012643, abs=1e-6)  # COMPUTED in CHECKS.md 1e
+    assert p[0] == pytest.approx(0.012643, abs=1e-6)  # computed with scipy for this test
 
 
 def test_anova_matches_scipy_and_sklearn_on_many_columns():
@@ -143,19 +146,21 @@ def test_anova_degenerate_columns():
 
 # --------------------------------------------------------------- chi-square
 def test_chi2_table_agresti_gender_party():
-    # Agresti (2007) p.39: X^2 = 30.07, df = 2 (CHECKS.md 2a); p COMPUTED there.
+    # Agresti (2007) An Introduction to Categorical Data Analysis, p. 39: X^2 = 30.07, df = 2;
+    # p computed with scipy for this test.
     stat, p, dof = pearson_chi_square_table([[762, 327, 468], [484, 239, 477]])
     assert round(stat, 2) == 30.07 and dof == 2
     assert p == pytest.approx(2.9535891832e-07, rel=1e-8)
 
 
 def test_chi2_table_scipy_docstring_and_gss():
-    # scipy chi2_contingency docstring: X^2 = 2.7777777777777777, p = 0.24935220877729619
-    # (CHECKS.md 2b).
+    # scipy.stats.chi2_contingency docstring: X^2 = 2.7777777777777777,
+    # p = 0.24935220877729619.
     stat, p, dof = pearson_chi_square_table([[10, 10, 20], [20, 20, 20]])
     assert stat == pytest.approx(2.7777777777777777, rel=1e-12)
     assert p == pytest.approx(0.24935220877729619, rel=1e-10)
-    # GSS 1991 sex x party (Agresti 2002): X^2 = 7.009544 COMPUTED in CHECKS.md 2c.
+    # GSS 1991 sex x party, Agresti (2002) Categorical Data Analysis, 2nd ed., Table 3.11
+    # (published G^2 = 7.003); Pearson X^2 = 7.009544 and p computed with scipy for this test.
     stat, p, _ = pearson_chi_square_table([[279, 73, 225], [165, 47, 191]])
     assert stat == pytest.approx(7.009544, abs=1e-6)
     assert p == pytest.approx(0.030054, abs=1e-6)
@@ -176,7 +181,7 @@ def test_chi2_contingency_mode_on_data_reproduces_agresti():
     table = [[762, 484], [327, 239], [468, 477]]  # party x gender
     X, y = _table_to_xy(table)
     s, p = chi_square(X, y)
-    assert round(s[0], 2) == 30.07  # CHECKS.md 2a
+    assert round(s[0], 2) == 30.07  # Agresti (2007), p. 39
     ref = stats.chi2_contingency(np.array(table), correction=False)  # scipy reference
     assert s[0] == pytest.approx(ref.statistic, rel=1e-12)
     assert p[0] == pytest.approx(ref.pvalue, rel=1e-9)
@@ -234,9 +239,10 @@ ANSCOMBE = {
 @pytest.mark.parametrize("name,r_computed", [
     ("I", 0.816421), ("II", 0.816237), ("III", 0.816287), ("IV", 0.816521)])
 def test_pearson_anscombe_quartet(name, r_computed):
-    # Anscombe (1973): r = 0.816 printed for each data set (CHECKS.md 3); set IV's r is
-    # 0.8165..., so the printed 3 decimals are truncated: tolerance 1e-3. The 6-decimal
-    # values are COMPUTED in the CHECKS.md 3 table.
+    # Anscombe (1973), "Graphs in Statistical Analysis", The American Statistician 27(1):
+    # r = 0.816 printed for each data set; set IV's r is 0.8165..., so the printed 3
+    # decimals are truncated: tolerance 1e-3. The 6-decimal values are computed with
+    # numpy for this test.
     x, yv = ANSCOMBE[name]
     s, p = pearson(np.array(x, float)[:, None], np.array(yv))
     assert s[0] == pytest.approx(0.816, abs=1e-3)
@@ -246,7 +252,8 @@ def test_pearson_anscombe_quartet(name, r_computed):
 
 
 def test_spearman_iq_tv_example():
-    # Spearman IQ vs TV hours: rho = -29/165 (CHECKS.md 3b); score is |rho|.
+    # Spearman IQ vs TV hours, worked example of Wikipedia's "Spearman's rank correlation
+    # coefficient" article: rho = -29/165; score is |rho|.
     iq = [106, 86, 100, 101, 99, 103, 97, 113, 112, 110]
     tv = [7, 0, 27, 50, 28, 29, 20, 12, 6, 17]
     s, p = spearman(np.array(iq, float)[:, None], np.array(tv, float))
@@ -271,14 +278,16 @@ def test_pearson_needs_numeric_or_two_classes():
 
 
 # ---------------------------------------------------------- mutual information
-# CHECKS.md 8: 32 samples realising the Cover & Thomas Example 2.2.1 joint table.
+# 32 samples realising the joint table of Cover & Thomas, Elements of Information Theory,
+# 2nd ed., Example 2.2.1.
 CT_X = [1, 1, 1, 1, 2, 2, 3, 4, 1, 1, 2, 2, 2, 2, 3, 4, 1, 1, 2, 2, 3, 3, 4, 4,
         1, 1, 1, 1, 1, 1, 1, 1]
 CT_Y = [1] * 8 + [2] * 8 + [3] * 8 + [4] * 8
 
 
 def test_plugin_mi_cover_thomas():
-    # I(X;Y) = 3/8 bit = 0.25993019270997947 nat (CHECKS.md 8).
+    # Cover & Thomas, Example 2.2.1: I(X;Y) = 3/8 bit (value from memory, reproduced exactly);
+    # 0.25993019270997947 nat = (3/8) ln 2, computed with numpy for this test.
     assert plugin_mutual_info(np.array(CT_X), np.array(CT_Y)) == pytest.approx(
         0.25993019270997947, rel=1e-12)
     s, p = mutual_info(np.array(CT_X, float)[:, None], np.array(CT_Y))
@@ -287,14 +296,16 @@ def test_plugin_mi_cover_thomas():
 
 
 def test_plugin_mi_coins():
-    # Coins copied with probability 1/2: I = 0.18872187554 bit (CHECKS.md 8, COMPUTED).
+    # Second fair coin copies the first with probability 1/2: I = 0.18872187554 bit,
+    # computed from the definition of mutual information for this test.
     a = np.array([0, 0, 0, 1, 1, 1, 0, 1])
     b = np.array([0, 0, 0, 1, 1, 1, 1, 0])
     assert plugin_mutual_info(a, b) / math.log(2) == pytest.approx(0.18872187554, rel=1e-10)
 
 
 def test_xor_inputs_score_zero_with_every_univariate_scorer():
-    # XOR (CHECKS.md 8): each input alone carries no information about the class.
+    # XOR (exact, from the definition of mutual information): each input alone carries no
+    # information about the class.
     X = np.array([[0, 0], [0, 1], [1, 0], [1, 1]] * 3, float)
     z = (X[:, 0].astype(int) ^ X[:, 1].astype(int))
     assert mutual_info(X, z)[0].tolist() == [0.0, 0.0]

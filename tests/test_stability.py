@@ -1,8 +1,8 @@
 """Stability indices against the published formulas and hand-computed values.
 
 Reference values: Kuncheva (2007) consistency index and Nogueira, Sechidis & Brown
-(2018, JMLR 18(174)) estimator; exact rationals worked out in ../shared/CHECKS.md
-item 4 (COMPUTED from the published formulas).
+(2018, JMLR 18(174)) estimator; the hand values are computed from the published formulas
+with exact rational arithmetic for these tests.
 """
 
 from fractions import Fraction
@@ -18,9 +18,9 @@ from featuresift.stability import kuncheva_index, mean_kuncheva, nogueira_stabil
 
 
 def test_kuncheva_hand_values():
-    # CHECKS.md 4a: n=10, A={1,2,3}, B={1,2,4} -> 11/21
+    # Kuncheva (2007) formula, computed with exact rationals: n=10, A={1,2,3}, B={1,2,4} -> 11/21
     assert kuncheva_index({1, 2, 3}, {1, 2, 4}, 10) == pytest.approx(11 / 21, abs=1e-15)
-    # CHECKS.md 4a: disjoint k=5 of n=10 -> -1; disjoint k=3 -> -9/21
+    # Kuncheva (2007) formula: disjoint k=5 of n=10 -> -1; disjoint k=3 -> -9/21
     assert kuncheva_index({0, 1, 2, 3, 4}, {5, 6, 7, 8, 9}, 10) == pytest.approx(-1.0)
     assert kuncheva_index({0, 1, 2}, {3, 4, 5}, 10) == pytest.approx(-9 / 21)
     assert kuncheva_index({2, 5}, {5, 2}, 10) == 1.0
@@ -36,7 +36,8 @@ def test_kuncheva_undefined_cases_raise():
 
 
 def test_nogueira_hand_values():
-    # CHECKS.md 4b (exact rationals from the Nogueira et al. formula)
+    # Nogueira, Sechidis & Brown (2018) formula; values computed with exact rational
+    # arithmetic for this test.
     Z = [[0, 1], [0, 1], [0, 2]]
     assert nogueira_stability(Z, 5) == pytest.approx(4 / 9, abs=1e-12)
     assert mean_kuncheva(Z, 5) == pytest.approx(4 / 9, abs=1e-12)
@@ -54,8 +55,9 @@ def test_nogueira_hand_values():
     seed=st.integers(0, 10_000),
 )
 def test_nogueira_equals_mean_kuncheva_for_equal_sizes(d, k_frac, m, seed):
-    # Identity checked in CHECKS.md item 4b (COMPUTED with exact rationals): for equal
-    # subset sizes the Nogueira estimator equals the mean pairwise Kuncheva index.
+    # Identity computed from the published formulas of Kuncheva (2007) and Nogueira,
+    # Sechidis & Brown (2018) with exact rational arithmetic: for equal subset sizes the
+    # Nogueira estimator equals the mean pairwise Kuncheva index.
     k = min(d - 1, max(1, round(k_frac * d)))
     rng = np.random.default_rng(seed)
     subsets = [set(rng.choice(d, size=k, replace=False).tolist()) for _ in range(m)]
