@@ -9,9 +9,11 @@ How :class:`CrossValidationEvaluator` spends its time
 ------------------------------------------------------
 * **One dispatch per batch.** Every (subset, fold) fit a batch needs goes into one
   joblib call, grouped into a few tasks per worker (``chunk_size``) so that the
-  per-task overhead is paid a few times per batch rather than once per fit. The
-  estimator template, data and splits travel with each task (joblib memory-maps
-  large arrays); each fit clones the template inside the worker.
+  per-task overhead is paid a few times per batch rather than once per fit. A task
+  carries the estimator template, the splits, and only the columns its subsets use
+  (joblib memory-maps large arrays); each fit clones the template inside the worker.
+  After one clean batch, scikit-learn's parameter and finiteness checks are skipped
+  (the parameters do not change and the data were checked once).
 * **One BLAS thread per fit** (``inner_threads``), in workers and in-process alike:
   small fits are several times faster single-threaded, and two workers on two cores
   must not each start two BLAS threads.
@@ -38,6 +40,7 @@ from typing import Any
 
 import numpy as np
 from joblib import effective_n_jobs
+from sklearn import config_context
 from sklearn.base import clone
 from sklearn.dummy import DummyClassifier, DummyRegressor
 from sklearn.utils.parallel import Parallel, delayed
@@ -50,6 +53,10 @@ from featuresift.racing import BaseRace, make_race
 from featuresift.records import DROPPED, Evaluation, FoldTable
 
 __all__ = ["BaseEvaluator", "CrossValidationEvaluator", "CriterionEvaluator", "normalise_subset"]
+
+TASKS_PER_WORKER = 8
+"""Default chunking: about this many joblib tasks per worker and batch. Fewer tasks
+cost less dispatch; more tasks leave less idle time at the end of a batch."""
 
 ON_FIT_ERROR = ("raise", "record")
 """Failure policies: stop at the first failing fit, or record the fold as NaN."""
@@ -210,20 +217,32 @@ def _baseline_estimator(classification: bool):
     return DummyClassifier(strategy="prior") if classification else DummyRegressor()
 
 
-def _fit_chunk(template, X, y, splits, items, scorer, classification, on_error, inner_threads):
+def _fit_chunk(
+    template, X, columns, y, splits, items, scorer, classification, on_error, inner_threads,
+    checked,
+):
     """Fit and score a list of ``(columns, fold)`` items. Module-level so joblib can pickle it.
+
+    ``X`` holds only the problem's columns listed in ``columns`` (sorted), which are
+    all the chunk needs; None means all columns.
+
+    ``checked`` says the estimator's parameters were validated by an earlier fit and
+    the data are finite, so scikit-learn may skip both checks in every fit (they cost
+    about a tenth of a small fit and cannot change its result).
 
     Returns one ``(score, seconds, error_message_or_None)`` per item, in order.
     """
     out = []
     cols_seen: tuple[int, ...] | None = None
     Xs = X
-    with _limit_threads(inner_threads):
+    fast = config_context(skip_parameter_validation=True, assume_finite=True)
+    with _limit_threads(inner_threads), fast if checked else nullcontext():
         for cols, fold in items:
             t0 = time.perf_counter()
             if cols != cols_seen:
                 # The empty subset is scored by a prior-only baseline on a constant column.
-                Xs = np.zeros((X.shape[0], 1)) if not cols else X[:, list(cols)]
+                local = list(cols) if columns is None else np.searchsorted(columns, cols)
+                Xs = np.zeros((X.shape[0], 1)) if not cols else X[:, local]
                 cols_seen = cols
             train, test = splits[fold]
             est = _baseline_estimator(classification) if not cols else clone(template)
@@ -269,7 +288,7 @@ class CrossValidationEvaluator(BaseEvaluator):
         SQLite file recording every evaluation; a run started again with the same
         problem reuses what it holds (see :mod:`featuresift.journal`).
     chunk_size : int, optional
-        Fits per joblib task. None: about four tasks per worker and batch.
+        Fits per joblib task. None: about eight tasks per worker and batch.
     inner_threads : int or None, default=1
         BLAS threads per fit (threadpoolctl); None leaves the libraries alone.
     verbose : int, default=0
@@ -345,6 +364,12 @@ class CrossValidationEvaluator(BaseEvaluator):
         self._owns_journal = not isinstance(journal, Journal)
         self.journal = open_journal(journal)
         self._tables: dict[tuple[int, ...], FoldTable] = {}
+        # Parameter and finiteness checks run until one batch has fitted cleanly.
+        y = problem.y
+        self._finite = bool(np.isfinite(problem.X).all()) and (
+            y.dtype.kind not in "fc" or bool(np.isfinite(y).all())
+        )
+        self._checked = False
         self._from_journal: set[tuple[int, ...]] = set()
         if self.journal is not None:
             for key, table in self.journal.load(self.fingerprint).items():
@@ -360,7 +385,8 @@ class CrossValidationEvaluator(BaseEvaluator):
         --------
         >>> from sklearn.linear_model import LinearRegression
         >>> X = np.arange(20.0).reshape(10, 2)
-        >>> ev = CrossValidationEvaluator(SelectionProblem(X, 2 * X[:, 0], LinearRegression(), cv=2))
+        >>> p = SelectionProblem(X, 2 * X[:, 0], LinearRegression(), cv=2)
+        >>> ev = CrossValidationEvaluator(p)
         >>> _ = ev.evaluate([[0], [0, 1]]); ev.stats()["n_fits"]
         4
         """
@@ -460,8 +486,16 @@ class CrossValidationEvaluator(BaseEvaluator):
             size = self.chunk_size
         else:
             workers = max(1, effective_n_jobs(self.n_jobs))
-            size = max(1, math.ceil(len(work) / (4 * workers)))
+            size = max(1, math.ceil(len(work) / (TASKS_PER_WORKER * workers)))
         return [work[i:i + size] for i in range(0, len(work), size)]
+
+    def _columns(self, chunk: list) -> tuple[np.ndarray, np.ndarray | None]:
+        """The data a chunk needs: X restricted to the union of its subsets' columns."""
+        X = self.problem.X
+        used = np.unique(np.fromiter((c for cols, _ in chunk for c in cols), dtype=np.intp))
+        if used.size == X.shape[1]:
+            return X, None
+        return np.ascontiguousarray(X[:, used]), used
 
     def _dispatch(self, work: list[tuple[tuple[int, ...], int]]) -> list[tuple]:
         """Run the fits of ``work`` in one joblib call; results in ``work`` order."""
@@ -472,8 +506,8 @@ class CrossValidationEvaluator(BaseEvaluator):
         try:
             tasks = (
                 delayed(_fit_chunk)(
-                    p.estimator, p.X, p.y, p.splits, chunk, p.scorer, p.classification,
-                    self.on_fit_error, self.inner_threads,
+                    p.estimator, *self._columns(chunk), p.y, p.splits, chunk, p.scorer,
+                    p.classification, self.on_fit_error, self.inner_threads, self._checked,
                 )
                 for chunk in chunks
             )
@@ -482,4 +516,6 @@ class CrossValidationEvaluator(BaseEvaluator):
                 bar.update(len(part))
         finally:
             bar.close()
+        if self._finite and all(r[2] is None for r in results):
+            self._checked = True
         return results
