@@ -140,10 +140,16 @@ class BaseEvaluator(ABC):
         return ev is not None and ev.status != DROPPED
 
     def _remember(self, ev: Evaluation) -> Evaluation:
-        """Store ``ev`` (or keep an equal stored one); returns the stored object."""
+        """Store ``ev`` (or keep an equal stored one); returns the object to hand out.
+
+        A dropped evaluation never replaces a complete one (a race may drop a subset
+        whose every fold is known from earlier; the batch still reports it dropped).
+        """
         old = self._memo.get(ev.subset)
         if old is not None and old == ev and old.n_folds_run == ev.n_folds_run:
             return old
+        if old is not None and ev.status == DROPPED and old.status != DROPPED:
+            return ev
         self._memo[ev.subset] = ev
         self.history.append(ev)
         return ev

@@ -238,3 +238,20 @@ def test_progress_bar_modes(capsys):
     bar = make_progress(5, 2, "x")
     assert hasattr(bar, "n")
     bar.close()
+
+
+def test_race_decision_ignores_what_the_cache_knows(one_clear_winner):
+    # A subset known complete before the batch is still reported as the race decides,
+    # so a resumed or cached run returns exactly what a fresh run returns.
+    X, y = one_clear_winner
+    p = _problem(X, y, cv=5)
+    batch = [[f] for f in range(12)]
+    fresh = CrossValidationEvaluator(p, racing=True).evaluate(batch)
+    weakest = next(e.subset for e in fresh if e.status == DROPPED)
+    ev = CrossValidationEvaluator(p, racing=True)
+    (known,) = ev.evaluate([weakest])
+    assert known.status == COMPLETE
+    res = ev.evaluate(batch)
+    assert [(e.status, e.n_folds_run) for e in res] == \
+        [(e.status, e.n_folds_run) for e in fresh]
+    assert ev.lookup(weakest) is known
