@@ -255,3 +255,36 @@ def test_race_decision_ignores_what_the_cache_knows(one_clear_winner):
     assert [(e.status, e.n_folds_run) for e in res] == \
         [(e.status, e.n_folds_run) for e in fresh]
     assert ev.lookup(weakest) is known
+
+
+def test_user_backend_choice_gives_same_scores(cancer):
+    # The backend is the user's (joblib.parallel_config); the scores must not change.
+    from joblib import parallel_config
+
+    X, y = cancer
+    ref = CrossValidationEvaluator(_problem(X, y)).evaluate(BATCH)
+    with parallel_config(backend="threading", n_jobs=2):
+        got = CrossValidationEvaluator(_problem(X, y), chunk_size=2).evaluate(BATCH)
+    assert [e.fold_scores for e in got] == [e.fold_scores for e in ref]
+
+
+def test_fingerprint_has_no_memory_addresses(cancer):
+    from sklearn.preprocessing import FunctionTransformer
+
+    from featuresift.problem import _stable_repr
+
+    X, y = cancer
+
+    def shift(a):
+        return a + 1.0
+
+    def scale(a):
+        return a * 2.0
+
+    assert " at 0x" not in _stable_repr(shift) and _stable_repr(shift) != _stable_repr(scale)
+
+    def make(func):
+        est = make_pipeline(FunctionTransformer(func), LogisticRegression())
+        return SelectionProblem(X, y, est, cv=3).fingerprint()
+
+    assert make(shift) == make(shift) != make(scale)
