@@ -12,6 +12,10 @@ configuration reads the rows of its fingerprint and fits only what is missing; a
 changed configuration has a different fingerprint and never sees old scores.
 Evaluations stopped early by racing are stored with their partial folds and
 ``complete = 0``; they are never served as complete.
+
+An evaluator reads its problem's rows once, when it is created; rows written later by
+another process sharing the file are not seen by it (SQLite's locking keeps the file
+consistent, and a later run sees everything).
 """
 
 from __future__ import annotations
