@@ -17,9 +17,12 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import shutil
 import sys
 import traceback
 from collections.abc import Sequence
+from contextlib import contextmanager
+from pathlib import Path
 from typing import TextIO
 
 from featuresift import __version__
@@ -88,13 +91,45 @@ def _step_printer(stream: TextIO):
 
 
 # ------------------------------------------------------------------ subcommands
+@contextmanager
+def _clean_on_error(folder: Path):
+    """Remove ``folder`` if it did not exist before and the block fails on bad input.
+
+    An interrupted run (Ctrl-C) keeps its folder: the journal in it lets the same command
+    resume without refitting finished evaluations.
+    """
+    # The highest folder on the way to ``folder`` that does not exist yet.
+    created = None
+    for candidate in [folder, *folder.parents]:
+        if candidate.exists():
+            break
+        created = candidate
+    try:
+        yield
+    except (InputError, FitFailedError):
+        if created is not None and created.is_dir():
+            shutil.rmtree(created, ignore_errors=True)
+        raise
+
+
+def _engine_overrides(cfg, args: argparse.Namespace) -> None:
+    engine = cfg.extra["engine"]
+    if getattr(args, "no_journal", False):
+        engine["journal"] = None
+    if getattr(args, "racing", None):
+        engine["racing"] = args.racing
+    if getattr(args, "quiet", False):
+        engine["progress"] = False
+
+
 def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
-    """``featuresift run CONFIG``: search, print, write the three result files."""
+    """``featuresift run CONFIG``: search, print, write the result files."""
     overrides = {
         "output": args.output, "n_jobs": args.n_jobs, "budget": args.budget,
         "strategy": args.strategy, "seed": args.seed,
     }
     cfg = load_config(args.config, **overrides)
+    _engine_overrides(cfg, args)
     if args.dry_run or args.verbose:
         problem, _ = build_run(cfg)
         out.write(describe_plan(cfg, problem) + "\n")
@@ -105,13 +140,16 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
         out.write("\n")
     callback = _step_printer(sys.stderr) if args.verbose else None
     nested = None
-    if args.nested is not None:
-        # Validate and run the honest estimate first, so that nothing is written when
-        # it fails; it re-runs the whole search in each outer fold.
-        nested = nested_from_config(cfg, args.nested)
-    result = run_from_config(cfg, write=True, callback=callback)
-    write_report(cfg.output, result, nested=nested, source=str(cfg.path))
+    with _clean_on_error(cfg.output):
+        if args.nested is not None:
+            # Run the honest estimate first, so that nothing is written when it fails; it
+            # re-runs the whole search in each outer fold.
+            nested = nested_from_config(cfg, args.nested)
+        result = run_from_config(cfg, write=True, callback=callback)
+        write_report(cfg.output, result, nested=nested, source=str(cfg.path))
     files = "result.json, selected.csv, path.csv, report.md"
+    if cfg.extra["engine"]["journal"]:
+        files += f", {cfg.extra['engine']['journal']} (evaluation journal)"
     if nested is not None:
         (cfg.output / "nested.json").write_text(
             json.dumps(nested.to_dict(), indent=2) + "\n", encoding="utf-8")
@@ -141,13 +179,15 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
     overrides = {"output": args.output, "n_jobs": args.n_jobs, "seed": args.seed,
                  "strategy": args.strategy}
     cfg = load_config(args.config, **overrides)
+    _engine_overrides(cfg, args)
 
     def show(res) -> None:
         budget = "unlimited" if res.budget is None else f"{res.budget:g}"
         out.write(f"  budget {budget:>10}: {len(res.selected):>2} measurements, cost "
                   f"{res.cost:g}, {res.scoring} {res.score_mean:.4f}\n")
 
-    frontier = sweep_from_config(cfg, args.budgets, write=True, callback=show)
+    with _clean_on_error(cfg.output):
+        frontier = sweep_from_config(cfg, args.budgets, write=True, callback=show)
     frame = frontier.to_frame()[["budget", "n_selected", "cost", "score_mean", "score_sem",
                                  "efficient"]]
     out.write("\n" + frame.to_string(index=False, na_rep="unlimited",
@@ -254,6 +294,12 @@ def build_parser() -> argparse.ArgumentParser:
                        help="print the plan first and each search step as it happens")
     run.add_argument("--dry-run", action="store_true",
                      help="check config and data and print the plan; fit and write nothing")
+    run.add_argument("--no-journal", action="store_true",
+                     help="do not keep the evaluation journal (by default every evaluation "
+                          "is recorded in the output folder, so an interrupted run resumes)")
+    run.add_argument("--racing", choices=("f-race", "hoeffding"),
+                     help="evaluate folds in rounds and drop candidates statistically "
+                          "behind the leader (fewer fits; overrides engine.racing)")
     run.add_argument("--nested", type=int, metavar="K",
                      help="also estimate performance honestly: re-run the whole search in "
                           "each of K outer folds and score on data it never saw (K times "
@@ -279,6 +325,10 @@ def build_parser() -> argparse.ArgumentParser:
                        help="search strategy, overriding strategy.name")
     sweep.add_argument("--seed", type=int, metavar="S",
                        help="random seed of the strategy, overriding seed")
+    sweep.add_argument("--no-journal", action="store_true",
+                       help="do not keep the evaluation journal in the output folder")
+    sweep.add_argument("--racing", choices=("f-race", "hoeffding"),
+                       help="drop candidates statistically behind the leader (fewer fits)")
     sweep.add_argument("-q", "--quiet", action="store_true",
                        help="print nothing except errors (files are still written)")
     sweep.set_defaults(func=cmd_sweep)
@@ -349,7 +399,8 @@ def main(argv: Sequence[str] | None = None) -> int:
               "model.preprocessing and the data", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
-        print(f"{PROG}: interrupted", file=sys.stderr)
+        print(f"{PROG}: interrupted; finished evaluations are kept in the journal of the "
+              "output folder: run the same command again to resume", file=sys.stderr)
         return 130
     except Exception as exc:  # noqa: BLE001 - last line of defence of the CLI
         if args.debug:

@@ -1508,3 +1508,86 @@ def nested_from_config(cfg: RunConfig, outer_folds: int = 5):
         groups=problem.groups, feature_names=problem.feature_names, strategy=strategy,
         **opts,
     )
+
+
+# ------------------------------------------------------------------ evaluation engine
+_RACING_RULES = ("f-race", "hoeffding")
+
+
+def _parse_engine(value: Any, ctx: _Context) -> dict:
+    """The ``engine`` section: journal, racing, chunking, failure policy, progress.
+
+    .. code-block:: yaml
+
+        engine:
+          journal: true         # true: <output folder>/journal.sqlite; false: off; or a
+                                #   file name inside the output folder
+          racing: false         # false | f-race | hoeffding | {name: f-race, alpha: 0.1}
+          chunk_size: null      # model fits per parallel task (null: automatic)
+          on_fit_error: raise   # raise | record (a failed fold is recorded and counted)
+          progress: true        # a progress bar on an interactive terminal
+    """
+    d = ctx.mapping(value, "engine",
+                    ["journal", "racing", "chunk_size", "on_fit_error", "progress"])
+    journal = d.get("journal", True)
+    if journal is None or isinstance(journal, bool):
+        journal_name = "journal.sqlite" if journal else None
+    else:
+        name = ctx.string(journal, "engine.journal")
+        if Path(name).name != name or name in (".", ".."):
+            raise ctx.error(
+                f"'{name}' must be a plain file name: the journal is kept in the output folder",
+                "engine.journal",
+            )
+        journal_name = name
+    racing = d.get("racing", False)
+    if racing is True:
+        racing = "f-race"
+    if racing in (None, False):
+        racing = None
+    elif isinstance(racing, str):
+        if racing not in _RACING_RULES:
+            raise ctx.error(
+                f"unknown racing rule '{racing}'{_suggest(racing, _RACING_RULES)}; known: "
+                + ", ".join(_RACING_RULES), "engine.racing")
+    elif isinstance(racing, dict):
+        spec = ctx.mapping(racing, "engine.racing")
+        if spec.get("name") not in _RACING_RULES:
+            raise ctx.error(f"racing.name must be one of {', '.join(_RACING_RULES)}",
+                            "engine.racing.name")
+        racing = dict(spec)
+    else:
+        raise ctx.error(f"expected false, a rule name or a mapping, got {_show(racing)}",
+                        "engine.racing")
+    policy = d.get("on_fit_error", "raise")
+    if policy not in ("raise", "record"):
+        raise ctx.error(f"expected raise or record, got {_show(policy)}", "engine.on_fit_error")
+    progress = d.get("progress", True)
+    return {
+        "journal": journal_name,
+        "racing": racing,
+        "chunk_size": ctx.integer(d.get("chunk_size"), "engine.chunk_size", minimum=1,
+                                  optional=True),
+        "on_fit_error": policy,
+        "progress": ctx.boolean(progress, "engine.progress"),
+    }
+
+
+def _apply_engine(cfg: RunConfig, value: dict, problem: SelectionProblem, kwargs: dict) -> None:
+    if value["racing"] is not None:
+        from featuresift.racing import make_race
+
+        try:
+            make_race(value["racing"])
+        except InputError as exc:
+            raise InputError(exc.message, key="engine.racing",
+                             line=cfg.lines.get("engine.racing")) from None
+    kwargs["journal"] = None if value["journal"] is None else cfg.output / value["journal"]
+    kwargs["racing"] = value["racing"]
+    kwargs["chunk_size"] = value["chunk_size"]
+    kwargs["on_fit_error"] = value["on_fit_error"]
+    kwargs["verbose"] = 1 if value["progress"] else 0
+
+
+register_section("engine", Section(_parse_engine, _apply_engine))
+

@@ -28,6 +28,8 @@ from featuresift.search import run_search
 
 __all__ = ["Frontier", "budget_sweep", "default_budgets"]
 
+_ENGINE_OPTIONS = ("racing", "journal", "chunk_size", "verbose", "on_fit_error")
+
 
 def default_budgets(cost_model: CostModel, n: int = 8) -> list[float | None]:
     """Evenly spaced budgets from the cheapest single measurement to the full cost.
@@ -208,8 +210,9 @@ def budget_sweep(
     n_jobs : int, optional
         Parallel fits.
     evaluator : BaseEvaluator, optional
-        An evaluator to share (e.g. one with a journal); default a new
-        :class:`CrossValidationEvaluator`.
+        An evaluator to share; default a new :class:`CrossValidationEvaluator` built
+        with the engine options found in ``search_options`` (``racing``, ``journal``,
+        ``chunk_size``, ``verbose``, ``on_fit_error``).
     **search_options
         Passed to :func:`featuresift.run_search` (objective, limits, strategy options...).
 
@@ -229,7 +232,22 @@ def budget_sweep(
     budgets = list(budgets)
     if not budgets:
         raise InputError("a sweep needs at least one budget")
-    shared = evaluator or CrossValidationEvaluator(problem, n_jobs=n_jobs)
+    engine = {k: search_options.pop(k) for k in _ENGINE_OPTIONS if k in search_options}
+    if evaluator is None:
+        objective = search_options.get("objective")
+        if objective is not None:
+            # An objective with its own scorer (expected cost) must score the sweep too.
+            from featuresift.objectives import make_objective
+            from featuresift.search import _with_scorer
+
+            objective = make_objective(objective)
+            objective.prepare(problem.X, problem.y)
+            search_options["objective"] = objective
+            required = objective.required_scorer()
+            if required is not None and repr(problem.scorer) != repr(required):
+                problem = _with_scorer(problem, required)
+        evaluator = CrossValidationEvaluator(problem, n_jobs=n_jobs, **engine)
+    shared = evaluator
     n_folds = len(problem.splits)
     fits_before = shared.n_fits
     results = []

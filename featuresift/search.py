@@ -84,6 +84,7 @@ def run_search(
     journal: Any = None,
     chunk_size: int | None = None,
     verbose: int = 0,
+    on_fit_error: str = "raise",
     **strategy_options: Any,
 ) -> SearchResult:
     """Search feature subsets and return the chosen measurements.
@@ -116,9 +117,10 @@ def run_search(
         Parallel fits (when an evaluator is built here).
     callback : callable, optional
         ``callback(step)`` after each path step; returning True stops.
-    racing, journal, chunk_size, verbose : optional
+    racing, journal, chunk_size, verbose, on_fit_error : optional
         Passed to the :class:`CrossValidationEvaluator` built here (racing rule,
-        SQLite journal path for resumable runs, fits per parallel task, progress bar).
+        SQLite journal path for resumable runs, fits per parallel task, progress bar,
+        failure policy "raise" or "record"). Ignored when ``problem`` is an evaluator.
 
     Returns
     -------
@@ -143,10 +145,7 @@ def run_search(
         required = objective.required_scorer()
         if required is not None and repr(problem.scorer) != repr(required):
             problem = _with_scorer(problem, required)
-        evaluator: BaseEvaluator = CrossValidationEvaluator(
-            problem, n_jobs=n_jobs, racing=racing, journal=journal, chunk_size=chunk_size,
-            verbose=verbose,
-        )
+        evaluator: BaseEvaluator | None = None  # built below, after the input checks
         cost_model = problem.cost_model
         scoring = problem.scoring if isinstance(problem.scoring, str) else (
             "estimator score" if problem.scoring is None else getattr(
@@ -168,7 +167,25 @@ def run_search(
                 key="budget",
             )
     strat = make_strategy(strategy, **strategy_options)
+    owned = evaluator is None
+    if evaluator is None:
+        evaluator = CrossValidationEvaluator(
+            problem, n_jobs=n_jobs, racing=racing, journal=journal, chunk_size=chunk_size,
+            verbose=verbose, on_fit_error=on_fit_error,
+        )
     names = list(cost_model.feature_names)
+    try:
+        return _search(evaluator, strat, cost_model, names, budget, objective, max_features,
+                       max_evaluations, max_time, must_include, never_include,
+                       random_state, callback, pick, scoring, t0)
+    finally:
+        if owned:
+            evaluator.close()  # closes a journal this call opened
+
+
+def _search(evaluator, strat, cost_model, names, budget, objective, max_features,
+            max_evaluations, max_time, must_include, never_include, random_state, callback,
+            pick, scoring, t0) -> SearchResult:
     space = SearchSpace(
         evaluator,
         cost_model,

@@ -99,8 +99,10 @@ def test_run_end_to_end_writes_three_consistent_files(tmp_path, capsys):
     assert main(["run", str(path)]) == 0
     out = capsys.readouterr().out
     folder = tmp_path / "lab" / "results" / "case"
-    assert sorted(p.name for p in folder.iterdir()) == ["path.csv", "report.md",
-                                                        "result.json", "selected.csv"]
+    # journal.sqlite: the evaluation journal kept by default so that a run can resume.
+    assert sorted(p.name for p in folder.iterdir()) == ["journal.sqlite", "path.csv",
+                                                        "report.md", "result.json",
+                                                        "selected.csv"]
     result = json.loads((folder / "result.json").read_text())
     costs = yaml.safe_load(cases.BASE_YAML)["costs"]
     # Recompute the cost from the YAML price list with an independent CostModel.

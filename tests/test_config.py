@@ -471,7 +471,9 @@ def test_run_matches_plain_sklearn_cross_validation(tmp_path):
     path = write_case(tmp_path)
     result = run_from_config(path, write=True)
     out = tmp_path / "results" / "case"
-    assert sorted(p.name for p in out.iterdir()) == ["path.csv", "result.json", "selected.csv"]
+    # journal.sqlite: the evaluation journal, kept by default so that a run can resume.
+    assert sorted(p.name for p in out.iterdir()) == ["journal.sqlite", "path.csv",
+                                                     "result.json", "selected.csv"]
     assert 0 < result.cost <= 10.0 and len(result.selected) <= 3
     frame = small_frame()
     model = Pipeline([("i", SimpleImputer(strategy="median")), ("s", StandardScaler()),

@@ -19,8 +19,10 @@ from featuresift.racing import (
 )
 
 
-# Source: /work/shared/CHECKS.md item 6, "COMPUTED values of eps (natural log)"
-# (eps = sqrt(B^2 ln(2/delta) / (2n)), Hoeffding's inequality as used by Maron & Moore 1994).
+# Source: Hoeffding's inequality, P(|mean - mu| > eps) <= 2 exp(-2 n eps^2 / B^2), solved
+# for eps = sqrt(B^2 ln(2/delta) / (2n)) as in the Hoeffding races of Maron & Moore (1994)
+# (how the paper applies the bound is from memory); the tabulated eps values were computed
+# from that formula with natural logs for this test.
 @pytest.mark.parametrize(
     "B, delta, n, eps",
     [
@@ -35,7 +37,8 @@ def test_hoeffding_epsilon_matches_table(B, delta, n, eps):
 
 
 def test_hoeffding_points_needed_for_eps_005():
-    # Source: CHECKS.md item 6: eps = 0.05 with delta = 0.05, B = 1 needs n >= 737.8, so 738.
+    # Computed from Hoeffding's bound: eps = 0.05 with delta = 0.05, B = 1 needs
+    # n >= ln(40) / (2 * 0.05^2) = 737.8, so 738 points.
     assert hoeffding_epsilon(1, 0.05, 738) <= 0.05 < hoeffding_epsilon(1, 0.05, 737)
 
 
@@ -46,7 +49,7 @@ def test_hoeffding_epsilon_rejects_bad_input(bad):
 
 
 def test_friedman_pulse_data_check_value():
-    # Source: CHECKS.md item 3b, Sprent & Smeeton, Applied Nonparametric Statistical
+    # Source: Sprent & Smeeton, Applied Nonparametric Statistical
     # Methods, 3rd ed., section 6.3.2 (quoted in the scipy docs):
     # statistic = 10.57142857142857, p = 0.005063414171757498.
     before = [72, 96, 88, 92, 74, 76, 82]

@@ -1,0 +1,96 @@
+"""The `engine` section and CLI flags: journal by default, resume, racing, clean failure."""
+
+from __future__ import annotations
+
+import copy
+import json
+
+import pytest
+import yaml
+
+from featuresift.cli import main
+from featuresift.demo import GRAIN_CONFIG, GRAIN_TARGET, make_grain_lots
+
+pytestmark = pytest.mark.usefixtures("single_blas_thread")
+
+CANDIDATES = ["moisture_pct", "test_weight_kg_hl", "protein_nir_pct", "falling_number_s",
+              "fusarium_damaged_kernels", "colour_index"]
+
+
+def _write(tmp_path, **changes):
+    frame = make_grain_lots(n_lots=150, seed=5)
+    frame[[GRAIN_TARGET, *CANDIDATES]].to_csv(tmp_path / "lots.csv", index=False)
+    cfg = copy.deepcopy(GRAIN_CONFIG)
+    cfg["data"] = {"path": "lots.csv", "target": GRAIN_TARGET}
+    cfg["costs"] = {"unit": "EUR", "features": {c: 1.0 for c in CANDIDATES}}
+    cfg["budget"] = None
+    cfg["cv"] = {"folds": 3, "seed": 0}
+    cfg["strategy"] = {"name": "forward", "options": {"n_features": 3}}
+    cfg["output"] = {"folder": "out"}
+    cfg.update(changes)
+    path = tmp_path / "run.yaml"
+    path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
+    return path
+
+
+def test_second_run_resumes_from_the_journal_without_fitting(tmp_path):
+    path = _write(tmp_path)
+    assert main(["run", str(path), "-q"]) == 0
+    out = tmp_path / "out"
+    assert (out / "journal.sqlite").is_file()
+    first = json.loads((out / "result.json").read_text())
+    assert first["n_fits"] > 0
+    assert main(["run", str(path), "-q"]) == 0
+    second = json.loads((out / "result.json").read_text())
+    assert second["n_fits"] == 0  # every evaluation came from the journal
+    assert second["selected"] == first["selected"]
+    assert second["score"] == first["score"]
+    assert second["extras"]["engine"]["n_journal_hits"] == first["n_evaluations"]
+
+
+def test_no_journal_flag_and_changed_config_refit(tmp_path):
+    path = _write(tmp_path)
+    assert main(["run", str(path), "-q", "--no-journal"]) == 0
+    assert not (tmp_path / "out" / "journal.sqlite").exists()
+    assert main(["run", str(path), "-q"]) == 0
+    # A different seed of the CV folds changes the fingerprint: nothing stale is reused.
+    path = _write(tmp_path, cv={"folds": 3, "seed": 1})
+    assert main(["run", str(path), "-q"]) == 0
+    res = json.loads((tmp_path / "out" / "result.json").read_text())
+    assert res["n_fits"] == res["n_evaluations"] * 3
+
+
+def test_racing_flag_records_the_rule(tmp_path):
+    path = _write(tmp_path)
+    assert main(["run", str(path), "-q", "--racing", "f-race", "--no-journal"]) == 0
+    res = json.loads((tmp_path / "out" / "result.json").read_text())
+    assert res["extras"]["engine"]["racing"]["name"] == "f-race"
+    assert res["n_fits"] <= res["n_evaluations"] * 3
+
+
+@pytest.mark.parametrize(
+    ("engine", "key", "word"),
+    [
+        ({"jounral": True}, "engine.jounral", "journal"),
+        ({"journal": "../escape.sqlite"}, "engine.journal", "plain file name"),
+        ({"racing": "fast"}, "engine.racing", "f-race"),
+        ({"on_fit_error": "ignore"}, "engine.on_fit_error", "record"),
+        ({"chunk_size": 0}, "engine.chunk_size", ">= 1"),
+    ],
+)
+def test_bad_engine_settings_exit_2(tmp_path, capsys, engine, key, word):
+    path = _write(tmp_path, engine=engine)
+    assert main(["run", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert key in err and word in err and "line" in err and "Traceback" not in err
+    assert not (tmp_path / "out").exists()
+
+
+def test_fit_failure_leaves_no_output_folder(tmp_path, capsys):
+    path = _write(tmp_path, model={"estimator": "sklearn.linear_model.LogisticRegression",
+                                   "params": {"C": -1.0},
+                                   "preprocessing": ["impute_median", "scale"]})
+    assert main(["run", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert "could not be fitted" in err and "Traceback" not in err
+    assert not (tmp_path / "out").exists()  # not even the journal
