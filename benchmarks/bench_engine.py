@@ -2,7 +2,7 @@
 
 (SFS = ``sklearn.feature_selection.SequentialFeatureSelector``.)
 
-Run:  /work/venv/bin/python benchmarks/bench_engine.py [--repeats 3] [--quick]
+Run:  python benchmarks/bench_engine.py [--repeats 3] [--quick]
 
 Prints a Markdown section (machine, then one table per measurement) on standard output;
 ``benchmarks/run_all.py`` puts it into ``benchmarks/README.md``.

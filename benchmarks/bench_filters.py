@@ -1,6 +1,6 @@
 """Benchmarks of the filters: wide model-free selection, and pre-screen + floating search.
 
-Run:  /work/venv/bin/python benchmarks/bench_filters.py [--quick] [--strategy NAME]
+Run:  python benchmarks/bench_filters.py [--quick] [--strategy NAME]
 
 Part 1  Model-free budgeted greedy on 5,000 x 2,000 synthetic data (panel costs).
         Wall time is the median of repeats; speed is also given as a ratio to two

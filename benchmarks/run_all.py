@@ -2,9 +2,9 @@
 
 Usage::
 
-    /work/venv/bin/python benchmarks/run_all.py            # every bench_*.py
-    /work/venv/bin/python benchmarks/run_all.py engine     # only bench_engine.py
-    /work/venv/bin/python benchmarks/run_all.py --dry-run  # list what would run
+    python benchmarks/run_all.py            # every bench_*.py
+    python benchmarks/run_all.py engine     # only bench_engine.py
+    python benchmarks/run_all.py --dry-run  # list what would run
 
 Each ``bench_<name>.py`` is run, one after the other (never two at once: they would
 share the cores and distort each other's timings), with this interpreter. What it
