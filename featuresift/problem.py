@@ -89,7 +89,7 @@ class SelectionProblem:
     groups : array-like, optional
         Group labels for grouped splitters.
     feature_names : sequence of str, optional
-        Column names (taken from a DataFrame when not given).
+        Column names (taken from a DataFrame, else from ``cost_model``, when not given).
 
     Examples
     --------
@@ -114,6 +114,9 @@ class SelectionProblem:
     ) -> None:
         X_arr, df_names = _as_2d_float(X)
         names = list(feature_names) if feature_names is not None else df_names
+        if names is None and cost_model is not None:
+            # A plain array with a cost model: its columns are the cost model's features.
+            names = list(cost_model.feature_names)
         if names is None:
             names = [f"x{i}" for i in range(X_arr.shape[1])]
         if len(names) != X_arr.shape[1]:
