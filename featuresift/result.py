@@ -222,11 +222,14 @@ class SearchResult:
                      f"scoring: {self.scoring}")
         lines.append("")
         lines.append(f"Chosen measurements ({len(self.selected)}):")
-        width = max([len(c.item) for c in self.cost_breakdown] + [10])
-        for c in self.cost_breakdown:
-            what = c.item if c.kind == "feature" else f"{c.item} [panel: {', '.join(c.features)}]"
+        items = [
+            c.item if c.kind == "feature" else f"{c.item} [panel: {', '.join(c.features)}]"
+            for c in self.cost_breakdown
+        ]
+        width = max([len(w) for w in items] + [16])
+        for what, c in zip(items, self.cost_breakdown):
             lines.append(f"  {what:<{width}}  {c.cost:>10.2f} {u}")
-        lines.append(f"  {'TOTAL':<{width}}  {self.cost:>10.2f} {u} per sample")
+        lines.append(f"  {'TOTAL per sample':<{width}}  {self.cost:>10.2f} {u}")
         lines.append("")
         folds = ", ".join(f"{s:.4f}" for s in self.fold_scores)
         lines.append(f"CV {self.scoring}: {self.score_mean:.4f} ± {self.score_std:.4f} "
