@@ -1334,7 +1334,7 @@ def describe_plan(cfg: RunConfig, problem: SelectionProblem | None = None) -> st
     >>> with tempfile.TemporaryDirectory() as d:
     ...     plan = describe_plan(load_config(write_demo(d, n_lots=60)[1]))
     >>> print(plan.splitlines()[-3])
-    Search: forward {}, seed 0, n_jobs 1
+    Search: forward {'tol': 0.002}, seed 0, n_jobs 1
     """
     cm = cfg.cost_model
     unit = cm.unit

@@ -113,7 +113,7 @@ GRAIN_CONFIG: dict = {
     "cv": {"folds": 5, "repeats": 1, "stratified": True, "shuffle": True, "seed": 0},
     "scoring": "roc_auc",
     "objective": {"name": "score"},
-    "strategy": {"name": "forward", "options": {}},
+    "strategy": {"name": "forward", "options": {"tol": 0.002}},
     "seed": 0,
     "n_jobs": 1,
     "output": {"folder": "results/grain_lab"},

@@ -20,6 +20,9 @@ removal does not lower the objective by more than ``tol`` (default 0: "does not
 drop"), or — when ``n_features`` is given — until the target size is reached; it
 never removes the last feature (the empty subset is not evaluated).
 
+The answer of both is the subset where the search stopped (a candidate turned down by
+the tolerance rule is not chosen, even when its score is slightly higher).
+
 Tie-break at every step: higher objective, then higher mean score, then lower cost,
 then fewer features, then the feature that comes first in column order.
 
@@ -170,7 +173,9 @@ class ForwardSelection(SearchStrategy):
             space.record("add", current, f)
         else:
             space.stop_reason = f"target size {target} reached"
-        if target is not None and current:
+        if current:
+            # The answer is where the search stopped: a candidate that the tolerance
+            # rule turned down is not bought, even if its score is a little higher.
             space.choose(current)
 
 
