@@ -254,7 +254,15 @@ def cmd_demo(args: argparse.Namespace, out: TextIO) -> int:
 
 # --------------------------------------------------------------------- parser
 def build_parser() -> argparse.ArgumentParser:
-    """The argument parser (subcommands run, validate, demo)."""
+    """The argument parser (subcommands run, validate, demo).
+
+    Examples
+    --------
+    >>> parser = build_parser()
+    >>> args = parser.parse_args(["sweep", "lab.yaml", "--budgets", "2,5", "--n-jobs", "2"])
+    >>> args.command, args.config, args.budgets, args.n_jobs
+    ('sweep', 'lab.yaml', [2.0, 5.0], 2)
+    """
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument("--debug", action="store_true",
                         help="show the full traceback of an unexpected error")
@@ -382,6 +390,19 @@ def main(argv: Sequence[str] | None = None) -> int:
     ----------
     argv : sequence of str, optional
         Arguments without the program name (default: ``sys.argv[1:]``).
+
+    Examples
+    --------
+    >>> import contextlib, io, tempfile
+    >>> with tempfile.TemporaryDirectory() as d, contextlib.redirect_stdout(io.StringIO()) as out:
+    ...     codes = (main(["demo", "--folder", d, "--n-lots", "60"]),
+    ...              main(["validate", f"{d}/grain_lab.yaml"]))
+    >>> codes
+    (0, 0)
+    >>> out.getvalue().splitlines()[-1].split(": ")[-1]
+    '60 rows, 26 candidate features, 5 CV splits, budget 30 EUR per lot (invented for the demo)'
+    >>> main(["run", "no-such-config.yaml"])  # the error goes to stderr
+    2
     """
     parser = build_parser()
     try:

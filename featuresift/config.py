@@ -257,6 +257,17 @@ class RunConfig:
         Line of each YAML key path (``"costs.features.moisture_pct"``).
     extra : dict
         Parsed values of sections added with :func:`register_section`.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     cfg = load_config(write_demo(d, n_lots=60)[1], seed=3)
+    >>> cfg.path.name, cfg.data.target, cfg.classification, cfg.seed, cfg.overridden
+    ('grain_lab.yaml', 'meets_milling_grade', True, 3, {'seed': 3})
+    >>> len(cfg.frame), len(cfg.candidates), cfg.lines["budget"]
+    (60, 26, 39)
     """
 
     path: Path
@@ -750,6 +761,27 @@ class Section:
     apply : callable, optional
         ``apply(cfg, value, problem, kwargs)`` called by :func:`build_run` for sections
         stored in ``RunConfig.extra``; may change ``kwargs`` in place.
+
+    Examples
+    --------
+    A section that caps the number of evaluated subsets through its ``apply`` hook:
+
+    >>> import tempfile
+    >>> from featuresift.demo import write_demo
+    >>> def parse(value, ctx):
+    ...     return ctx.integer(value, "eval_cap", minimum=1, optional=True)
+    >>> def apply(cfg, value, problem, kwargs):
+    ...     if value is not None:
+    ...         kwargs["max_evaluations"] = value
+    >>> register_section("eval_cap", Section(parse, apply))
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     yml = write_demo(d, n_lots=60)[1]
+    ...     with open(yml, "a") as f:
+    ...         _ = f.write("eval_cap: 40\\n")
+    ...     kwargs = build_run(load_config(yml))[1]
+    >>> kwargs["max_evaluations"]
+    40
+    >>> del SECTIONS["eval_cap"]  # unregister again
     """
 
     parse: Callable[[Any, _Context], Any]
@@ -779,7 +811,24 @@ _CORE_FIELDS = frozenset(SECTIONS)
 
 
 def register_section(name: str, section: Section) -> None:
-    """Add a top-level section; its parsed value goes to ``RunConfig.extra[name]``."""
+    """Add a top-level section; its parsed value goes to ``RunConfig.extra[name]``.
+
+    Examples
+    --------
+    A section named ``reviewer`` whose text lands in ``RunConfig.extra``:
+
+    >>> import tempfile
+    >>> from featuresift.demo import write_demo
+    >>> register_section("reviewer", Section(lambda v, ctx: None if v is None else str(v)))
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     yml = write_demo(d, n_lots=60)[1]
+    ...     with open(yml, "a") as f:
+    ...         _ = f.write("reviewer: QA desk\\n")
+    ...     cfg = load_config(yml)
+    >>> cfg.extra["reviewer"]
+    'QA desk'
+    >>> del SECTIONS["reviewer"]  # unregister again
+    """
     if name in _CORE_FIELDS:
         raise ValueError(f"section '{name}' is built in")
     SECTIONS[name] = section
@@ -1441,6 +1490,19 @@ def sweep_from_config(
     Returns
     -------
     Frontier
+
+    Examples
+    --------
+    Two cheap budgets of the demo's forward search share one evaluator:
+
+    >>> import tempfile
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     fr = sweep_from_config(load_config(write_demo(d, n_lots=60)[1]), budgets=[0.5, 1.0])
+    >>> fr.budgets, [r.cost <= b for r, b in zip(fr.results, fr.budgets)]
+    ([0.5, 1.0], [True, True])
+    >>> fr.n_fits < fr.n_fits_without_cache
+    True
     """
     from featuresift.frontier import budget_sweep, default_budgets
     from featuresift.report import write_report
@@ -1487,6 +1549,20 @@ def nested_from_config(cfg: RunConfig, outer_folds: int = 5):
     Returns
     -------
     NestedEvaluation
+
+    Examples
+    --------
+    Running it repeats the whole search per outer fold (seconds even on the demo), so
+    only the argument check is shown here:
+
+    >>> import tempfile
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     cfg = load_config(write_demo(d, n_lots=60)[1])
+    >>> nested_from_config(cfg, outer_folds=1)
+    Traceback (most recent call last):
+    ...
+    featuresift.errors.InputError: --nested needs at least 2 outer folds, got 1
     """
     from featuresift.nested import nested_evaluation
 

@@ -38,6 +38,15 @@ class CostLine:
         The features of the subset paid for by this line.
     cost : float
         The price paid for this line.
+
+    Examples
+    --------
+    Buying ``c`` means paying for its whole panel:
+
+    >>> cm = CostModel(["a", "c", "d"], {"a": 1.0}, panels={"lab": (5.0, ["c", "d"])})
+    >>> line = cm.breakdown(["a", "c"])[1]
+    >>> line.item, line.kind, line.features, line.cost
+    ('lab', 'panel', ('c',), 5.0)
     """
 
     item: str

@@ -42,4 +42,20 @@ class InputError(ValueError):
 
 
 class FitFailedError(RuntimeError):
-    """A model fit failed while the failure policy was ``"raise"``."""
+    """A model fit failed while the failure policy was ``"raise"``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from sklearn.linear_model import LinearRegression
+    >>> from featuresift import SelectionProblem
+    >>> from featuresift.evaluator import CrossValidationEvaluator
+    >>> X = np.array([[1.0], [2.0], [np.nan], [4.0]])
+    >>> p = SelectionProblem(X, np.arange(4.0), LinearRegression(), cv=2)
+    >>> ev = CrossValidationEvaluator(p)
+    >>> try:
+    ...     ev.evaluate([[0]])
+    ... except FitFailedError as exc:
+    ...     print(str(exc).split(":")[0])
+    fit failed on subset [0], fold 0
+    """

@@ -93,6 +93,20 @@ class BaseEvaluator(ABC):
         Model fits performed (one per subset and fold for CV evaluators).
     n_cache_hits : int
         Requests answered without any fit.
+
+    Examples
+    --------
+    A subclass only scores subsets it has not seen; repeats are served from memory:
+
+    >>> from featuresift.records import Evaluation
+    >>> class SizeEvaluator(BaseEvaluator):
+    ...     def _evaluate_new(self, subsets):
+    ...         return [Evaluation(s, (float(len(s)),)) for s in subsets]
+    >>> ev = SizeEvaluator(n_features=3)
+    >>> [e.mean for e in ev.evaluate([[0, 1], [2], [1, 0]])]
+    [2.0, 1.0, 2.0]
+    >>> len(ev.history), ev.n_cache_hits
+    (2, 1)
     """
 
     def __init__(self, n_features: int, feature_names: Sequence[str] | None = None) -> None:

@@ -78,6 +78,21 @@ class Frontier:
         Model fits for the whole sweep (shared cache).
     n_fits_without_cache : int
         Fits the same searches would have needed with no sharing between budgets.
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_wine
+    >>> from sklearn.naive_bayes import GaussianNB
+    >>> X, y = load_wine(return_X_y=True)
+    >>> costs = CostModel.uniform(["alcohol", "malic", "ash", "alkalinity"], unit="EUR")
+    >>> problem = SelectionProblem(X[:, :4], y, GaussianNB(), cost_model=costs, cv=3)
+    >>> fr = budget_sweep(problem, [1, 2], "forward")
+    >>> fr.budgets, [r.selected for r in fr.results], fr.cost_unit
+    ([1, 2], [['alcohol'], ['alcohol', 'alkalinity']], 'EUR')
+    >>> fr.n_fits, fr.n_fits_without_cache  # the second search reuses the first one's fits
+    (21, 33)
+    >>> fr.to_frame()["cost"].tolist()
+    [1.0, 2.0]
     """
 
     budgets: list[float | None]

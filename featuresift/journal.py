@@ -170,7 +170,19 @@ class Journal:
 
 
 def open_journal(spec: str | os.PathLike | Journal | None) -> Journal | None:
-    """A :class:`Journal` from a path, an existing journal, or None (no journal)."""
+    """A :class:`Journal` from a path, an existing journal, or None (no journal).
+
+    Examples
+    --------
+    >>> import os, tempfile
+    >>> open_journal(None) is None
+    True
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     j = open_journal(os.path.join(d, "runs.sqlite"))
+    ...     print(type(j).__name__, open_journal(j) is j, j.count())
+    ...     j.close()
+    Journal True 0
+    """
     if spec is None or isinstance(spec, Journal):
         return spec
     if isinstance(spec, (str, os.PathLike)):

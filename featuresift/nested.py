@@ -54,6 +54,22 @@ class NestedEvaluation:
     cost_unit, scoring : str
     results : list of SearchResult
         Full search result of each outer fold.
+
+    Examples
+    --------
+    Each outer fold searches under a budget of 2 EUR on its own training part:
+
+    >>> from sklearn.datasets import load_wine
+    >>> from sklearn.naive_bayes import GaussianNB
+    >>> X, y = load_wine(return_X_y=True)
+    >>> prices = {"alcohol": 1, "malic": 1, "ash": 2}
+    >>> costs = CostModel(["alcohol", "malic", "ash"], prices, unit="EUR")
+    >>> ne = nested_evaluation(X[:, :3], y, GaussianNB(), cost_model=costs,
+    ...                        outer_cv=3, inner_cv=3, budget=2)
+    >>> ne.selected, ne.costs, ne.cost_unit
+    ([['alcohol', 'malic'], ['alcohol', 'malic'], ['alcohol', 'malic']], [2.0, 2.0, 2.0], 'EUR')
+    >>> [round(s, 3) for s in ne.outer_scores], round(ne.optimism, 3)
+    ([0.75, 0.78, 0.712], 0.019)
     """
 
     outer_scores: list[float]

@@ -44,7 +44,22 @@ __all__ = [
 
 
 class BaseObjective(ABC):
-    """Value of an evaluated subset; larger is better."""
+    """Value of an evaluated subset; larger is better.
+
+    Examples
+    --------
+    A custom objective only needs ``name`` and :meth:`value`:
+
+    >>> from featuresift.records import Evaluation
+    >>> class ScorePerCost(BaseObjective):
+    ...     name = "score-per-cost-doc-example"
+    ...     def value(self, evaluation, cost):
+    ...         return evaluation.mean / (1.0 + cost)
+    >>> ScorePerCost().value(Evaluation((0,), (0.8, 0.6)), cost=1.0)
+    0.35
+    >>> ScorePerCost().describe()
+    {'name': 'score-per-cost-doc-example'}
+    """
 
     name: ClassVar[str] = ""
 
@@ -225,7 +240,20 @@ OBJECTIVES: dict[str, type[BaseObjective]] = {
 
 
 def register_objective(cls: type[BaseObjective]) -> type[BaseObjective]:
-    """Class decorator adding an objective to :data:`OBJECTIVES` under ``cls.name``."""
+    """Class decorator adding an objective to :data:`OBJECTIVES` under ``cls.name``.
+
+    Examples
+    --------
+    >>> from featuresift.records import Evaluation
+    >>> @register_objective
+    ... class WorstFold(BaseObjective):
+    ...     name = "worst-fold-doc-example"
+    ...     def value(self, evaluation, cost):
+    ...         return min(evaluation.fold_scores)
+    >>> make_objective("worst-fold-doc-example").value(Evaluation((0,), (0.9, 0.7)), cost=0.0)
+    0.7
+    >>> del OBJECTIVES["worst-fold-doc-example"]  # unregister again
+    """
     if not cls.name:
         raise ValueError("an objective class needs a non-empty 'name'")
     OBJECTIVES[cls.name] = cls
@@ -233,7 +261,15 @@ def register_objective(cls: type[BaseObjective]) -> type[BaseObjective]:
 
 
 def make_objective(spec: str | dict | BaseObjective | None) -> BaseObjective:
-    """Build an objective from a name, a ``{"name": ..., **options}`` dict or an instance."""
+    """Build an objective from a name, a ``{"name": ..., **options}`` dict or an instance.
+
+    Examples
+    --------
+    >>> make_objective(None).describe()
+    {'name': 'score'}
+    >>> make_objective({"name": "penalized", "lambda": 0.05}).lam
+    0.05
+    """
     if spec is None:
         return ScoreObjective()
     if isinstance(spec, BaseObjective):

@@ -147,6 +147,21 @@ class BaseRace(ABC):
     ----------
     min_folds : int, default=2
         Folds every candidate is scored on before the first test.
+
+    Examples
+    --------
+    A rule that drops candidates more than 0.2 behind the leader's mean:
+
+    >>> class GapRace(BaseRace):
+    ...     name = "gap-doc-example"
+    ...     def _behind(self, scores, n_total_folds):
+    ...         means = scores.mean(axis=1)
+    ...         return means < means.max() - 0.2
+    >>> scores = np.array([[0.9, 0.8], [0.85, 0.9], [0.3, 0.4]])
+    >>> GapRace().keep(scores, n_total_folds=5).tolist()
+    [True, True, False]
+    >>> GapRace(min_folds=3).keep(scores, n_total_folds=5).tolist()  # too early to drop
+    [True, True, True]
     """
 
     name: ClassVar[str] = ""

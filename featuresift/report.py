@@ -167,7 +167,22 @@ def render_report(
 
 
 def write_report(folder: str | os.PathLike, result: SearchResult, **kwargs: Any) -> Path:
-    """Write ``report.md`` into ``folder`` (see :func:`render_report` for options)."""
+    """Write ``report.md`` into ``folder`` (see :func:`render_report` for options).
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from sklearn.datasets import load_iris
+    >>> from sklearn.naive_bayes import GaussianNB
+    >>> from featuresift import SelectionProblem, run_search
+    >>> X, y = load_iris(return_X_y=True)
+    >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), "forward", n_features=1)
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = write_report(d, res, title="Iris check")
+    ...     first_line = path.read_text().splitlines()[0]
+    >>> path.name, first_line
+    ('report.md', '# Iris check')
+    """
     out = Path(folder)
     out.mkdir(parents=True, exist_ok=True)
     path = out / "report.md"

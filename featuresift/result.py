@@ -24,6 +24,16 @@ class PathRow:
     step, action, feature, features, n_features, score_mean, score_std, cost, objective,
     n_evaluations
         See :class:`featuresift.strategies.base.PathStep`.
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> from sklearn.naive_bayes import GaussianNB
+    >>> from featuresift import SelectionProblem, run_search
+    >>> X, y = load_iris(return_X_y=True)
+    >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), "forward", n_features=2)
+    >>> [(row.action, row.feature, row.features) for row in res.path]
+    [('add', 'x3', ('x3',)), ('add', 'x2', ('x2', 'x3'))]
     """
 
     step: int
@@ -90,6 +100,21 @@ class SearchResult:
     optimistically biased as an estimate of performance on new data. Use
     nested cross-validation (re-running the whole search inside outer folds) for an
     honest estimate.
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> from sklearn.naive_bayes import GaussianNB
+    >>> from featuresift import SelectionProblem, run_search
+    >>> from featuresift.costs import CostModel
+    >>> X, y = load_iris(return_X_y=True)
+    >>> cm = CostModel(["sl", "sw", "pl", "pw"], {"sl": 1, "sw": 1, "pl": 2, "pw": 2})
+    >>> p = SelectionProblem(X, y, GaussianNB(), cost_model=cm, cv=3)
+    >>> res = run_search(p, "forward", budget=2)
+    >>> res.selected, res.cost, res.success
+    (['pw'], 2.0, True)
+    >>> round(res.score_mean, 3), len(res.fold_scores)
+    (0.96, 3)
     """
 
     selected: list[str]

@@ -72,7 +72,15 @@ def mean_kuncheva(subsets: Sequence[Iterable[int]], n_features: int) -> float:
 
 
 def selection_matrix(subsets: Sequence[Iterable[int]], n_features: int) -> np.ndarray:
-    """Binary matrix ``Z`` (runs × features) with ``Z[i, f] = 1`` if run i chose f."""
+    """Binary matrix ``Z`` (runs × features) with ``Z[i, f] = 1`` if run i chose f.
+
+    Examples
+    --------
+    >>> selection_matrix([[0, 2], [2], []], n_features=3)
+    array([[1., 0., 1.],
+           [0., 0., 1.],
+           [0., 0., 0.]])
+    """
     Z = np.zeros((len(subsets), int(n_features)), dtype=float)
     for i, s in enumerate(subsets):
         for f in s:

@@ -130,7 +130,23 @@ def _label(spec: StrategySpec) -> str:
 
 
 def check_budget(spec: StrategySpec) -> None:
-    """The chosen subset is non-empty and within budget, for cheap to unlimited budgets."""
+    """The chosen subset is non-empty and within budget, for cheap to unlimited budgets.
+
+    Examples
+    --------
+    A strategy that records every column at once never finds a subset within a tight budget:
+
+    >>> check_budget("forward")
+    >>> from featuresift.strategies.base import SearchStrategy
+    >>> class Everything(SearchStrategy):
+    ...     name = "everything-doc-example"
+    ...     def run(self, space):
+    ...         space.record("add", space.candidates)
+    >>> check_budget(Everything())  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    AssertionError: strategy 'everything-doc-example', budget 1.0: nothing selected (...)
+    """
     _, costs = contract_problem()
     for budget in (1.0, 3.0, 5.5, 9.0, None):
         result, _ = _run(spec, budget=budget, random_state=0)
@@ -143,7 +159,21 @@ def check_budget(spec: StrategySpec) -> None:
 
 
 def check_must_never(spec: StrategySpec) -> None:
-    """Every evaluated subset contains must_include and avoids never_include."""
+    """Every evaluated subset contains must_include and avoids never_include.
+
+    Examples
+    --------
+    >>> check_must_never("forward")
+    >>> from featuresift.strategies.base import SearchStrategy
+    >>> class FirstColumn(SearchStrategy):
+    ...     name = "first-column-doc-example"
+    ...     def run(self, space):
+    ...         space.record("add", [0])
+    >>> check_must_never(FirstColumn())
+    Traceback (most recent call last):
+    ...
+    AssertionError: strategy 'first-column-doc-example': must_include missing from the answer
+    """
     must, never = {1}, {0, 6}
     result, evaluator = _run(
         spec, budget=7.0, must_include=["f1"], never_include=["f0", "f6"], random_state=1
@@ -156,7 +186,21 @@ def check_must_never(spec: StrategySpec) -> None:
 
 
 def check_limits(spec: StrategySpec) -> None:
-    """max_features, max_evaluations and max_time are honoured."""
+    """max_features, max_evaluations and max_time are honoured.
+
+    Examples
+    --------
+    >>> check_limits("backward")
+    >>> from featuresift.strategies.base import SearchStrategy
+    >>> class Triple(SearchStrategy):
+    ...     name = "triple-doc-example"
+    ...     def run(self, space):
+    ...         space.record("add", [0, 1, 2])
+    >>> check_limits(Triple())
+    Traceback (most recent call last):
+    ...
+    AssertionError: strategy 'triple-doc-example': max_features=2 gave []
+    """
     where = f"strategy {_label(spec)!r}"
     result, _ = _run(spec, max_features=2, random_state=0)
     assert 0 < len(result.support) <= 2, f"{where}: max_features=2 gave {result.selected}"
@@ -169,7 +213,23 @@ def check_limits(spec: StrategySpec) -> None:
 
 
 def check_seeds(spec: StrategySpec) -> None:
-    """The same seed reproduces the answer, the path and the evaluation count."""
+    """The same seed reproduces the answer, the path and the evaluation count.
+
+    Examples
+    --------
+    >>> check_seeds({"name": "annealing", "options": {"n_steps": 10}})
+    >>> from featuresift.strategies.base import SearchStrategy
+    >>> class Drifting(SearchStrategy):
+    ...     name = "drifting-doc-example"
+    ...     n_runs = 0
+    ...     def run(self, space):
+    ...         Drifting.n_runs += 1
+    ...         space.record("add", [Drifting.n_runs])
+    >>> check_seeds(Drifting())
+    Traceback (most recent call last):
+    ...
+    AssertionError: strategy 'drifting-doc-example': same seed, answers ['f1'] vs ['f2']
+    """
     where = f"strategy {_label(spec)!r}"
     runs = [_run(spec, budget=6.0, random_state=7)[0] for _ in range(2)]
     a, b = runs
@@ -181,7 +241,21 @@ def check_seeds(spec: StrategySpec) -> None:
 
 
 def check_history(spec: StrategySpec) -> None:
-    """A path is recorded, its subsets were evaluated, and every evaluation was counted."""
+    """A path is recorded, its subsets were evaluated, and every evaluation was counted.
+
+    Examples
+    --------
+    >>> check_history("forward")
+    >>> from featuresift.strategies.base import SearchStrategy
+    >>> class Silent(SearchStrategy):
+    ...     name = "silent-doc-example"
+    ...     def run(self, space):
+    ...         space.choose(space.best_of(space.evaluate([[1]])).subset)
+    >>> check_history(Silent())
+    Traceback (most recent call last):
+    ...
+    AssertionError: strategy 'silent-doc-example': no path recorded
+    """
     where = f"strategy {_label(spec)!r}"
     result, evaluator = _run(spec, budget=6.0, random_state=0)
     assert result.path, f"{where}: no path recorded"

@@ -86,6 +86,15 @@ class FilterStep:
     marginal_cost : float
     total_cost : float
         Cost of the selection after this pick.
+
+    Examples
+    --------
+    >>> cm = CostModel(["a", "b"], {"a": 0.1, "b": 10.0})
+    >>> sel = budgeted_greedy(np.zeros((3, 2)), cost_model=cm, budget=10.0,
+    ...                       relevance=np.array([0.2, 10.0]))
+    >>> step = sel.steps[0]
+    >>> step.feature, step.column, step.relevance, step.marginal_cost, step.total_cost
+    ('b', 1, 10.0, 10.0, 10.0)
     """
 
     feature: str

@@ -66,6 +66,20 @@ class L1Path:
     costs : ndarray
         Cost used for each column.
     task : str
+
+    Examples
+    --------
+    The cheap column ``b`` enters first; the irrelevant ``c`` enters last and weakly:
+
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(200, 3))
+    >>> y = X[:, 0] + X[:, 1] + 0.1 * rng.normal(size=200)
+    >>> cm = CostModel(["a", "b", "c"], {"a": 3.0, "b": 1.0, "c": 1.0})
+    >>> path = cost_weighted_l1_path(X, y, cm)
+    >>> path.order, path.entry_step.tolist(), path.entry_strength.round(3).tolist()
+    ([1, 0, 2], [8, 1, 40], [0.373, 1.0, 0.004])
+    >>> path.task, path.coefs.shape
+    ('regression', (50, 3))
     """
 
     order: list[int]

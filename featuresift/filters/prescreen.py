@@ -101,6 +101,16 @@ class ScreenResult:
         under the rule), ``kept`` and ``reason``.
     rule : str
     scorer : str
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> X, y = load_iris(return_X_y=True)
+    >>> res = prescreen(X, y, keep=2, rule="top")
+    >>> res.kept.tolist(), res.kept_names, res.never_include(), res.rule, res.scorer
+    ([2, 3], ['x2', 'x3'], ['x0', 'x1'], 'top', 'anova_f')
+    >>> res.table[["feature", "rank", "kept"]].values.tolist()
+    [['x0', 3, False], ['x1', 4, False], ['x2', 1, True], ['x3', 2, True]]
     """
 
     kept: np.ndarray

@@ -71,6 +71,14 @@ def standardize_columns(X: np.ndarray) -> np.ndarray:
 
     With ``Z`` from this function, ``Z.T @ Z / n`` is the correlation matrix of
     complete data.
+
+    Examples
+    --------
+    The missing value becomes 0 and the constant middle column is all zeros:
+
+    >>> Z = standardize_columns(np.array([[1.0, 5.0, 2.0], [3.0, 5.0, np.nan], [5.0, 5.0, 4.0]]))
+    >>> Z.round(4).tolist()
+    [[-1.2247, 0.0, -1.2247], [0.0, 0.0, 0.0], [1.2247, 0.0, 1.2247]]
     """
     X = np.asarray(X, dtype=float)
     with np.errstate(invalid="ignore"):
@@ -109,6 +117,21 @@ class BasePenalty(ABC):
     ----------
     aggregate : {"max", "mean"}
         How similarities to the chosen columns combine.
+
+    Examples
+    --------
+    A penalty counting how often two columns share a sign:
+
+    >>> class SameSign(BasePenalty):
+    ...     name = "same-sign-doc-example"
+    ...     def prepare(self, X):
+    ...         self._S = np.sign(X)
+    ...         return self
+    ...     def similarity(self, j):
+    ...         return (self._S == self._S[:, [j]]).mean(axis=0)
+    >>> X = np.array([[1.0, -2.0, 3.0], [-1.0, -1.0, 2.0], [2.0, 1.0, 1.0], [1.0, 2.0, -1.0]])
+    >>> SameSign("max").prepare(X).similarity(0).tolist()
+    [1.0, 0.75, 0.5]
     """
 
     name: ClassVar[str] = ""

@@ -597,6 +597,12 @@ class RelevanceScorer:
         Tasks the scorer supports.
     defaults : dict
         Options passed before the user's (e.g. ``{"mode": "frequency"}``).
+
+    Examples
+    --------
+    >>> entry = RELEVANCE_SCORERS["chi2_frequency"]
+    >>> entry.name, entry.tasks, entry.defaults
+    ('chi2_frequency', ('classification',), {'mode': 'frequency'})
     """
 
     name: str
@@ -649,6 +655,16 @@ class Relevance:
     scorer : str
         Name of the scorer (``"callable:<name>"`` for a plain callable).
     task : str
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> X, y = load_iris(return_X_y=True)
+    >>> rel = relevance_scores(X, y, "anova_f")
+    >>> rel.scorer, rel.task, rel.scores.round(1).tolist()
+    ('anova_f', 'classification', [119.3, 49.2, 1180.2, 960.0])
+    >>> bool((rel.pvalues < 1e-10).all())
+    True
     """
 
     scores: np.ndarray

@@ -100,7 +100,21 @@ __all__ = [
 
 
 class StopSearch(Exception):
-    """Raised inside a search when a user limit (evaluations, time) is reached."""
+    """Raised inside a search when a user limit (evaluations, time) is reached.
+
+    Examples
+    --------
+    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.costs import CostModel
+    >>> ev = CriterionEvaluator(len, n_features=3)
+    >>> space = SearchSpace(ev, CostModel.uniform("abc"), max_evaluations=1)
+    >>> _ = space.evaluate([[0]])
+    >>> try:
+    ...     space.evaluate([[1]])
+    ... except StopSearch as stop:
+    ...     print("stopped:", stop)
+    stopped: evaluation limit of 1 reached
+    """
 
 
 @dataclass(frozen=True)
@@ -114,6 +128,16 @@ class Scored:
         Acquisition cost from the cost model.
     value : float
         Objective value (larger is better).
+
+    Examples
+    --------
+    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.costs import CostModel
+    >>> ev = CriterionEvaluator(lambda s: float(sum(s)), n_features=3)
+    >>> space = SearchSpace(ev, CostModel.uniform("abc"))
+    >>> sc = space.evaluate([[0, 2]])[0]
+    >>> sc.subset, sc.cost, sc.value
+    ((0, 2), 2.0, 2.0)
     """
 
     evaluation: Evaluation
@@ -167,6 +191,16 @@ class PathStep:
         Its evaluation, cost and objective value.
     n_evaluations : int
         Distinct subsets evaluated so far in this search.
+
+    Examples
+    --------
+    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.costs import CostModel
+    >>> cm = CostModel(["ph", "ash"], {"ph": 1.0, "ash": 3.0})
+    >>> space = SearchSpace(CriterionEvaluator(len, 2), cm)
+    >>> step = space.record("add", [0, 1], feature=1)
+    >>> step.action, step.feature, step.subset, step.scored.cost, step.n_evaluations
+    ('add', 'ash', (0, 1), 4.0, 1)
     """
 
     step: int
@@ -203,6 +237,19 @@ class SearchSpace:
     callback : callable, optional
         Called as ``callback(step)`` after each recorded :class:`PathStep`; returning
         True stops the search.
+
+    Examples
+    --------
+    Column ``c`` alone is over budget and ``a`` is excluded, so only ``b`` can start:
+
+    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.costs import CostModel
+    >>> cm = CostModel(["a", "b", "c"], {"a": 1.0, "b": 2.0, "c": 4.0})
+    >>> space = SearchSpace(CriterionEvaluator(len, 3), cm, budget=3.0, never_include=[0])
+    >>> space.addable([]), space.within_budget([1, 2])
+    ([1], False)
+    >>> [s.value for s in space.evaluate([[1], [1, 2]])]
+    [1.0, 2.0]
     """
 
     def __init__(
@@ -496,6 +543,17 @@ def make_strategy(spec: str | dict | SearchStrategy, **options: Any) -> SearchSt
     """Build a strategy from a registered name (plus options), a dict or an instance.
 
     Unknown names and unknown or invalid options raise :class:`InputError` naming them.
+
+    Examples
+    --------
+    >>> make_strategy("forward").name
+    'forward'
+    >>> make_strategy({"name": "annealing", "options": {"n_steps": 10}}).get_options()["n_steps"]
+    10
+    >>> make_strategy("sideways")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    featuresift.errors.InputError: strategy.name: unknown strategy 'sideways'; known: ...
     """
     if isinstance(spec, SearchStrategy):
         if options:
