@@ -35,6 +35,7 @@ from featuresift.config import (
     sweep_from_config,
 )
 from featuresift.errors import FitFailedError, InputError
+from featuresift.racing import RACES
 from featuresift.report import write_report
 from featuresift.strategies import STRATEGIES
 
@@ -305,7 +306,7 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--no-journal", action="store_true",
                      help="do not keep the evaluation journal (by default every evaluation "
                           "is recorded in the output folder, so an interrupted run resumes)")
-    run.add_argument("--racing", choices=("f-race", "hoeffding"),
+    run.add_argument("--racing", choices=sorted(RACES),
                      help="evaluate folds in rounds and drop candidates statistically "
                           "behind the leader (fewer fits; overrides engine.racing)")
     run.add_argument("--nested", type=int, metavar="K",
@@ -335,7 +336,7 @@ def build_parser() -> argparse.ArgumentParser:
                        help="random seed of the strategy, overriding seed")
     sweep.add_argument("--no-journal", action="store_true",
                        help="do not keep the evaluation journal in the output folder")
-    sweep.add_argument("--racing", choices=("f-race", "hoeffding"),
+    sweep.add_argument("--racing", choices=sorted(RACES),
                        help="drop candidates statistically behind the leader (fewer fits)")
     sweep.add_argument("-q", "--quiet", action="store_true",
                        help="print nothing except errors (files are still written)")

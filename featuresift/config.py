@@ -117,6 +117,7 @@ from featuresift.costs import CostModel
 from featuresift.errors import InputError
 from featuresift.objectives import make_objective
 from featuresift.problem import SelectionProblem
+from featuresift.racing import make_race
 from featuresift.result import SearchResult
 from featuresift.search import PICK_RULES, run_search
 from featuresift.strategies import STRATEGIES, make_strategy
@@ -1587,9 +1588,6 @@ def nested_from_config(cfg: RunConfig, outer_folds: int = 5):
 
 
 # ------------------------------------------------------------------ evaluation engine
-_RACING_RULES = ("f-race", "hoeffding")
-
-
 def _parse_engine(value: Any, ctx: _Context) -> dict:
     """The ``engine`` section: journal, racing, chunking, failure policy, progress.
 
@@ -1617,24 +1615,14 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
             )
         journal_name = name
     racing = d.get("racing", False)
-    if racing is True:
-        racing = "f-race"
-    if racing in (None, False):
-        racing = None
-    elif isinstance(racing, str):
-        if racing not in _RACING_RULES:
-            raise ctx.error(
-                f"unknown racing rule '{racing}'{_suggest(racing, _RACING_RULES)}; known: "
-                + ", ".join(_RACING_RULES), "engine.racing")
-    elif isinstance(racing, dict):
-        spec = ctx.mapping(racing, "engine.racing")
-        if spec.get("name") not in _RACING_RULES:
-            raise ctx.error(f"racing.name must be one of {', '.join(_RACING_RULES)}",
-                            "engine.racing.name")
-        racing = dict(spec)
-    else:
+    if racing is not None and not isinstance(racing, (bool, str, dict)):
         raise ctx.error(f"expected false, a rule name or a mapping, got {_show(racing)}",
                         "engine.racing")
+    try:
+        make_race(racing)  # the racing module names the rules and checks their options
+    except InputError as exc:
+        raise ctx.error(exc.message, "engine.racing") from None
+    racing = None if racing in (None, False) else racing
     policy = d.get("on_fit_error", "raise")
     if policy not in ("raise", "record"):
         raise ctx.error(f"expected raise or record, got {_show(policy)}", "engine.on_fit_error")
@@ -1650,14 +1638,6 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
 
 
 def _apply_engine(cfg: RunConfig, value: dict, problem: SelectionProblem, kwargs: dict) -> None:
-    if value["racing"] is not None:
-        from featuresift.racing import make_race
-
-        try:
-            make_race(value["racing"])
-        except InputError as exc:
-            raise InputError(exc.message, key="engine.racing",
-                             line=cfg.lines.get("engine.racing")) from None
     kwargs["journal"] = None if value["journal"] is None else cfg.output / value["journal"]
     kwargs["racing"] = value["racing"]
     kwargs["chunk_size"] = value["chunk_size"]

@@ -24,7 +24,7 @@ from featuresift.errors import InputError
 from featuresift.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult
-from featuresift.search import run_search
+from featuresift.search import prepare_for_objective, run_search
 
 __all__ = ["Frontier", "budget_sweep", "default_budgets"]
 
@@ -249,18 +249,9 @@ def budget_sweep(
         raise InputError("a sweep needs at least one budget")
     engine = {k: search_options.pop(k) for k in _ENGINE_OPTIONS if k in search_options}
     if evaluator is None:
-        objective = search_options.get("objective")
-        if objective is not None:
-            # An objective with its own scorer (expected cost) must score the sweep too.
-            from featuresift.objectives import make_objective
-            from featuresift.search import _with_scorer
-
-            objective = make_objective(objective)
-            objective.prepare(problem.X, problem.y)
-            search_options["objective"] = objective
-            required = objective.required_scorer()
-            if required is not None and repr(problem.scorer) != repr(required):
-                problem = _with_scorer(problem, required)
+        # An objective with its own scorer (expected cost) must score the sweep too.
+        problem, search_options["objective"] = prepare_for_objective(
+            problem, search_options.get("objective"))
         evaluator = CrossValidationEvaluator(problem, n_jobs=n_jobs, **engine)
     shared = evaluator
     n_folds = len(problem.splits)

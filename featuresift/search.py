@@ -20,7 +20,7 @@ from featuresift.strategies.base import (
     make_strategy,
 )
 
-__all__ = ["run_search", "PICK_RULES"]
+__all__ = ["run_search", "prepare_for_objective", "PICK_RULES"]
 
 PICK_RULES = ("best", "one_se")
 """Final pick rules: the best subset found, or the cheapest within one standard error of it."""
@@ -62,6 +62,31 @@ def _with_scorer(problem: SelectionProblem, scorer: Any) -> SelectionProblem:
         cv=problem.splits, scoring=scorer, groups=problem.groups,
         feature_names=problem.feature_names,
     )
+
+
+def prepare_for_objective(
+    problem: SelectionProblem, objective: str | dict | BaseObjective | None
+) -> tuple[SelectionProblem, BaseObjective]:
+    """Bind an objective to the problem's data, and use the objective's own scorer if any.
+
+    Returns the (possibly re-scored) problem and the prepared objective.
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> from sklearn.naive_bayes import GaussianNB
+    >>> X, y = load_iris(return_X_y=True)
+    >>> p = SelectionProblem(X, y, GaussianNB(), cv=3, scoring="accuracy")
+    >>> q, obj = prepare_for_objective(p, "score")
+    >>> q is p, obj.name
+    (True, 'score')
+    """
+    objective = make_objective(objective)
+    objective.prepare(problem.X, problem.y)
+    required = objective.required_scorer()
+    if required is not None and repr(problem.scorer) != repr(required):
+        problem = _with_scorer(problem, required)
+    return problem, objective
 
 
 def run_search(
@@ -141,10 +166,8 @@ def run_search(
     t0 = time.perf_counter()
     objective = make_objective(objective)
     if isinstance(problem, SelectionProblem):
-        objective.prepare(problem.X, problem.y)
+        problem, objective = prepare_for_objective(problem, objective)
         required = objective.required_scorer()
-        if required is not None and repr(problem.scorer) != repr(required):
-            problem = _with_scorer(problem, required)
         evaluator: BaseEvaluator | None = None  # built below, after the input checks
         cost_model = problem.cost_model
         scoring = problem.scoring if isinstance(problem.scoring, str) else (
