@@ -1596,7 +1596,7 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
         engine:
           journal: true         # true: <output folder>/journal.sqlite; false: off; or a
                                 #   file name inside the output folder
-          racing: false         # false | f-race | hoeffding | {name: f-race, alpha: 0.1}
+          racing: false         # false | f-race | hoeffding | t-race | {name: f-race, alpha: 0.1}
           chunk_size: null      # model fits per parallel task (null: automatic)
           on_fit_error: raise   # raise | record (a failed fold is recorded and counted)
           progress: true        # a progress bar on an interactive terminal

@@ -6,7 +6,7 @@ so far — the same folds for every candidate, so comparisons are paired (blocke
 and drops the candidates that are clearly worse than the leader. Survivors are scored
 on every fold; dropped candidates keep the fold scores they got.
 
-Two published rules are available:
+Three published rules are available:
 
 ``"f-race"`` (:class:`FRace`, the default)
     Birattari, Stützle, Paquete & Varrentrapp (2002), "A racing algorithm for
@@ -22,17 +22,29 @@ Two published rules are available:
     fold score lies, with probability at least ``1 - delta'``, within
     ``eps(n) = sqrt(B^2 ln(2/delta') / (2n))`` of its expectation, where ``B`` is
     the width of the score range; a candidate is dropped when its upper bound is
-    below the leader's lower bound. ``delta'`` is the overall ``delta`` divided by
-    (candidates x folds), Bonferroni style, so that all intervals hold at once
-    (our design choice; the paper's exact split is MEMORY). With few folds the
-    bound is wide: a 5-fold race with scores in [0, 1] drops only candidates
-    behind by more than about 1.5, i.e. never. It is useful with many folds
-    (repeated CV) or narrow score ranges.
+    below the leader's lower bound (plus ``indifference``, default 0). ``delta'``
+    is the overall ``delta`` divided by (candidates x folds), Bonferroni style, so
+    that all intervals hold at once (our design choice; the paper's exact split is
+    MEMORY). With few folds the bound is wide: a 5-fold race with scores in [0, 1]
+    drops only candidates behind by more than about 1.5, i.e. never. It is useful
+    with many folds (repeated CV) or narrow score ranges.
+``"t-race"`` (:class:`TRace`)
+    The paired t-test race of iterated racing (Birattari's 2004 thesis on tuning
+    metaheuristics; the "t-test" elimination of the irace package, López-Ibáñez et
+    al. 2016, Operations Research Perspectives 3 — MEMORY for the details). Each
+    candidate's fold-by-fold differences to the leader give a one-sided Student t
+    upper confidence bound of the mean difference; the candidate is dropped when
+    the bound is below ``indifference`` (default 0: significantly behind). Works on
+    the score's own scale, so ``indifference`` is in score units (0.005 accuracy is
+    half a percentage point).
 
-Guarantees common to both rules (see :meth:`BaseRace.keep`):
+Guarantees common to the three rules (see :meth:`BaseRace.keep`):
 
 * the leader — the best mean over the folds seen so far, ties to the earlier
-  candidate — is never dropped, and neither is any candidate whose mean equals it;
+  candidate — is never dropped;
+* with ``indifference`` 0 (always for F-race) no candidate whose mean equals the
+  leader's is dropped either; with ``indifference > 0`` such ties may be dropped,
+  which is the point of an indifference zone (see :class:`TRace`);
 * a candidate is judged only after ``min_folds`` folds;
 * the decision depends only on the fold scores, so it is the same whatever the
   order of fitting, the number of jobs or which scores came from a cache.
@@ -53,6 +65,7 @@ __all__ = [
     "BaseRace",
     "FRace",
     "HoeffdingRace",
+    "TRace",
     "RACES",
     "make_race",
     "hoeffding_epsilon",
@@ -88,6 +101,27 @@ def hoeffding_epsilon(score_range: float, delta: float, n: int) -> float:
     if n < 1:
         raise InputError(f"n must be >= 1, got {n!r}")
     return math.sqrt(score_range**2 * math.log(2.0 / delta) / (2.0 * n))
+
+
+def _means(scores: np.ndarray) -> np.ndarray:
+    """Mean fold score of each candidate (row); a NaN fold (failed fit) makes it ``-inf``."""
+    return np.where(np.isnan(scores), -np.inf, scores).mean(axis=1)
+
+
+def _check_level(value: Any, option: str) -> float:
+    """A probability option in (0, 1), as a float; InputError naming ``option`` otherwise."""
+    if isinstance(value, bool) or not (isinstance(value, (int, float)) and 0 < value < 1):
+        raise InputError(f"racing {option} must be in (0, 1), got {value!r}")
+    return float(value)
+
+
+def _check_indifference(value: Any) -> float:
+    """The indifference zone: a finite number >= 0 in the score's units."""
+    if isinstance(value, bool) or not (
+        isinstance(value, (int, float)) and math.isfinite(value) and value >= 0
+    ):
+        raise InputError(f"racing indifference must be a finite number >= 0, got {value!r}")
+    return float(value)
 
 
 def _block_ranks(scores: np.ndarray) -> np.ndarray:
@@ -140,8 +174,8 @@ class BaseRace(ABC):
     """A racing rule: which candidates to keep after some folds.
 
     Subclasses implement :meth:`_behind`, which marks candidates statistically behind
-    the leader; :meth:`keep` adds the guarantees (minimum folds, the leader and its
-    ties always kept).
+    the leader; :meth:`keep` adds the guarantees (minimum folds, the leader always
+    kept, and its ties too unless :meth:`_protects_ties` says otherwise).
 
     Parameters
     ----------
@@ -188,13 +222,23 @@ class BaseRace(ABC):
         if k < 2 or n < self.min_folds:
             return keep
         keep &= ~self._behind(scores, n_total_folds)
-        means = np.where(np.isnan(scores), -np.inf, scores).mean(axis=1)
-        keep |= means == means.max()
+        means = _means(scores)
+        keep[int(np.argmax(means))] = True  # the leader: first best mean
+        if self._protects_ties():
+            keep |= means == means.max()
         return keep
 
     @abstractmethod
     def _behind(self, scores: np.ndarray, n_total_folds: int) -> np.ndarray:
         """Mask of candidates statistically behind the leader."""
+
+    def _protects_ties(self) -> bool:
+        """Whether every candidate whose mean equals the leader's is kept (True here).
+
+        A rule with an indifference zone returns False when the zone is not empty: a
+        tie with the leader is then exactly what it may drop.
+        """
+        return True
 
     def describe(self) -> dict[str, Any]:
         """Plain-data description (name and options)."""
@@ -238,11 +282,9 @@ class FRace(BaseRace):
 
     def __init__(self, alpha: float = 0.05, min_folds: int = 2) -> None:
         super().__init__(min_folds)
-        if not (isinstance(alpha, (int, float)) and 0 < alpha < 1):
-            raise InputError(f"racing alpha must be in (0, 1), got {alpha!r}")
+        self.alpha = _check_level(alpha, "alpha")
         if min_folds < 2:
             raise InputError("f-race needs min_folds >= 2 (the Friedman test needs two folds)")
-        self.alpha = float(alpha)
 
     def _behind(self, scores: np.ndarray, n_total_folds: int) -> np.ndarray:
         k, n = scores.shape
@@ -266,7 +308,7 @@ class HoeffdingRace(BaseRace):
 
     With ``n`` folds seen and ``k`` candidates, every candidate gets the interval
     ``mean ± hoeffding_epsilon(B, delta / (k * n_total_folds), n)``; a candidate whose
-    upper bound is below the leader's lower bound is dropped.
+    upper bound is below the leader's lower bound plus ``indifference`` is dropped.
 
     Parameters
     ----------
@@ -278,29 +320,39 @@ class HoeffdingRace(BaseRace):
         unbounded losses — MEMORY); give it (1 for accuracy, AUC, F1) when known.
     min_folds : int, default=2
         Folds scored before the first test.
+    indifference : float, default=0.0
+        Indifference zone in score units (>= 0). 0: drop only candidates surely
+        behind. ``d > 0``: also drop candidates surely not better than the leader by
+        more than ``d``, ties included; the survivors' best is then only known to be
+        within ``d`` of the best candidate (see :class:`TRace`).
 
     Examples
     --------
     >>> import numpy as np
-    >>> scores = np.array([[0.9] * 50, [0.1] * 50])
+    >>> scores = np.array([[0.9] * 50, [0.1] * 50, [0.9] * 50])
     >>> HoeffdingRace(score_range=1.0).keep(scores, n_total_folds=50).tolist()
-    [True, False]
+    [True, False, True]
+    >>> HoeffdingRace(score_range=1.0, indifference=0.9).keep(scores, 50).tolist()
+    [True, False, False]
     """
 
     name = "hoeffding"
 
     def __init__(
-        self, delta: float = 0.05, score_range: float | None = None, min_folds: int = 2
+        self,
+        delta: float = 0.05,
+        score_range: float | None = None,
+        min_folds: int = 2,
+        indifference: float = 0.0,
     ) -> None:
         super().__init__(min_folds)
-        if not (isinstance(delta, (int, float)) and 0 < delta < 1):
-            raise InputError(f"racing delta must be in (0, 1), got {delta!r}")
+        self.delta = _check_level(delta, "delta")
         if score_range is not None and not (
             isinstance(score_range, (int, float)) and score_range > 0
         ):
             raise InputError(f"racing score_range must be > 0, got {score_range!r}")
-        self.delta = float(delta)
         self.score_range = None if score_range is None else float(score_range)
+        self.indifference = _check_indifference(indifference)
 
     def _behind(self, scores: np.ndarray, n_total_folds: int) -> np.ndarray:
         k, n = scores.shape
@@ -311,14 +363,155 @@ class HoeffdingRace(BaseRace):
         if not width > 0:
             return np.zeros(k, dtype=bool)
         eps = hoeffding_epsilon(width, self.delta / (k * max(n_total_folds, 1)), n)
-        means = np.where(np.isnan(scores), -np.inf, scores).mean(axis=1)
-        return means + eps < means.max() - eps
+        means = _means(scores)
+        return means + eps < means.max() - eps + self.indifference
+
+    def _protects_ties(self) -> bool:
+        return self.indifference == 0
 
     def describe(self) -> dict[str, Any]:
-        return {**super().describe(), "delta": self.delta, "score_range": self.score_range}
+        return {**super().describe(), "delta": self.delta, "score_range": self.score_range,
+                "indifference": self.indifference}
 
 
-RACES: dict[str, type[BaseRace]] = {FRace.name: FRace, HoeffdingRace.name: HoeffdingRace}
+class TRace(BaseRace):
+    """Paired t-test race: drop what is confidently not ``indifference`` better than the leader.
+
+    After each round the leader ``L`` is the candidate with the best mean fold score
+    (ties: the earlier one). For every other candidate ``c`` the paired differences
+    ``d_j = score_cj - score_Lj`` over the ``n`` folds seen give their mean ``m``,
+    sample standard deviation ``s`` (ddof=1) and the one-sided upper confidence bound
+
+    ``U = m + t_{1-alpha, n-1} * s / sqrt(n)``  (Student t quantile).
+
+    ``c`` is dropped when ``U < indifference``.
+
+    * ``indifference = 0`` (default): ``c`` is dropped only when it is significantly
+      behind the leader by a one-sided paired t-test at level ``alpha`` — the t-test
+      race of iterated racing (Birattari 2004, thesis on tuning metaheuristics; the
+      "t-test" elimination of irace, López-Ibáñez et al. 2016, Operations Research
+      Perspectives 3; MEMORY for their details, e.g. irace's optional Bonferroni or
+      Holm corrections, which are not applied here).
+    * ``indifference = delta > 0``: ``c`` is dropped when we are confident it is not
+      better than the leader by more than ``delta`` — indifference-zone selection
+      (Bechhofer 1954, Annals of Mathematical Statistics 25, "A single-sample
+      multiple decision procedure for ranking means of normal populations with
+      known variances"; the epsilon-best elimination of Even-Dar, Mannor & Mansour
+      2006, JMLR 7, "Action elimination and stopping conditions for the multi-armed
+      bandit and reinforcement learning problems"; MEMORY for their exact
+      statements). What it buys: candidates tied with the leader, or behind by less
+      than the noise can resolve, are dropped once the folds show they cannot be
+      ``delta`` better — so fewer fits. What it costs: a candidate may be dropped
+      even when it is tied with (or very slightly better than) the leader; the
+      subset finally chosen is only guaranteed (at level ``alpha`` per comparison,
+      per batch, under the t model) to be within ``delta`` of the best candidate
+      of the batch, not to be the best. Choose ``delta`` as the smallest score
+      difference worth paying fits to resolve, e.g. 0.005 accuracy = half a
+      percentage point.
+
+    Caveats of the t model: each look at the folds is a separate test at level
+    ``alpha``, not corrected for the number of candidates or for testing after
+    every fold; and cross-validation folds share training data, so the fold
+    differences are not independent and ``s`` understates the variance (Nadeau &
+    Bengio 2003, "Inference for the generalization error", Machine Learning 52 —
+    MEMORY). The level is therefore nominal; a smaller ``alpha`` is more cautious.
+
+    Special cases: when the differences have ``s = 0`` (for example identical fold
+    scores) ``U = m``, so an exact tie is kept at ``indifference = 0`` and dropped at
+    ``indifference > 0``. A failed fit (NaN fold) counts as the worst possible
+    score, as in the other rules (its mean there is ``-inf``): a candidate with a
+    failed fold gets ``U = -inf`` and is dropped when the leader's folds are finite.
+    If the leader itself has a failed fold (then every candidate has one), nothing
+    is dropped: there is no finite difference to test.
+
+    Parameters
+    ----------
+    alpha : float, default=0.05
+        Level of the one-sided test, in (0, 1).
+    indifference : float, default=0.0
+        Indifference zone ``delta`` in score units (>= 0).
+    min_folds : int, default=2
+        Folds scored before the first test (>= 2: ``s`` needs two differences).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> scores = np.array([[0.90, 0.92, 0.91, 0.93],    # the leader
+    ...                    [0.80, 0.83, 0.80, 0.82],    # consistently behind
+    ...                    [0.90, 0.92, 0.91, 0.93],    # an exact tie
+    ...                    [0.91, 0.90, 0.92, 0.91]])   # tied on average, noisy
+    >>> TRace().keep(scores, n_total_folds=5).tolist()
+    [True, False, True, True]
+    >>> TRace(indifference=0.005).keep(scores, n_total_folds=5).tolist()
+    [True, False, False, True]
+    >>> TRace(alpha=0.2, indifference=0.005).describe()["indifference"]
+    0.005
+    """
+
+    name = "t-race"
+
+    def __init__(
+        self, alpha: float = 0.05, indifference: float = 0.0, min_folds: int = 2
+    ) -> None:
+        super().__init__(min_folds)
+        self.alpha = _check_level(alpha, "alpha")
+        self.indifference = _check_indifference(indifference)
+        if min_folds < 2:
+            raise InputError("t-race needs min_folds >= 2 (the t-test needs two folds)")
+
+    def upper_bounds(self, scores: Any) -> np.ndarray:
+        """One-sided upper confidence bound ``U`` of each candidate's mean difference.
+
+        Parameters
+        ----------
+        scores : array-like of shape (n_candidates, n_folds), n_folds >= 2
+            Fold scores, NaN for a failed fit.
+
+        Returns
+        -------
+        ndarray of shape (n_candidates,)
+            ``U`` against the leader (0 for the leader itself; ``-inf`` for a
+            candidate with a failed fold; all NaN when the leader has a failed fold).
+
+        Examples
+        --------
+        >>> TRace(alpha=0.05).upper_bounds([[1.0, 2.0, 3.0], [0.0, 2.0, 2.0]]).round(4)
+        array([0.    , 0.3067])
+        """
+        scores = np.asarray(scores, dtype=float)
+        k, n = scores.shape
+        if n < 2:
+            raise InputError(f"t-race needs at least two folds, got {n}")
+        filled = np.where(np.isnan(scores), -np.inf, scores)
+        lead = int(np.argmax(_means(scores)))
+        out = np.full(k, np.nan)
+        if not np.isfinite(filled[lead]).all():
+            return out
+        diffs = filled - filled[lead]  # the leader's row is finite: no inf - inf
+        failed = np.isneginf(diffs).any(axis=1)
+        usable = np.isfinite(diffs).all(axis=1)
+        d = diffs[usable]
+        t = float(stats.t.ppf(1.0 - self.alpha, n - 1))
+        out[usable] = d.mean(axis=1) + t * d.std(axis=1, ddof=1) / math.sqrt(n)
+        out[failed] = -np.inf
+        out[lead] = 0.0
+        return out
+
+    def _behind(self, scores: np.ndarray, n_total_folds: int) -> np.ndarray:
+        behind = self.upper_bounds(scores) < self.indifference  # NaN compares False
+        behind[int(np.argmax(_means(scores)))] = False
+        return behind
+
+    def _protects_ties(self) -> bool:
+        return self.indifference == 0
+
+    def describe(self) -> dict[str, Any]:
+        return {**super().describe(), "alpha": self.alpha, "indifference": self.indifference}
+
+
+RACES: dict[str, type[BaseRace]] = {
+    FRace.name: FRace, HoeffdingRace.name: HoeffdingRace, TRace.name: TRace,
+}
 """Racing rules by name."""
 
 
@@ -331,6 +524,8 @@ def make_race(spec: Any) -> BaseRace | None:
     ('f-race', None)
     >>> make_race({"name": "hoeffding", "delta": 0.1}).delta
     0.1
+    >>> make_race({"name": "t-race", "alpha": 0.2, "indifference": 0.005}).describe()
+    {'name': 't-race', 'min_folds': 2, 'alpha': 0.2, 'indifference': 0.005}
     """
     if spec is None or spec is False:
         return None
