@@ -1600,9 +1600,10 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
           chunk_size: null      # model fits per parallel task (null: automatic)
           on_fit_error: raise   # raise | record (a failed fold is recorded and counted)
           progress: true        # a progress bar on an interactive terminal
+          share_preprocessing: true  # fit leading scalers/imputers once per fold
     """
-    d = ctx.mapping(value, "engine",
-                    ["journal", "racing", "chunk_size", "on_fit_error", "progress"])
+    d = ctx.mapping(value, "engine", ["journal", "racing", "chunk_size", "on_fit_error",
+                                      "progress", "share_preprocessing"])
     journal = d.get("journal", True)
     if journal is None or isinstance(journal, bool):
         journal_name = "journal.sqlite" if journal else None
@@ -1634,6 +1635,8 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
                                   optional=True),
         "on_fit_error": policy,
         "progress": ctx.boolean(progress, "engine.progress"),
+        "share_preprocessing": ctx.boolean(d.get("share_preprocessing", True),
+                                           "engine.share_preprocessing"),
     }
 
 
@@ -1643,6 +1646,7 @@ def _apply_engine(cfg: RunConfig, value: dict, problem: SelectionProblem, kwargs
     kwargs["chunk_size"] = value["chunk_size"]
     kwargs["on_fit_error"] = value["on_fit_error"]
     kwargs["verbose"] = 1 if value["progress"] else 0
+    kwargs["share_preprocessing"] = value["share_preprocessing"]
 
 
 register_section("engine", Section(_parse_engine, _apply_engine))

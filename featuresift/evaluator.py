@@ -46,6 +46,7 @@ from sklearn.dummy import DummyClassifier, DummyRegressor
 from sklearn.utils.parallel import Parallel, delayed
 
 from featuresift.errors import FitFailedError, InputError
+from featuresift.fitplan import make_fit_plan
 from featuresift.journal import Journal, open_journal
 from featuresift.problem import SelectionProblem
 from featuresift.progress import make_progress
@@ -237,14 +238,14 @@ def _baseline_estimator(classification: bool):
     return DummyClassifier(strategy="prior") if classification else DummyRegressor()
 
 
-def _fit_chunk(
-    template, X, columns, y, splits, items, scorer, classification, on_error, inner_threads,
-    checked,
-):
+def _fit_chunk(plan, X, columns, y, splits, items, on_error, inner_threads, checked):
     """Fit and score a list of ``(columns, fold)`` items. Module-level so joblib can pickle it.
 
     ``X`` holds only the problem's columns listed in ``columns`` (sorted), which are
-    all the chunk needs; None means all columns.
+    all the chunk needs; None means all columns. ``plan`` is the evaluator's
+    :class:`~featuresift.fitplan.FitPlan`: when it has a shared head, the items are
+    run fold by fold and the head is fitted once per fold on all of the chunk's
+    columns (its time is counted with the fold's first fit).
 
     ``checked`` says the estimator's parameters were validated by an earlier fit and
     the data are finite, so scikit-learn may skip both checks in every fit (they cost
@@ -252,32 +253,54 @@ def _fit_chunk(
 
     Returns one ``(score, seconds, error_message_or_None)`` per item, in order.
     """
-    out = []
+    out: list[tuple | None] = [None] * len(items)
+    share = plan.head is not None
+    order = sorted(range(len(items)), key=lambda i: items[i][1]) if share else range(len(items))
     cols_seen: tuple[int, ...] | None = None
     Xs = X
+    shared_fold, shared = -1, None
     fast = config_context(skip_parameter_validation=True, assume_finite=True)
     with _limit_threads(inner_threads), fast if checked else nullcontext():
-        for cols, fold in items:
+        for i in order:
+            cols, fold = items[i]
             t0 = time.perf_counter()
-            if cols != cols_seen:
-                # The empty subset is scored by a prior-only baseline on a constant column.
-                local = list(cols) if columns is None else np.searchsorted(columns, cols)
-                Xs = np.zeros((X.shape[0], 1)) if not cols else X[:, local]
-                cols_seen = cols
+            local = list(cols) if columns is None else np.searchsorted(columns, cols)
             train, test = splits[fold]
-            est = _baseline_estimator(classification) if not cols else clone(template)
+            if share and cols and fold != shared_fold:
+                shared_fold = fold
+                try:
+                    shared = plan.transform_fold(X, train, test)
+                except Exception:  # noqa: BLE001 - then each subset's own columns are used
+                    shared = None
             try:
-                est.fit(Xs[train], y[train])
-                score = float(scorer(est, Xs[test], y[test]))
+                if not cols:
+                    # The empty subset is scored by a prior-only baseline on a constant column.
+                    est = _baseline_estimator(plan.classification)
+                    Xs = np.zeros((X.shape[0], 1))
+                    cols_seen = cols
+                    Xtr, Xte = Xs[train], Xs[test]
+                elif share:
+                    # The same columns as from the chunk-wide transform, to the last bit.
+                    Xtr, Xte = ((shared[0][:, local], shared[1][:, local]) if shared is not None
+                                else plan.transform_fold(X[:, local], train, test))
+                    est = clone(plan.tail)
+                else:
+                    if cols != cols_seen:
+                        Xs = X[:, local]
+                        cols_seen = cols
+                    Xtr, Xte = Xs[train], Xs[test]
+                    est = clone(plan.tail)
+                est.fit(Xtr, y[train])
+                score = plan.score(est, Xte, y[test])
             except Exception as exc:  # noqa: BLE001 - the failure policy decides
                 message = f"{type(exc).__name__}: {exc}"
                 if on_error == "raise":
                     raise FitFailedError(
                         f"fit failed on subset {list(cols)}, fold {fold}: {message}"
                     ) from exc
-                out.append((math.nan, time.perf_counter() - t0, message))
+                out[i] = (math.nan, time.perf_counter() - t0, message)
                 continue
-            out.append((score, time.perf_counter() - t0, None))
+            out[i] = (score, time.perf_counter() - t0, None)
     return out
 
 
@@ -301,8 +324,9 @@ class CrossValidationEvaluator(BaseEvaluator):
         NaN, counts it in ``n_failed_fits`` and goes on. A subset whose folds all
         failed gets status ``"failed"``.
     racing : bool, str, dict or BaseRace, optional
-        Off by default. True or ``"f-race"``: F-race; ``"hoeffding"``: Hoeffding race;
-        a dict adds options (``{"name": "f-race", "alpha": 0.1}``). See
+        Off by default. True or ``"f-race"``: F-race; ``"t-race"``: paired t-test race
+        (optionally with an indifference zone); ``"hoeffding"``: Hoeffding race; a dict
+        adds options (``{"name": "t-race", "alpha": 0.2, "indifference": 0.005}``). See
         :mod:`featuresift.racing`. Dropped candidates get status ``"dropped"``.
     journal : str, path-like or Journal, optional
         SQLite file recording every evaluation; a run started again with the same
@@ -311,6 +335,10 @@ class CrossValidationEvaluator(BaseEvaluator):
         Fits per joblib task. None: about eight tasks per worker and batch.
     inner_threads : int or None, default=1
         BLAS threads per fit (threadpoolctl); None leaves the libraries alone.
+    share_preprocessing : bool, default=True
+        Fit the leading column-wise steps of a pipeline (scalers, per-column
+        imputation) once per fold for a whole group of fits instead of once per
+        subset; the scores are unchanged (see :mod:`featuresift.fitplan`).
     verbose : int, default=0
         0: silent; 1: a progress bar in interactive sessions; 2: always a bar.
 
@@ -348,6 +376,7 @@ class CrossValidationEvaluator(BaseEvaluator):
         journal: str | os.PathLike | Journal | None = None,
         chunk_size: int | None = None,
         inner_threads: int | None = 1,
+        share_preprocessing: bool = True,
         verbose: int = 0,
     ) -> None:
         super().__init__(problem.n_features, problem.feature_names)
@@ -375,6 +404,7 @@ class CrossValidationEvaluator(BaseEvaluator):
         self.race: BaseRace | None = make_race(racing)
         self.chunk_size = chunk_size
         self.inner_threads = inner_threads
+        self.plan = make_fit_plan(problem, share_preprocessing=bool(share_preprocessing))
         self.verbose = int(verbose)
         self.n_failed_fits = 0
         self.n_dropped = 0
@@ -417,6 +447,7 @@ class CrossValidationEvaluator(BaseEvaluator):
             "n_dropped": self.n_dropped,
             "n_journal_hits": self.n_journal_hits,
             "racing": None if self.race is None else self.race.describe(),
+            "shared_preprocessing_steps": self.plan.n_shared_steps,
             "journal": None if self.journal is None else str(self.journal.path),
         }
 
@@ -526,8 +557,8 @@ class CrossValidationEvaluator(BaseEvaluator):
         try:
             tasks = (
                 delayed(_fit_chunk)(
-                    p.estimator, *self._columns(chunk), p.y, p.splits, chunk, p.scorer,
-                    p.classification, self.on_fit_error, self.inner_threads, self._checked,
+                    self.plan, *self._columns(chunk), p.y, p.splits, chunk,
+                    self.on_fit_error, self.inner_threads, self._checked,
                 )
                 for chunk in chunks
             )

@@ -28,7 +28,8 @@ from featuresift.search import prepare_for_objective, run_search
 
 __all__ = ["Frontier", "budget_sweep", "default_budgets"]
 
-_ENGINE_OPTIONS = ("racing", "journal", "chunk_size", "verbose", "on_fit_error")
+_ENGINE_OPTIONS = ("racing", "journal", "chunk_size", "verbose", "on_fit_error",
+                   "share_preprocessing")
 
 
 def default_budgets(cost_model: CostModel, n: int = 8) -> list[float | None]:
@@ -227,7 +228,7 @@ def budget_sweep(
     evaluator : BaseEvaluator, optional
         An evaluator to share; default a new :class:`CrossValidationEvaluator` built
         with the engine options found in ``search_options`` (``racing``, ``journal``,
-        ``chunk_size``, ``verbose``, ``on_fit_error``).
+        ``chunk_size``, ``verbose``, ``on_fit_error``, ``share_preprocessing``).
     **search_options
         Passed to :func:`featuresift.run_search` (objective, limits, strategy options...).
 

@@ -110,6 +110,7 @@ def run_search(
     chunk_size: int | None = None,
     verbose: int = 0,
     on_fit_error: str = "raise",
+    share_preprocessing: bool = True,
     **strategy_options: Any,
 ) -> SearchResult:
     """Search feature subsets and return the chosen measurements.
@@ -142,10 +143,11 @@ def run_search(
         Parallel fits (when an evaluator is built here).
     callback : callable, optional
         ``callback(step)`` after each path step; returning True stops.
-    racing, journal, chunk_size, verbose, on_fit_error : optional
+    racing, journal, chunk_size, verbose, on_fit_error, share_preprocessing : optional
         Passed to the :class:`CrossValidationEvaluator` built here (racing rule,
         SQLite journal path for resumable runs, fits per parallel task, progress bar,
-        failure policy "raise" or "record"). Ignored when ``problem`` is an evaluator.
+        failure policy "raise" or "record", column-wise pipeline steps fitted once per
+        fold). Ignored when ``problem`` is an evaluator.
 
     Returns
     -------
@@ -194,7 +196,7 @@ def run_search(
     if evaluator is None:
         evaluator = CrossValidationEvaluator(
             problem, n_jobs=n_jobs, racing=racing, journal=journal, chunk_size=chunk_size,
-            verbose=verbose, on_fit_error=on_fit_error,
+            verbose=verbose, on_fit_error=on_fit_error, share_preprocessing=share_preprocessing,
         )
     names = list(cost_model.feature_names)
     try:
