@@ -20,13 +20,17 @@ change of machine load hits every configuration alike; times are medians:
      against SequentialFeatureSelector with n_jobs=1 and n_jobs=2 (scikit-learn's
      default BLAS threads), and with n_jobs=1 under ``threadpool_limits(1)``; the
      reference is the fastest of the three. The selected features must be identical.
-3.   The same with racing on (F-race, alpha 0.05 and 0.2): fits relative to exact mode,
-     time relative to the reference, and whether the chosen subset's CV score is within
-     one standard error (of the exact choice's fold scores) of the exact choice's.
+     Also featuresift with ``share_preprocessing=False`` (the whole pipeline fitted per
+     subset and fold), to show what sharing the scaler's fit buys.
+3.   The same with racing on (F-race and t-race at alpha 0.2; t-race also with an
+     indifference zone of 0.005): fits relative to exact mode, time relative to the
+     reference, and whether the chosen subset's CV score is within one standard error
+     (of the exact choice's fold scores) of the exact choice's.
 4.   Parallel efficiency of the exact run on the larger task: the sum of the single-fit
      times measured inside the workers, divided by (wall time x 2 workers).
-5.   Cache: forward twice on one evaluator, backward after forward, and a forward run
-     started again on a journal file.
+5.   Cache: forward twice on one evaluator, backward after forward, a forward run
+     started again on a journal file, floating forward search (which comes back to
+     subsets it has seen) and a budget sweep on one shared evaluator.
 """
 
 from __future__ import annotations
@@ -52,7 +56,8 @@ from sklearn.preprocessing import StandardScaler
 from sklearn.utils.parallel import Parallel, delayed
 from threadpoolctl import threadpool_info, threadpool_limits
 
-from featuresift import CrossValidationEvaluator, SelectionProblem, run_search
+from featuresift import CostModel, CrossValidationEvaluator, SelectionProblem, run_search
+from featuresift.frontier import budget_sweep
 
 N_SELECT = 10
 
@@ -105,12 +110,20 @@ def run_sklearn(X, y, n_jobs, one_thread):
     return time.perf_counter() - t0, tuple(int(i) for i in np.flatnonzero(sfs.get_support()))
 
 
-def run_featuresift(X, y, racing=None, n_jobs=2):
+def run_featuresift(X, y, racing=None, n_jobs=2, share=True):
     problem = SelectionProblem(X, y, _estimator(), cv=StratifiedKFold(5))
     t0 = time.perf_counter()
-    res = run_search(problem, "forward", n_features=N_SELECT, n_jobs=n_jobs, racing=racing)
+    res = run_search(problem, "forward", n_features=N_SELECT, n_jobs=n_jobs, racing=racing,
+                     share_preprocessing=share)
     wall = time.perf_counter() - t0
     return wall, res
+
+
+RACES = {
+    "F-race a=0.2": {"name": "f-race", "alpha": 0.2},
+    "t-race a=0.2": {"name": "t-race", "alpha": 0.2},
+    "t-race a=0.2, indifference 0.005": {"name": "t-race", "alpha": 0.2, "indifference": 0.005},
+}
 
 
 def _med(xs):
@@ -121,8 +134,8 @@ def bench_speed(task_data, repeats):
     """Tables 1-4."""
     sk_configs = {"SFS n_jobs=1": (1, False), "SFS n_jobs=2": (2, False),
                   "SFS n_jobs=1, 1 BLAS thread": (1, True)}
-    races = {"exact": None, "F-race a=0.05": {"name": "f-race", "alpha": 0.05},
-             "F-race a=0.2": {"name": "f-race", "alpha": 0.2}}
+    races = {"exact": None, "no sharing": None,
+             **RACES}
     out = {}
     for name, (X, y) in task_data.items():
         times = {k: [] for k in [*sk_configs, *races]}
@@ -133,7 +146,7 @@ def bench_speed(task_data, repeats):
                 times[k].append(t)
                 picks[k] = sel
             for k, spec in races.items():
-                t, res = run_featuresift(X, y, racing=spec)
+                t, res = run_featuresift(X, y, racing=spec, share=k != "no sharing")
                 times[k].append(t)
                 results[k] = res
         out[name] = (times, picks, results)
@@ -174,6 +187,19 @@ def cache_table(X, y):
     fresh = CrossValidationEvaluator(problem, n_jobs=2)
     r4 = run_search(fresh, "backward", n_features=N_SELECT, cost_model=cm)
     rows.append(("backward (fresh evaluator)", r4.n_fits, r4.n_cache_hits, r4.wall_time))
+    fl = run_search(CrossValidationEvaluator(problem, n_jobs=2), "floating-forward",
+                    n_features=N_SELECT, cost_model=cm)
+    rows.append((f"floating forward to {N_SELECT} (fresh evaluator; {fl.n_evaluations} "
+                 "distinct subsets)", fl.n_fits, fl.n_cache_hits, fl.wall_time))
+    # A sweep over budgets with invented prices 1-4 per measurement (cycled).
+    prices = CostModel(problem.feature_names,
+                       {n: 1 + i % 4 for i, n in enumerate(problem.feature_names)})
+    priced = SelectionProblem(X, y, _estimator(), cost_model=prices, cv=StratifiedKFold(5))
+    t0 = time.perf_counter()
+    fr = budget_sweep(priced, [5, 10, 15, 20], "forward", n_jobs=2, max_features=N_SELECT)
+    rows.append((f"budget sweep, 4 budgets (5-20, prices 1-4 per measurement), one shared "
+                 f"evaluator; without sharing: {fr.n_fits_without_cache} fits", fr.n_fits,
+                 sum(r.n_cache_hits for r in fr.results), time.perf_counter() - t0))
     with tempfile.TemporaryDirectory() as tmp:
         path = os.path.join(tmp, "journal.sqlite")
         first = CrossValidationEvaluator(problem, n_jobs=2, journal=path)
@@ -210,10 +236,13 @@ def main(argv=None) -> int:
     lines += [f"### 1-2. Forward selection of {N_SELECT}: featuresift (exact, n_jobs=2) vs "
               "SequentialFeatureSelector", "",
               f"Median wall time of {repeats} interleaved repeats. Reference = the fastest "
-              "SFS configuration. Target: ratio <= 0.5 and identical features.", "",
+              "SFS configuration. Target: ratio <= 0.5 and identical features. The last "
+              "two columns: featuresift with `share_preprocessing=False` (the whole "
+              "pipeline fitted for every subset and fold), and its ratio.", "",
               "| task | SFS n_jobs=1 | SFS n_jobs=2 | SFS n_jobs=1, 1 BLAS thread | "
-              "featuresift | ratio to reference | fits | same features |",
-              "|---|---|---|---|---|---|---|---|"]
+              "featuresift | ratio to reference | fits | same features | "
+              "featuresift, no sharing | ratio |",
+              "|---|---|---|---|---|---|---|---|---|---|"]
     for name, (times, picks, results) in speed.items():
         ref = min(_med(times[k]) for k in picks)
         exact = results["exact"]
@@ -222,7 +251,8 @@ def main(argv=None) -> int:
             f"| {name} | {_med(times['SFS n_jobs=1']):.2f} s | {_med(times['SFS n_jobs=2']):.2f} s"
             f" | {_med(times['SFS n_jobs=1, 1 BLAS thread']):.2f} s | "
             f"{_med(times['exact']):.2f} s | **{_med(times['exact']) / ref:.3f}** | "
-            f"{exact.n_fits} | {'yes' if same else 'NO: ' + str(exact.support)} |")
+            f"{exact.n_fits} | {'yes' if same else 'NO: ' + str(exact.support)} | "
+            f"{_med(times['no sharing']):.2f} s | {_med(times['no sharing']) / ref:.3f} |")
 
     lines += ["", "### 3. Racing (same tasks, n_jobs=2)", "",
               "Fits relative to exact mode (target <= 0.5), time relative to the SFS "
@@ -236,7 +266,7 @@ def main(argv=None) -> int:
         ref = min(_med(times[k]) for k in picks)
         exact = results["exact"]
         se = float(np.std(exact.fold_scores, ddof=1) / np.sqrt(len(exact.fold_scores)))
-        for rule in ("F-race a=0.05", "F-race a=0.2"):
+        for rule in RACES:
             r = results[rule]
             ok = r.score_mean >= exact.score_mean - se
             lines.append(

@@ -76,6 +76,7 @@ def test_racing_flag_records_the_rule(tmp_path):
         ({"racing": "fast"}, "engine.racing", "f-race"),
         ({"on_fit_error": "ignore"}, "engine.on_fit_error", "record"),
         ({"chunk_size": 0}, "engine.chunk_size", ">= 1"),
+        ({"share_preprocessing": "yes"}, "engine.share_preprocessing", "true or false"),
     ],
 )
 def test_bad_engine_settings_exit_2(tmp_path, capsys, engine, key, word):
@@ -84,6 +85,20 @@ def test_bad_engine_settings_exit_2(tmp_path, capsys, engine, key, word):
     err = capsys.readouterr().err
     assert key in err and word in err and "line" in err and "Traceback" not in err
     assert not (tmp_path / "out").exists()
+
+
+def test_shared_preprocessing_is_on_by_default_and_changes_no_choice(tmp_path):
+    # The demo pipeline starts with median imputation and scaling: both are column-wise.
+    path = _write(tmp_path, engine={"journal": False})
+    assert main(["run", str(path), "-q"]) == 0
+    shared = json.loads((tmp_path / "out" / "result.json").read_text())
+    assert shared["extras"]["engine"]["shared_preprocessing_steps"] == 2
+    path = _write(tmp_path, engine={"journal": False, "share_preprocessing": False})
+    assert main(["run", str(path), "-q"]) == 0
+    plain = json.loads((tmp_path / "out" / "result.json").read_text())
+    assert plain["extras"]["engine"]["shared_preprocessing_steps"] == 0
+    assert plain["selected"] == shared["selected"]
+    assert plain["score"]["folds"] == pytest.approx(shared["score"]["folds"], abs=1e-12)
 
 
 def test_fit_failure_leaves_no_output_folder(tmp_path, capsys):
