@@ -272,7 +272,9 @@ def make_fit_plan(problem: Any, share_preprocessing: bool = True,
             if not _columnwise(step, problem.X, problem.splits):
                 break
             n += 1
-        if n:
+        real = [s for _, s in estimator.steps[:n]
+                if s is not None and not (isinstance(s, str) and s == "passthrough")]
+        if real:  # a head of "passthrough" steps only would share nothing
             head = Pipeline(estimator.steps[:n])
             rest = estimator.steps[n:]
             tail = rest[0][1] if len(rest) == 1 else Pipeline(rest)

@@ -68,6 +68,14 @@ def test_only_leading_columnwise_steps_are_shared():
     plan = make_fit_plan(SelectionProblem(X, y, est, cv=3))
     assert plan.n_shared_steps == 1
     assert [n for n, _ in plan.tail.steps] == ["pca", "minmaxscaler", "logisticregression"]
+    # "passthrough" counts as column-wise but alone shares nothing.
+    from sklearn.pipeline import Pipeline
+
+    through = Pipeline([("skip", "passthrough"), ("scale", StandardScaler()),
+                        ("model", LogisticRegression())])
+    assert make_fit_plan(SelectionProblem(X, y, through, cv=3)).n_shared_steps == 2
+    only = Pipeline([("skip", "passthrough"), ("model", LogisticRegression())])
+    assert make_fit_plan(SelectionProblem(X, y, only, cv=3)).n_shared_steps == 0
 
 
 def test_no_sharing_with_a_custom_scoring_callable():
