@@ -37,8 +37,8 @@ from sklearn.model_selection import StratifiedKFold
 from sklearn.naive_bayes import GaussianNB
 
 from featuresift import CostModel, CrossValidationEvaluator, SelectionProblem, run_search
-from featuresift.evaluator import BaseEvaluator
-from featuresift.records import Evaluation
+from featuresift.engine.evaluator import BaseEvaluator
+from featuresift.engine.records import Evaluation
 
 PRICES = {  # invented, EUR per sample
     "alcohol": 3.0, "malic_acid": 5.0, "ash": 4.0, "alcalinity_of_ash": 2.0,

@@ -4,13 +4,13 @@ Budget-aware, panel-aware feature-subset search around a cross-validation evalua
 """
 
 from featuresift.costs import CostLine, CostModel
+from featuresift.engine.evaluator import BaseEvaluator, CriterionEvaluator, CrossValidationEvaluator
+from featuresift.engine.records import Evaluation
 from featuresift.errors import InputError
-from featuresift.evaluator import BaseEvaluator, CriterionEvaluator, CrossValidationEvaluator
 from featuresift.frontier import Frontier, budget_sweep, default_budgets
 from featuresift.nested import NestedEvaluation, nested_evaluation
 from featuresift.objectives import BaseObjective, make_objective, register_objective
 from featuresift.problem import SelectionProblem
-from featuresift.records import Evaluation
 from featuresift.result import SearchResult
 from featuresift.search import run_search
 from featuresift.selector import MeasurementSelector

@@ -34,8 +34,8 @@ from featuresift.config import (
     run_from_config,
     sweep_from_config,
 )
+from featuresift.engine.racing import RACES
 from featuresift.errors import FitFailedError, InputError
-from featuresift.racing import RACES
 from featuresift.report import write_report
 from featuresift.strategies import STRATEGIES
 

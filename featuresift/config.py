@@ -114,10 +114,10 @@ from sklearn.utils.multiclass import type_of_target
 
 import featuresift.filters  # noqa: F401 - registers the filter strategy and objective by name
 from featuresift.costs import CostModel
+from featuresift.engine.racing import make_race
 from featuresift.errors import InputError
 from featuresift.objectives import make_objective
 from featuresift.problem import SelectionProblem
-from featuresift.racing import make_race
 from featuresift.result import SearchResult
 from featuresift.search import PICK_RULES, run_search
 from featuresift.strategies import STRATEGIES, make_strategy

@@ -49,7 +49,7 @@ class FitFailedError(RuntimeError):
     >>> import numpy as np
     >>> from sklearn.linear_model import LinearRegression
     >>> from featuresift import SelectionProblem
-    >>> from featuresift.evaluator import CrossValidationEvaluator
+    >>> from featuresift.engine.evaluator import CrossValidationEvaluator
     >>> X = np.array([[1.0], [2.0], [np.nan], [4.0]])
     >>> p = SelectionProblem(X, np.arange(4.0), LinearRegression(), cv=2)
     >>> ev = CrossValidationEvaluator(p)

@@ -20,8 +20,8 @@ from typing import Any
 import numpy as np
 
 from featuresift.costs import CostModel
+from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.errors import InputError
-from featuresift.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult
 from featuresift.search import prepare_for_objective, run_search

@@ -29,8 +29,8 @@ from typing import Any, ClassVar
 import numpy as np
 from sklearn.metrics import make_scorer
 
+from featuresift.engine.records import Evaluation
 from featuresift.errors import InputError
-from featuresift.records import Evaluation
 
 __all__ = [
     "BaseObjective",
@@ -50,7 +50,7 @@ class BaseObjective(ABC):
     --------
     A custom objective only needs ``name`` and :meth:`value`:
 
-    >>> from featuresift.records import Evaluation
+    >>> from featuresift.engine.records import Evaluation
     >>> class ScorePerCost(BaseObjective):
     ...     name = "score-per-cost-doc-example"
     ...     def value(self, evaluation, cost):
@@ -244,7 +244,7 @@ def register_objective(cls: type[BaseObjective]) -> type[BaseObjective]:
 
     Examples
     --------
-    >>> from featuresift.records import Evaluation
+    >>> from featuresift.engine.records import Evaluation
     >>> @register_objective
     ... class WorstFold(BaseObjective):
     ...     name = "worst-fold-doc-example"

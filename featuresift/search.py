@@ -7,8 +7,8 @@ from collections.abc import Callable, Iterable
 from typing import Any
 
 from featuresift.costs import CostModel
+from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.errors import InputError
-from featuresift.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.objectives import BaseObjective, make_objective
 from featuresift.problem import SelectionProblem
 from featuresift.result import PathRow, SearchResult

@@ -1,7 +1,7 @@
 """A contract every search strategy must pass, runnable on your own strategies.
 
 The checks run a strategy through :func:`featuresift.run_search` on a model-free,
-tabulated criterion (:class:`~featuresift.evaluator.CriterionEvaluator`), so no model
+tabulated criterion (:class:`~featuresift.engine.evaluator.CriterionEvaluator`), so no model
 is fitted and a whole contract run takes well under a second for the built-in
 strategies. Each check raises :class:`AssertionError` with a message naming the
 strategy, the check and what went wrong.
@@ -45,7 +45,7 @@ from typing import Any
 import numpy as np
 
 from featuresift.costs import CostModel
-from featuresift.evaluator import CriterionEvaluator
+from featuresift.engine.evaluator import CriterionEvaluator
 from featuresift.result import SearchResult
 from featuresift.search import run_search
 from featuresift.strategies.base import SearchStrategy, make_strategy

@@ -14,9 +14,9 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import StandardScaler
 
 from featuresift import CrossValidationEvaluator, SelectionProblem, run_search
+from featuresift.engine.progress import make_progress
+from featuresift.engine.records import COMPLETE, DROPPED, FAILED
 from featuresift.errors import FitFailedError, InputError
-from featuresift.progress import make_progress
-from featuresift.records import COMPLETE, DROPPED, FAILED
 
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
 

@@ -26,7 +26,7 @@ from sklearn.preprocessing import (
 )
 
 from featuresift import CrossValidationEvaluator, SelectionProblem
-from featuresift.fitplan import _DIRECT, make_fit_plan
+from featuresift.engine.fitplan import _DIRECT, make_fit_plan
 
 SUBSETS = [(0,), (3,), (0, 1), (2, 5, 7), (1, 4, 6, 8, 11), tuple(range(13))]
 

@@ -16,9 +16,9 @@ from sklearn.linear_model import LogisticRegression
 from sklearn.model_selection import KFold, StratifiedKFold
 
 from featuresift import CrossValidationEvaluator, SelectionProblem
+from featuresift.engine.journal import Journal, open_journal
+from featuresift.engine.records import DROPPED, FoldTable
 from featuresift.errors import InputError
-from featuresift.journal import Journal, open_journal
-from featuresift.records import DROPPED, FoldTable
 
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
 

@@ -10,6 +10,7 @@ from sklearn.model_selection import StratifiedKFold, cross_val_predict
 from sklearn.tree import DecisionTreeClassifier
 
 from featuresift import CostModel, CriterionEvaluator, InputError, SelectionProblem, run_search
+from featuresift.engine.records import Evaluation
 from featuresift.objectives import (
     OBJECTIVES,
     ExpectedCostObjective,
@@ -17,7 +18,6 @@ from featuresift.objectives import (
     ScoreObjective,
     make_objective,
 )
-from featuresift.records import Evaluation
 from featuresift.strategies import SearchSpace
 
 

@@ -16,8 +16,7 @@ from sklearn.linear_model import LogisticRegression
 from featuresift import CrossValidationEvaluator, SelectionProblem
 from featuresift.config import load_config
 from featuresift.demo import GRAIN_CONFIG, make_grain_lots
-from featuresift.errors import InputError
-from featuresift.racing import (
+from featuresift.engine.racing import (
     RACES,
     FRace,
     HoeffdingRace,
@@ -26,7 +25,8 @@ from featuresift.racing import (
     hoeffding_epsilon,
     make_race,
 )
-from featuresift.records import COMPLETE, DROPPED
+from featuresift.engine.records import COMPLETE, DROPPED
+from featuresift.errors import InputError
 
 
 # Source: Hoeffding's inequality, P(|mean - mu| > eps) <= 2 exp(-2 n eps^2 / B^2), solved

@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 from sklearn.metrics import mutual_info_score
 
+from featuresift.engine.records import Evaluation
 from featuresift.errors import InputError
 from featuresift.filters import (
     AbsCorrelationPenalty,
@@ -15,7 +16,6 @@ from featuresift.filters import (
     mrmr,
 )
 from featuresift.objectives import OBJECTIVES, make_objective
-from featuresift.records import Evaluation
 
 # Fixture where the MID and MIQ criteria of Peng, Long & Ding (2005) choose different second
 # features (plug-in MI in nats; values computed from the published formulas for this test and

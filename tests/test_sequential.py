@@ -16,7 +16,7 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import StandardScaler
 
 from featuresift.costs import CostModel
-from featuresift.evaluator import CriterionEvaluator
+from featuresift.engine.evaluator import CriterionEvaluator
 from featuresift.problem import SelectionProblem
 from featuresift.search import run_search
 

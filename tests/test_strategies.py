@@ -21,8 +21,8 @@ from featuresift import (
     SelectionProblem,
     run_search,
 )
-from featuresift.evaluator import BaseEvaluator
-from featuresift.records import Evaluation
+from featuresift.engine.evaluator import BaseEvaluator
+from featuresift.engine.records import Evaluation
 from featuresift.strategies import STRATEGIES, SearchSpace, SimulatedAnnealing
 from featuresift.strategies.annealing import neighbours
 from featuresift.strategies.exhaustive import allowed_subsets

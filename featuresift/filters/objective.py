@@ -25,10 +25,10 @@ from typing import Any
 
 import numpy as np
 
+from featuresift.engine.records import Evaluation
 from featuresift.errors import InputError
 from featuresift.filters.redundancy import abs_correlation_matrix
 from featuresift.objectives import BaseObjective, register_objective
-from featuresift.records import Evaluation
 
 __all__ = ["RedundancyPenalizedObjective"]
 

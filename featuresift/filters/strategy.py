@@ -31,7 +31,7 @@ class FilterOrderSearch(SearchStrategy):
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 2}) - 0.01 * len(s), 4)
     >>> space = SearchSpace(ev, CostModel.uniform(["a", "b", "c", "d"]))

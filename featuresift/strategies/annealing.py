@@ -67,7 +67,7 @@ def neighbours(
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> space = SearchSpace(CriterionEvaluator(len, 4), CostModel.uniform("abcd"), budget=2)
     >>> moves = neighbours(space, (0, 1), 3)
@@ -138,7 +138,7 @@ class SimulatedAnnealing(SearchStrategy):
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 4}) - 0.1 * len(s), 6)
     >>> space = SearchSpace(ev, CostModel.uniform("abcdef"), random_state=0)

@@ -6,7 +6,7 @@ receives a :class:`SearchSpace`. Through the space it
 * proposes **batches** of subsets (:meth:`SearchSpace.evaluate`) and reads back
   :class:`Scored` records (evaluation, cost, objective value) — it never fits a model,
   so any evaluator drives it: cross-validation, a plain function of the subset
-  (:class:`~featuresift.evaluator.CriterionEvaluator`) or a table of stored results;
+  (:class:`~featuresift.engine.evaluator.CriterionEvaluator`) or a table of stored results;
 * asks which features may be added or removed under the budget and the user's limits
   (:meth:`SearchSpace.addable`, :meth:`SearchSpace.removable`, :meth:`SearchSpace.is_allowed`,
   :meth:`SearchSpace.repair`, :meth:`SearchSpace.sample_allowed`);
@@ -82,10 +82,10 @@ from typing import Any, ClassVar
 import numpy as np
 
 from featuresift.costs import CostModel
+from featuresift.engine.evaluator import BaseEvaluator, normalise_subset
+from featuresift.engine.records import COMPLETE, Evaluation
 from featuresift.errors import InputError
-from featuresift.evaluator import BaseEvaluator, normalise_subset
 from featuresift.objectives import BaseObjective, ScoreObjective
-from featuresift.records import COMPLETE, Evaluation
 
 __all__ = [
     "Scored",
@@ -104,7 +104,7 @@ class StopSearch(Exception):
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(len, n_features=3)
     >>> space = SearchSpace(ev, CostModel.uniform("abc"), max_evaluations=1)
@@ -131,7 +131,7 @@ class Scored:
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: float(sum(s)), n_features=3)
     >>> space = SearchSpace(ev, CostModel.uniform("abc"))
@@ -194,7 +194,7 @@ class PathStep:
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> cm = CostModel(["ph", "ash"], {"ph": 1.0, "ash": 3.0})
     >>> space = SearchSpace(CriterionEvaluator(len, 2), cm)
@@ -242,7 +242,7 @@ class SearchSpace:
     --------
     Column ``c`` alone is over budget and ``a`` is excluded, so only ``b`` can start:
 
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> cm = CostModel(["a", "b", "c"], {"a": 1.0, "b": 2.0, "c": 4.0})
     >>> space = SearchSpace(CriterionEvaluator(len, 3), cm, budget=3.0, never_include=[0])
@@ -379,7 +379,7 @@ class SearchSpace:
 
         Examples
         --------
-        >>> from featuresift.evaluator import CriterionEvaluator
+        >>> from featuresift.engine.evaluator import CriterionEvaluator
         >>> from featuresift.costs import CostModel
         >>> space = SearchSpace(CriterionEvaluator(len, 4), CostModel.uniform("abcd"),
         ...                     budget=2, random_state=1)

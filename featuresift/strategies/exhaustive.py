@@ -28,7 +28,7 @@ def allowed_subsets(space: SearchSpace) -> Iterator[tuple[int, ...]]:
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> space = SearchSpace(CriterionEvaluator(len, 3), CostModel.uniform("abc"), budget=2)
     >>> list(allowed_subsets(space))
@@ -58,7 +58,7 @@ class ExhaustiveSearch(SearchStrategy):
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {0, 2}) - 0.1 * len(s), 4)
     >>> space = SearchSpace(ev, CostModel.uniform("abcd"))

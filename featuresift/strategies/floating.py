@@ -200,7 +200,7 @@ class FloatingForwardSearch(_FloatingSearch):
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> table = {(0,): 5, (1,): 4, (2,): 1, (0, 1): 5, (0, 2): 6, (1, 2): 9, (0, 1, 2): 8}
     >>> ev = CriterionEvaluator(lambda s: table.get(s, 0), 3)
@@ -243,7 +243,7 @@ class FloatingBackwardSearch(_FloatingSearch):
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {0, 2}) - 0.1 * len(s), 4)
     >>> space = SearchSpace(ev, CostModel.uniform(["a", "b", "c", "d"]))

@@ -59,7 +59,7 @@ def marginal_estimates(space: SearchSpace) -> np.ndarray:
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: 2.0 * (0 in s), 2)
     >>> space = SearchSpace(ev, CostModel.uniform("ab"))
@@ -146,7 +146,7 @@ class GeneticSearch(SearchStrategy):
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 4}) - 0.1 * len(s), 6)
     >>> space = SearchSpace(ev, CostModel.uniform("abcdef"), random_state=0)

@@ -130,7 +130,7 @@ class ForwardSelection(SearchStrategy):
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 2}) - 0.01 * len(s), 4)
     >>> space = SearchSpace(ev, CostModel.uniform(["a", "b", "c", "d"]))
@@ -193,7 +193,7 @@ class BackwardSelection(SearchStrategy):
 
     Examples
     --------
-    >>> from featuresift.evaluator import CriterionEvaluator
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 2}) - 0.01 * len(s), 4)
     >>> space = SearchSpace(ev, CostModel.uniform(["a", "b", "c", "d"]))

@@ -26,8 +26,8 @@ import time
 from collections.abc import Iterable
 from pathlib import Path
 
+from featuresift.engine.records import FoldTable
 from featuresift.errors import InputError
-from featuresift.records import FoldTable
 
 __all__ = ["Journal", "open_journal"]
 
@@ -71,7 +71,7 @@ class Journal:
     Examples
     --------
     >>> import tempfile, os
-    >>> from featuresift.records import FoldTable
+    >>> from featuresift.engine.records import FoldTable
     >>> folder = tempfile.mkdtemp()
     >>> with Journal(os.path.join(folder, "runs.sqlite")) as j:
     ...     t = FoldTable.empty(2); t.set(0, 0.9, 0.01); t.set(1, 0.8, 0.01)

@@ -1,4 +1,4 @@
-"""Evaluators: turn batches of feature subsets into :class:`~featuresift.records.Evaluation`.
+"""Evaluators: turn batches of feature subsets into :class:`~featuresift.engine.records.Evaluation`.
 
 A strategy only ever calls :meth:`BaseEvaluator.evaluate` with a batch of subsets;
 it never learns how the scores are computed. :class:`CrossValidationEvaluator`
@@ -19,8 +19,8 @@ How :class:`CrossValidationEvaluator` spends its time
   must not each start two BLAS threads.
 * **A fold-level cache.** What is known about a subset is kept fold by fold, so a
   subset is fitted at most once per fold; the optional journal keeps the same cache
-  on disk across runs (:mod:`featuresift.journal`).
-* **Optional racing** (:mod:`featuresift.racing`): a batch is scored in rounds of
+  on disk across runs (:mod:`featuresift.engine.journal`).
+* **Optional racing** (:mod:`featuresift.engine.racing`): a batch is scored in rounds of
   folds and candidates statistically behind the leader stop early.
 
 Results never depend on ``n_jobs``, ``chunk_size``, the joblib backend, the cache
@@ -45,13 +45,13 @@ from sklearn.base import clone
 from sklearn.dummy import DummyClassifier, DummyRegressor
 from sklearn.utils.parallel import Parallel, delayed
 
+from featuresift.engine.fitplan import make_fit_plan
+from featuresift.engine.journal import Journal, open_journal
+from featuresift.engine.progress import make_progress
+from featuresift.engine.racing import BaseRace, make_race
+from featuresift.engine.records import DROPPED, Evaluation, FoldTable
 from featuresift.errors import FitFailedError, InputError
-from featuresift.fitplan import make_fit_plan
-from featuresift.journal import Journal, open_journal
 from featuresift.problem import SelectionProblem
-from featuresift.progress import make_progress
-from featuresift.racing import BaseRace, make_race
-from featuresift.records import DROPPED, Evaluation, FoldTable
 
 __all__ = ["BaseEvaluator", "CrossValidationEvaluator", "CriterionEvaluator", "normalise_subset"]
 
@@ -99,7 +99,7 @@ class BaseEvaluator(ABC):
     --------
     A subclass only scores subsets it has not seen; repeats are served from memory:
 
-    >>> from featuresift.records import Evaluation
+    >>> from featuresift.engine.records import Evaluation
     >>> class SizeEvaluator(BaseEvaluator):
     ...     def _evaluate_new(self, subsets):
     ...         return [Evaluation(s, (float(len(s)),)) for s in subsets]
@@ -243,7 +243,7 @@ def _fit_chunk(plan, X, columns, y, splits, items, on_error, inner_threads, chec
 
     ``X`` holds only the problem's columns listed in ``columns`` (sorted), which are
     all the chunk needs; None means all columns. ``plan`` is the evaluator's
-    :class:`~featuresift.fitplan.FitPlan`: when it has a shared head, the items are
+    :class:`~featuresift.engine.fitplan.FitPlan`: when it has a shared head, the items are
     run fold by fold and the head is fitted once per fold on all of the chunk's
     columns (its time is counted with the fold's first fit).
 
@@ -327,10 +327,10 @@ class CrossValidationEvaluator(BaseEvaluator):
         Off by default. True or ``"f-race"``: F-race; ``"t-race"``: paired t-test race
         (optionally with an indifference zone); ``"hoeffding"``: Hoeffding race; a dict
         adds options (``{"name": "t-race", "alpha": 0.2, "indifference": 0.005}``). See
-        :mod:`featuresift.racing`. Dropped candidates get status ``"dropped"``.
+        :mod:`featuresift.engine.racing`. Dropped candidates get status ``"dropped"``.
     journal : str, path-like or Journal, optional
         SQLite file recording every evaluation; a run started again with the same
-        problem reuses what it holds (see :mod:`featuresift.journal`).
+        problem reuses what it holds (see :mod:`featuresift.engine.journal`).
     chunk_size : int, optional
         Fits per joblib task. None: about eight tasks per worker and batch.
     inner_threads : int or None, default=1
@@ -338,7 +338,7 @@ class CrossValidationEvaluator(BaseEvaluator):
     share_preprocessing : bool, default=True
         Fit the leading column-wise steps of a pipeline (scalers, per-column
         imputation) once per fold for a whole group of fits instead of once per
-        subset; the scores are unchanged (see :mod:`featuresift.fitplan`).
+        subset; the scores are unchanged (see :mod:`featuresift.engine.fitplan`).
     verbose : int, default=0
         0: silent; 1: a progress bar in interactive sessions; 2: always a bar.
 
