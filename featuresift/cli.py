@@ -219,8 +219,10 @@ def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:
     shown = table.drop(columns=["cost_unit"], errors="ignore")
     out.write(f"Cost in {problem.cost_model.unit}.\n")
     out.write(shown.to_string(index=False, float_format=lambda v: f"{v:.4g}") + "\n\n")
-    out.write(f"Relevance: {relevance}. Univariate scores miss measurements that only help "
-              "together; use `featuresift run` for a model-based search.\n")
+    out.write(f"Relevance: {relevance}. p_value: each measurement's own test; q_value: "
+              "Benjamini-Hochberg adjusted over all candidates (flag q <= 0.05 to keep "
+              "false discoveries near 5 %). Univariate scores miss measurements that only "
+              "help together; use `featuresift run` for a model-based search.\n")
     out.write(f"Written to {path}\n")
     return 0
 
@@ -344,9 +346,10 @@ def build_parser() -> argparse.ArgumentParser:
 
     screen = sub.add_parser(
         "screen", parents=[common],
-        help="per-measurement table: relevance, p-value, cost, most redundant partner",
+        help="per-measurement table: relevance, p- and q-value, cost, most redundant partner",
         description="Score every candidate on its own (no model fits): relevance to the\n"
-        "target and its p-value, cost, relevance per cost, and the other candidate it\n"
+        "target, its p-value and Benjamini-Hochberg q-value, cost, relevance per cost,\n"
+        "and the other candidate it "
         "correlates with most. Writes features.csv into the output folder.",
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )

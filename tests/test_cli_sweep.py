@@ -5,6 +5,7 @@ from __future__ import annotations
 import copy
 import json
 
+import numpy as np
 import pandas as pd
 import pytest
 import yaml
@@ -96,6 +97,10 @@ def test_screen_table_matches_scipy_anova(small_config):
     ref = stats.f_oneway(*groups)
     assert table.loc["protein_nir_pct", "relevance"] == pytest.approx(ref.statistic, rel=1e-9)
     assert table.loc["protein_nir_pct", "p_value"] == pytest.approx(ref.pvalue, rel=1e-6)
+    # Reference: scipy.stats.false_discovery_control (Benjamini-Hochberg) over every p-value.
+    q_ref = stats.false_discovery_control(table["p_value"].to_numpy(), method="bh")
+    np.testing.assert_allclose(table["q_value"].to_numpy(), q_ref, rtol=1e-9)
+    assert (table["q_value"] >= table["p_value"]).all()
     assert table.loc["don_ppm", "panel"] == "mycotoxin_panel"
 
 

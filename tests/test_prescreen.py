@@ -128,12 +128,15 @@ def test_feature_report_columns_values_and_csv(tmp_path):
     cm = CostModel(list("abcdef"), {"a": 2.0, "b": 1.0, "c": 1.0, "d": 0.0},
                    panels={"lab": (6.0, ["e", "f"])}, unit="EUR")
     rep = feature_report(frame, y, cm, sort=False)
-    assert list(rep.columns) == ["feature", "panel", "relevance", "p_value", "cost",
+    assert list(rep.columns) == ["feature", "panel", "relevance", "p_value", "q_value", "cost",
                                  "cost_unit", "relevance_per_cost", "rank", "partner",
                                  "partner_abs_corr"]
     f, p = anova_f(X, y)
     np.testing.assert_allclose(rep["relevance"], f)
     np.testing.assert_allclose(rep["p_value"], p)
+    # Reference: scipy.stats.false_discovery_control(method="bh") (Benjamini-Hochberg).
+    np.testing.assert_allclose(rep["q_value"], stats.false_discovery_control(p, method="bh"),
+                               rtol=1e-12)
     assert rep["cost"].tolist() == [2.0, 1.0, 1.0, 0.0, 6.0, 6.0]
     assert rep.loc[3, "relevance_per_cost"] == np.inf  # free feature
     assert rep.loc[0, "partner"] == "f" and rep.loc[5, "partner"] == "a"

@@ -1,8 +1,13 @@
-"""Per-feature report: relevance, p-value, cost, relevance per cost, most redundant partner.
+"""Per-feature report: relevance, p-value and q-value, cost, relevance per cost, partner.
 
 :func:`feature_report` takes what a parsed configuration holds (a DataFrame ``X``, the
 target, the :class:`~featuresift.costs.CostModel` and the task type) and returns one
 row per candidate measurement; :func:`write_feature_report` saves it as CSV.
+
+Beside each raw p-value stands its Benjamini-Hochberg q-value (adjusted over every
+candidate with a p-value): a p-value of 0.01 among 30 candidates is weak evidence on its
+own, while ``q <= 0.05`` keeps the expected share of false discoveries among the
+measurements so flagged at 5 % (Benjamini & Hochberg 1995).
 
 The partner of a feature is the other column with the largest absolute Pearson
 correlation (computed in column blocks, so thousands of columns need only
@@ -21,13 +26,14 @@ import numpy as np
 from featuresift.costs import CostModel
 from featuresift.errors import InputError
 from featuresift.filters._common import check_xy, per_cost, resolve_cost_model, unit_costs
+from featuresift.filters.prescreen import benjamini_hochberg
 from featuresift.filters.redundancy import standardize_columns
 from featuresift.filters.relevance import relevance_scores
 
 __all__ = ["feature_report", "write_feature_report", "REPORT_COLUMNS", "redundancy_partners"]
 
 REPORT_COLUMNS = (
-    "feature", "panel", "relevance", "p_value", "cost", "cost_unit", "relevance_per_cost",
+    "feature", "panel", "relevance", "p_value", "q_value", "cost", "cost_unit", "relevance_per_cost",
     "rank", "partner", "partner_abs_corr",
 )
 """Columns of the report, in order."""
@@ -93,7 +99,9 @@ def feature_report(
     Returns
     -------
     pandas.DataFrame
-        Columns :data:`REPORT_COLUMNS`. ``rank`` is 1 for the most relevant feature;
+        Columns :data:`REPORT_COLUMNS`. ``q_value`` is the Benjamini-Hochberg adjusted
+        p-value over all candidates (empty when the scorer gives no p-values); ``rank``
+        is 1 for the most relevant feature;
         ``relevance_per_cost`` is ``inf`` for free features with positive relevance.
         ``frame.attrs`` holds the scorer name, task and cost unit.
 
@@ -117,11 +125,13 @@ def feature_report(
     rank[order] = np.arange(1, p + 1)
     import pandas as pd
 
+    pvalues = rel.pvalues if rel.pvalues is not None else np.full(p, np.nan)
     frame = pd.DataFrame({
         "feature": names,
         "panel": [cm.panel_of(n) or "" for n in names],
         "relevance": rel.scores,
-        "p_value": rel.pvalues if rel.pvalues is not None else np.full(p, np.nan),
+        "p_value": pvalues,
+        "q_value": benjamini_hochberg(pvalues),
         "cost": costs,
         "cost_unit": cm.unit,
         "relevance_per_cost": per_cost(rel.scores, costs),
@@ -150,7 +160,7 @@ def write_feature_report(frame: Any, path: str | os.PathLike) -> Path:
     >>> with tempfile.TemporaryDirectory() as d:
     ...     out = write_feature_report(feature_report(X, y), Path(d) / "features.csv")
     ...     pd.read_csv(out).shape
-    (4, 10)
+    (4, 11)
     """
     missing = [c for c in REPORT_COLUMNS if c not in getattr(frame, "columns", [])]
     if missing:
