@@ -33,8 +33,8 @@ from featuresift.filters.relevance import relevance_scores
 __all__ = ["feature_report", "write_feature_report", "REPORT_COLUMNS", "redundancy_partners"]
 
 REPORT_COLUMNS = (
-    "feature", "panel", "relevance", "p_value", "q_value", "cost", "cost_unit", "relevance_per_cost",
-    "rank", "partner", "partner_abs_corr",
+    "feature", "panel", "relevance", "p_value", "q_value", "cost", "cost_unit",
+    "relevance_per_cost", "rank", "partner", "partner_abs_corr",
 )
 """Columns of the report, in order."""
 
