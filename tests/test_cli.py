@@ -168,7 +168,7 @@ def test_dry_run_prints_the_plan_and_writes_nothing(tmp_path, capsys, monkeypatc
     def no_search(*args, **kwargs):
         raise AssertionError("a dry run must not search")
 
-    monkeypatch.setattr(featuresift.config, "run_search", no_search)
+    monkeypatch.setattr(featuresift.config.run, "run_search", no_search)
     before = snapshot(tmp_path)
     assert main(["run", str(path), "--dry-run"]) == 0
     out = capsys.readouterr().out
@@ -193,7 +193,7 @@ def test_internal_error_exit_1_traceback_only_with_debug(tmp_path, capsys, monke
     def broken(*args, **kwargs):
         raise RuntimeError("evaluator exploded")
 
-    monkeypatch.setattr(featuresift.config, "run_search", broken)
+    monkeypatch.setattr(featuresift.config.run, "run_search", broken)
     assert main(["run", str(path)]) == 1
     err = capsys.readouterr().err
     assert "internal error: RuntimeError: evaluator exploded" in err

@@ -1,0 +1,122 @@
+"""Reading the data file and choosing the candidate columns."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from featuresift.config.context import _Context, _suggest
+from featuresift.config.schema import DataSpec, RunConfig
+from featuresift.errors import InputError
+
+_DATA_SUFFIXES = {".csv": "csv", ".gz": "csv", ".parquet": "parquet", ".pq": "parquet"}
+
+
+def _read_frame(spec: DataSpec, ctx: _Context) -> pd.DataFrame:
+    path = spec.path
+    suffix = path.suffix.lower()
+    kind = _DATA_SUFFIXES.get(suffix)
+    if kind is None or (suffix == ".gz" and not path.name.lower().endswith(".csv.gz")):
+        raise ctx.error(
+            f"unsupported file type '{path.name}'; use .csv, .csv.gz, .parquet or .pq",
+            "data.path",
+        )
+    if not path.is_file():
+        what = "is a folder" if path.is_dir() else "not found"
+        raise ctx.error(f"data file {what}: {path}", "data.path")
+    try:
+        if kind == "parquet":
+            try:
+                import pyarrow  # noqa: F401
+            except ImportError:
+                raise ctx.error(
+                    "reading Parquet needs pyarrow (pip install 'featuresift[parquet]')",
+                    "data.path",
+                ) from None
+            frame = pd.read_parquet(path)
+        else:
+            frame = pd.read_csv(path)
+    except InputError:
+        raise
+    except pd.errors.EmptyDataError:
+        raise ctx.error(f"data file {path.name} is empty", "data.path") from None
+    except (pd.errors.ParserError, UnicodeDecodeError, ValueError, OSError) as exc:
+        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise ctx.error(f"cannot read {path.name}: {first}", "data.path") from None
+    frame.columns = [str(c) for c in frame.columns]
+    if frame.columns.duplicated().any():
+        dup = sorted(set(frame.columns[frame.columns.duplicated()]))
+        raise ctx.error(f"{path.name} has repeated column names: {', '.join(dup)}", "data.path")
+    if len(frame) == 0:
+        raise ctx.error(f"data file {path.name} has a header but no rows", "data.path")
+    return frame
+
+
+def _column_error(frame: pd.DataFrame, name: str, key: str, ctx: _Context, role: str):
+    return ctx.error(
+        f"{role} '{name}' is not a column of the data{_suggest(name, frame.columns)}", key
+    )
+
+
+def _numeric_column(frame: pd.DataFrame, name: str, file_name: str) -> pd.Series:
+    col = frame[name]
+    if pd.api.types.is_bool_dtype(col):
+        return col.astype(float)
+    if not pd.api.types.is_numeric_dtype(col):
+        converted = pd.to_numeric(col, errors="coerce")
+        bad = col.notna() & converted.isna()
+        if bad.any():
+            row = int(np.flatnonzero(bad.to_numpy())[0])
+            raise InputError(
+                f"data file {file_name}, column '{name}': not numeric (data row {row + 1} "
+                f"holds {col.iloc[row]!r}); candidate measurements must be numbers "
+                "(empty cells count as missing), or list the column under data.exclude"
+            )
+        col = converted
+    values = col.astype(float)
+    if values.isna().all():
+        raise InputError(
+            f"data file {file_name}, column '{name}': every value is missing; "
+            "list the column under data.exclude"
+        )
+    if np.isinf(values.to_numpy()).any():
+        row = int(np.flatnonzero(np.isinf(values.to_numpy()))[0])
+        raise InputError(
+            f"data file {file_name}, column '{name}': infinite value in data row {row + 1}"
+        )
+    return values
+
+
+def _select_candidates(cfg: RunConfig, ctx: _Context) -> list[str]:
+    frame, spec = cfg.frame, cfg.data
+    if spec.target not in frame.columns:
+        raise _column_error(frame, spec.target, "data.target", ctx, "target")
+    group = cfg.cv.group_column
+    if group is not None:
+        if group not in frame.columns:
+            raise _column_error(frame, group, "cv.group_column", ctx, "group column")
+        if group == spec.target:
+            raise ctx.error("the group column cannot be the target", "cv.group_column")
+    for i, name in enumerate(spec.exclude):
+        if name not in frame.columns:
+            raise _column_error(frame, name, f"data.exclude[{i}]", ctx, "excluded column")
+    reserved = {spec.target, group}
+    if spec.features is None:
+        candidates = [c for c in frame.columns if c not in reserved and c not in spec.exclude]
+    else:
+        candidates = list(spec.features)
+        for i, name in enumerate(candidates):
+            key = f"data.features[{i}]"
+            if name not in frame.columns:
+                raise _column_error(frame, name, key, ctx, "feature")
+            if name == spec.target:
+                raise ctx.error(f"'{name}' is the target; it cannot be a feature", key)
+            if name == group:
+                raise ctx.error(f"'{name}' is the CV group column; it cannot be a feature", key)
+            if name in spec.exclude:
+                raise ctx.error(f"'{name}' is also listed under data.exclude", key)
+        order = {c: i for i, c in enumerate(frame.columns)}
+        candidates.sort(key=order.__getitem__)
+    if not candidates:
+        raise ctx.error("no candidate feature columns are left", "data")
+    return candidates

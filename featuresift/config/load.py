@@ -1,0 +1,115 @@
+"""``load_config``: read the YAML, parse every section, read the data, run every check."""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+from typing import Any
+
+from sklearn.base import is_classifier
+
+from featuresift.config.checks import (
+    _build_cost_model,
+    _check_folds,
+    _check_lists,
+    _check_missing_values,
+    _check_scoring,
+    _check_target,
+)
+from featuresift.config.context import _Context, _show
+from featuresift.config.data import _numeric_column, _read_frame, _select_candidates
+from featuresift.config.schema import OVERRIDES, RunConfig
+from featuresift.config.sections import _CORE_FIELDS, SECTIONS
+from featuresift.config.yamlfile import _read_yaml
+from featuresift.errors import InputError
+
+__all__ = ["load_config"]
+
+
+def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
+    """Read, check and resolve a YAML run configuration and its data file.
+
+    Nothing is fitted or written.
+
+    Parameters
+    ----------
+    path : path-like
+        The YAML file.
+    **overrides
+        Values that replace the file's: ``output`` (a folder, relative to the current
+        directory and not restricted to the config's folder), ``n_jobs``, ``budget``
+        (``float('inf')`` for unlimited), ``strategy`` (a name; the file's strategy
+        options are dropped unless the name is unchanged) and ``seed``. None means
+        "not given".
+
+    Returns
+    -------
+    RunConfig
+
+    Raises
+    ------
+    InputError
+        On any problem, naming the YAML key and line, or the column or feature.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     _, yml = write_demo(d, n_lots=60)
+    ...     cfg = load_config(yml, budget=5.0)
+    >>> cfg.budget, cfg.strategy["name"], len(cfg.candidates)
+    (5.0, 'forward', 26)
+    """
+    path = Path(path).expanduser().absolute()
+    unknown = [k for k in overrides if k not in OVERRIDES]
+    if unknown:
+        raise InputError(f"unknown override(s): {', '.join(unknown)}; known: "
+                         + ", ".join(OVERRIDES))
+    given = {k: v for k, v in overrides.items() if v is not None}
+    raw, lines = _read_yaml(path)
+    if raw is None:
+        raise InputError(f"config file {path.name} is empty")
+    if not isinstance(raw, dict):
+        raise InputError(f"config file {path.name}: the top level must be a mapping of "
+                         f"sections (data:, model:, ...), got {_show(raw)}", line=1)
+    ctx = _Context(lines, path.parent, (k for k in given if k != "output"))
+    ctx.mapping(raw, "", SECTIONS)
+    raw = dict(raw)
+    for k in ("budget", "n_jobs", "seed"):
+        if k in given:
+            raw[k] = given[k]
+    if "strategy" in given:
+        old = raw.get("strategy")
+        same = isinstance(old, dict) and old.get("name", "forward") == given["strategy"]
+        raw["strategy"] = dict(old) if same else {"name": given["strategy"]}
+    parsed = {name: sec.parse(raw.get(name), ctx) for name, sec in SECTIONS.items()}
+    output = parsed.pop("output")
+    if "output" in given:
+        output = Path(os.path.expanduser(str(given["output"]))).absolute().resolve()
+    elif output is None:
+        output = (path.parent / "results" / path.stem).resolve()
+    if output.exists() and not output.is_dir():
+        if "output" in given:
+            raise InputError(f"--output {output}: exists and is not a folder")
+        raise ctx.error(f"{output} exists and is not a folder", "output.folder")
+    core = {k: v for k, v in parsed.items() if k in _CORE_FIELDS}
+    extra = {k: v for k, v in parsed.items() if k not in _CORE_FIELDS}
+    frame = _read_frame(core["data"], ctx)
+    cfg = RunConfig(path=path, output=output, frame=frame, extra=extra, **core)
+    cfg.overridden = given
+    cfg.lines = lines
+    cfg.classification = bool(is_classifier(cfg.model.build()))
+    if cfg.cv.stratified and not cfg.classification:
+        raise ctx.error("stratified folds need a classifier; set stratified: false",
+                        "cv.stratified")
+    cfg.candidates = _select_candidates(cfg, ctx)
+    for name in cfg.candidates:
+        _numeric_column(frame, name, cfg.data.path.name)
+    _check_target(cfg, ctx)
+    _check_folds(cfg, ctx)
+    cfg.cost_model = _build_cost_model(cfg, ctx)
+    _check_lists(cfg, ctx)
+    _check_missing_values(cfg, ctx)
+    _check_scoring(cfg, ctx)
+    return cfg

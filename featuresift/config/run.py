@@ -1,0 +1,181 @@
+"""Run orchestration: config -> SelectionProblem and search arguments -> result."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+from sklearn.model_selection import (
+    GroupKFold,
+    KFold,
+    RepeatedKFold,
+    RepeatedStratifiedKFold,
+    StratifiedGroupKFold,
+    StratifiedKFold,
+)
+
+from featuresift.config.checks import _check_scoring
+from featuresift.config.context import _Context
+from featuresift.config.data import _numeric_column
+from featuresift.config.load import load_config
+from featuresift.config.schema import RunConfig
+from featuresift.config.sections import SECTIONS
+from featuresift.config.yamlfile import _plain
+from featuresift.errors import InputError
+from featuresift.problem import SelectionProblem
+from featuresift.result import SearchResult
+from featuresift.search import run_search
+
+__all__ = ["build_run", "run_from_config"]
+
+
+def _splitter(cfg: RunConfig) -> Any:
+    cv = cfg.cv
+    stratified = cfg.stratified
+    seed = cv.seed if cv.shuffle else None
+    if cv.group_column is not None:
+        if stratified:
+            return StratifiedGroupKFold(cv.folds, shuffle=cv.shuffle, random_state=seed)
+        return GroupKFold(cv.folds, shuffle=cv.shuffle, random_state=seed)
+    if cv.repeats > 1:
+        cls = RepeatedStratifiedKFold if stratified else RepeatedKFold
+        return cls(n_splits=cv.folds, n_repeats=cv.repeats, random_state=cv.seed)
+    cls = StratifiedKFold if stratified else KFold
+    return cls(cv.folds, shuffle=cv.shuffle, random_state=seed)
+
+
+def build_run(cfg: RunConfig) -> tuple[SelectionProblem, dict[str, Any]]:
+    """Build the selection problem and the :func:`run_search` keyword arguments.
+
+    The CV splits are computed here (no model is fitted).
+
+    Parameters
+    ----------
+    cfg : RunConfig
+        From :func:`load_config`.
+
+    Returns
+    -------
+    problem : SelectionProblem
+    kwargs : dict
+        Keyword arguments for :func:`featuresift.run_search` (strategy, budget,
+        objective, limits, must/never include, pick, random_state, n_jobs).
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     problem, kwargs = build_run(load_config(write_demo(d, n_lots=60)[1]))
+    >>> len(problem.splits), kwargs["budget"], kwargs["strategy"]["name"]
+    (5, 30.0, 'forward')
+    """
+    ctx = _Context(cfg.lines, cfg.base_dir, (k for k in cfg.overridden if k != "output"))
+    frame = cfg.frame
+    X = np.column_stack(
+        [_numeric_column(frame, c, cfg.data.path.name).to_numpy() for c in cfg.candidates]
+    )
+    y = frame[cfg.data.target].to_numpy()
+    groups = None if cfg.cv.group_column is None else frame[cfg.cv.group_column].to_numpy()
+    try:
+        problem = SelectionProblem(
+            X, y, cfg.model.build(), cost_model=cfg.cost_model, cv=_splitter(cfg),
+            scoring=_check_scoring(cfg, ctx), groups=groups, feature_names=cfg.candidates,
+        )
+    except InputError as exc:
+        raise ctx.rekey(exc, "data") from None
+    except ValueError as exc:  # the splitter rejects the data (too few rows per class, ...)
+        raise ctx.error(f"cannot make the CV folds: {exc}", "cv.folds") from None
+    kwargs: dict[str, Any] = {
+        "strategy": {"name": cfg.strategy["name"], "options": dict(cfg.strategy["options"])},
+        "budget": cfg.budget,
+        "objective": dict(cfg.objective),
+        "max_features": cfg.limits.max_features,
+        "max_evaluations": cfg.limits.max_evaluations,
+        "max_time": cfg.limits.max_time_s,
+        "must_include": list(cfg.must_include),
+        "never_include": list(cfg.never_include),
+        "pick": cfg.pick,
+        "random_state": cfg.seed,
+        "n_jobs": cfg.n_jobs,
+    }
+    for name, value in cfg.extra.items():
+        section = SECTIONS.get(name)
+        if section is not None and section.apply is not None:
+            section.apply(cfg, value, problem, kwargs)
+    return problem, kwargs
+
+
+def _provenance(cfg: RunConfig, problem: SelectionProblem) -> dict:
+    return {
+        "config": str(cfg.path),
+        "data": {
+            "path": str(cfg.data.path),
+            "n_rows": int(problem.n_samples),
+            "target": cfg.data.target,
+            "n_candidates": len(cfg.candidates),
+        },
+        "model": {"estimator": cfg.model.estimator, "params": _plain(cfg.model.params),
+                  "preprocessing": list(cfg.model.preprocessing)},
+        "cv": {"splitter": type(problem.cv).__name__, "n_splits": len(problem.splits),
+               "folds": cfg.cv.folds, "repeats": cfg.cv.repeats, "seed": cfg.cv.seed,
+               "group_column": cfg.cv.group_column},
+        **({"overrides": _plain(cfg.overridden)} if cfg.overridden else {}),
+    }
+
+
+
+def run_from_config(
+    config: str | os.PathLike | RunConfig,
+    *,
+    write: bool = False,
+    callback: Callable | None = None,
+    **overrides: Any,
+) -> SearchResult:
+    """Load a configuration, run the search, optionally write the result files.
+
+    Parameters
+    ----------
+    config : path-like or RunConfig
+        A YAML file, or a configuration from :func:`load_config`.
+    write : bool, default=False
+        Write ``result.json``, ``selected.csv`` and ``path.csv`` into the output folder.
+    callback : callable, optional
+        Passed to :func:`run_search` (called after each search step).
+    **overrides
+        As in :func:`load_config` (only with a path).
+
+    Returns
+    -------
+    SearchResult
+        ``result.extras`` records the config, data, model and CV used.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     res = run_from_config(write_demo(d, n_lots=80)[1], budget=0.5)
+    >>> res.cost <= 0.5
+    True
+    """
+    if isinstance(config, RunConfig):
+        if overrides:
+            raise InputError("overrides apply only when a config path is given")
+        cfg = config
+    else:
+        cfg = load_config(config, **overrides)
+    problem, kwargs = build_run(cfg)
+    result = run_search(problem, callback=callback, **kwargs)
+    result.extras.update(_provenance(cfg, problem))
+    if write:
+        try:
+            result.write(cfg.output)
+        except OSError as exc:
+            raise InputError(
+                f"cannot write the results to {cfg.output}: {exc.strerror or exc}",
+                key="output.folder", line=cfg.lines.get("output.folder"),
+            ) from None
+    return result

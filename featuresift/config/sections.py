@@ -1,0 +1,352 @@
+"""Top-level YAML sections: one parser per section, the :data:`SECTIONS` registry."""
+
+from __future__ import annotations
+
+import importlib
+import inspect
+import math
+import os
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from sklearn.metrics import get_scorer_names
+
+import featuresift.filters  # noqa: F401 - registers the filter strategy and objective by name
+from featuresift.config.context import _Context, _suggest
+from featuresift.config.schema import (
+    PREPROCESSORS,
+    CostSpec,
+    CVSpec,
+    DataSpec,
+    LimitsSpec,
+    ModelSpec,
+    RunConfig,
+)
+from featuresift.errors import InputError
+from featuresift.objectives import make_objective
+from featuresift.problem import SelectionProblem
+from featuresift.search import PICK_RULES
+from featuresift.strategies import STRATEGIES, make_strategy
+
+__all__ = ["Section", "SECTIONS", "register_section"]
+
+
+def _parse_data(value: Any, ctx: _Context) -> DataSpec:
+    d = ctx.section(value, "data", ["path", "target", "features", "exclude"],
+                    {"path": "the CSV or Parquet file", "target": "the column to predict"})
+    path = Path(os.path.expanduser(ctx.string(d["path"], "data.path")))
+    if not path.is_absolute():
+        path = ctx.base_dir / path
+    features = None
+    if d.get("features") is not None:
+        features = tuple(ctx.strings(d["features"], "data.features"))
+        if not features:
+            raise ctx.error("the list is empty; omit it to use every column", "data.features")
+    return DataSpec(
+        path=path,
+        target=ctx.string(d["target"], "data.target"),
+        features=features,
+        exclude=tuple(ctx.strings(d.get("exclude"), "data.exclude")),
+    )
+
+
+def _parse_costs(value: Any, ctx: _Context) -> CostSpec:
+    if value is None:
+        return CostSpec("features", {}, {}, given=False)
+    c = ctx.mapping(value, "costs", ["unit", "features", "panels"])
+    unit = ctx.string(c.get("unit", "cost units"), "costs.unit")
+    prices = {}
+    for name, price in ctx.mapping(c.get("features"), "costs.features").items():
+        key = f"costs.features.{name}"
+        prices[str(name)] = ctx.number(price, key, minimum=0.0, what="a cost (a number >= 0)")
+    panels: dict[str, tuple[float, tuple[str, ...]]] = {}
+    owner: dict[str, str] = {}
+    for pname, spec in ctx.mapping(c.get("panels"), "costs.panels").items():
+        key = f"costs.panels.{pname}"
+        p = ctx.section(spec, key, ["cost", "features"],
+                        {"cost": "the panel's price", "features": "its measurements"})
+        price = ctx.number(p["cost"], f"{key}.cost", minimum=0.0, what="a cost (a number >= 0)")
+        members = ctx.strings(p["features"], f"{key}.features")
+        if not members:
+            raise ctx.error("a panel needs at least one feature", f"{key}.features")
+        for i, m in enumerate(members):
+            mkey = f"{key}.features[{i}]"
+            if m in owner:
+                raise ctx.error(
+                    f"feature '{m}' is already in panel '{owner[m]}' "
+                    "(a feature can belong to one panel only)", mkey,
+                )
+            if m in prices:
+                raise ctx.error(
+                    f"feature '{m}' also has its own price under costs.features; "
+                    "give it one or the other", mkey,
+                )
+            owner[m] = str(pname)
+        panels[str(pname)] = (price, tuple(members))
+    return CostSpec(unit, prices, panels, given=True)
+
+
+def _parse_budget(value: Any, ctx: _Context) -> float | None:
+    budget = ctx.number(value, "budget", minimum=0.0, optional=True, allow_inf=True)
+    return None if budget is None or math.isinf(budget) else budget
+
+
+def _import_estimator(path: str, trusted: tuple[str, ...], ctx: _Context) -> type:
+    key = "model.estimator"
+    module_name, _, attr = path.rpartition(".")
+    if not module_name or not attr or not all(p.isidentifier() for p in path.split(".")):
+        raise ctx.error("expected a dotted class path like "
+                        f"sklearn.linear_model.LogisticRegression, got '{path}'", key)
+    top = path.split(".")[0]
+    if top != "sklearn" and top not in trusted:
+        raise ctx.error(
+            f"'{path}' is not allowed: the estimator must come from sklearn or from a "
+            "module listed in model.trusted_modules", key,
+        )
+    try:
+        module = importlib.import_module(module_name)
+    except ImportError as exc:
+        raise ctx.error(f"cannot import module '{module_name}': {exc}", key) from None
+    cls = getattr(module, attr, None)
+    if cls is None:
+        public = [n for n in dir(module) if not n.startswith("_")]
+        raise ctx.error(
+            f"module '{module_name}' has no '{attr}'{_suggest(attr, public)}", key
+        )
+    if not inspect.isclass(cls) or not callable(getattr(cls, "fit", None)):
+        raise ctx.error(f"'{path}' is not an estimator class with a fit method", key)
+    return cls
+
+
+def _parse_model(value: Any, ctx: _Context) -> ModelSpec:
+    m = ctx.section(value, "model", ["estimator", "params", "preprocessing", "trusted_modules"],
+                    {"estimator": "a dotted class path"})
+    trusted = tuple(ctx.strings(m.get("trusted_modules"), "model.trusted_modules"))
+    path = ctx.string(m["estimator"], "model.estimator")
+    cls = _import_estimator(path, trusted, ctx)
+    params = ctx.mapping(m.get("params"), "model.params")
+    try:
+        known = sorted(cls().get_params(deep=False))
+    except Exception:  # noqa: BLE001 - a class that cannot be built bare: check on build
+        known = None
+    for k in params:
+        if known is not None and k not in known:
+            raise ctx.error(
+                f"{cls.__name__} has no parameter '{k}'{_suggest(str(k), known)}",
+                f"model.params.{k}",
+            )
+    try:
+        cls(**params)
+    except Exception as exc:  # noqa: BLE001 - any constructor failure is a config problem
+        raise ctx.error(f"{cls.__name__}(**params) failed: {exc}", "model.params") from None
+    steps = ctx.strings(m.get("preprocessing"), "model.preprocessing")
+    for i, s in enumerate(steps):
+        if s not in PREPROCESSORS:
+            raise ctx.error(
+                f"unknown preprocessing step '{s}'{_suggest(s, PREPROCESSORS)}; known: "
+                + ", ".join(PREPROCESSORS),
+                f"model.preprocessing[{i}]",
+            )
+    imputers = [s for s in steps if s.startswith("impute_")]
+    if len(imputers) > 1:
+        raise ctx.error(
+            f"use at most one imputation step, got {', '.join(imputers)} "
+            "(impute_indicator already imputes the median)", "model.preprocessing",
+        )
+    return ModelSpec(path, cls, params, tuple(steps), trusted)
+
+
+def _parse_cv(value: Any, ctx: _Context) -> CVSpec:
+    c = ctx.mapping(
+        value, "cv", ["folds", "repeats", "stratified", "group_column", "shuffle", "seed"]
+    )
+    spec = CVSpec(
+        folds=ctx.integer(c.get("folds", 5), "cv.folds", minimum=2),
+        repeats=ctx.integer(c.get("repeats", 1), "cv.repeats", minimum=1),
+        stratified=ctx.boolean(c.get("stratified"), "cv.stratified", optional=True),
+        group_column=ctx.string(c.get("group_column"), "cv.group_column", optional=True),
+        shuffle=ctx.boolean(c.get("shuffle", True), "cv.shuffle"),
+        seed=ctx.integer(c.get("seed", 0), "cv.seed", minimum=0, optional=True),
+    )
+    if spec.repeats > 1 and spec.group_column is not None:
+        raise ctx.error("repeated grouped cross-validation is not supported; "
+                        "use repeats: 1 with group_column", "cv.repeats")
+    if spec.repeats > 1 and not spec.shuffle:
+        raise ctx.error("repeats > 1 needs shuffle: true (repeats would be identical)",
+                        "cv.repeats")
+    return spec
+
+
+def _parse_scoring(value: Any, ctx: _Context) -> str | None:
+    name = ctx.string(value, "scoring", optional=True)
+    if name is not None and name not in get_scorer_names():
+        raise ctx.error(
+            f"unknown scorer '{name}'{_suggest(name, get_scorer_names())}; use a name from "
+            "sklearn.metrics.get_scorer_names()", "scoring",
+        )
+    return name
+
+
+def _parse_objective(value: Any, ctx: _Context) -> dict:
+    spec = {"name": value} if isinstance(value, str) else ctx.mapping(value, "objective")
+    spec["name"] = ctx.string(spec.get("name", "score"), "objective.name")
+    try:
+        make_objective(spec)
+    except InputError as exc:
+        raise ctx.rekey(exc, "objective") from None
+    return spec
+
+
+def _parse_strategy(value: Any, ctx: _Context) -> dict:
+    s = {"name": value} if isinstance(value, str) else ctx.mapping(
+        value, "strategy", ["name", "options"]
+    )
+    name = ctx.string(s.get("name", "forward"), "strategy.name")
+    if name not in STRATEGIES:
+        raise ctx.error(
+            f"unknown strategy '{name}'{_suggest(name, STRATEGIES)}; known: "
+            + ", ".join(sorted(STRATEGIES)), "strategy.name",
+        )
+    options = ctx.mapping(s.get("options"), "strategy.options")
+    try:
+        make_strategy({"name": name, "options": options})
+    except InputError as exc:
+        where = "strategy.options"
+        for opt in options:  # option validators name the option first
+            if exc.key is None and str(exc.message).startswith(f"{opt} "):
+                where = f"strategy.options.{opt}"
+        raise ctx.rekey(exc, where) from None
+    return {"name": name, "options": options}
+
+
+def _parse_limits(value: Any, ctx: _Context) -> LimitsSpec:
+    lim = ctx.mapping(value, "limits", ["max_features", "max_evaluations", "max_time_s"])
+    return LimitsSpec(
+        ctx.integer(lim.get("max_features"), "limits.max_features", minimum=1, optional=True),
+        ctx.integer(lim.get("max_evaluations"), "limits.max_evaluations", minimum=1,
+                    optional=True),
+        ctx.number(lim.get("max_time_s"), "limits.max_time_s", minimum=0.0, optional=True),
+    )
+
+
+def _parse_pick(value: Any, ctx: _Context) -> str:
+    pick = ctx.string("best" if value is None else value, "pick")
+    if pick not in PICK_RULES:
+        raise ctx.error(f"expected one of {', '.join(PICK_RULES)}, got '{pick}'", "pick")
+    return pick
+
+
+def _parse_n_jobs(value: Any, ctx: _Context) -> int | None:
+    n = ctx.integer(1 if value is None else value, "n_jobs")
+    if n == 0:
+        raise ctx.error("n_jobs cannot be 0 (use 1, a positive count, or -1 for all cores)",
+                        "n_jobs")
+    return n
+
+
+def _parse_output(value: Any, ctx: _Context) -> Path | None:
+    """The output folder from YAML (None: default); must stay inside the YAML's folder."""
+    if isinstance(value, str):
+        value = {"folder": value}
+    o = ctx.mapping(value, "output", ["folder"])
+    folder = ctx.string(o.get("folder"), "output.folder", optional=True)
+    if folder is None:
+        return None
+    base = ctx.base_dir.resolve()
+    target = (base / os.path.expanduser(folder)).resolve()
+    if target != base and base not in target.parents:
+        raise ctx.error(
+            f"'{folder}' resolves to {target}, outside the config file's folder {base}; "
+            "use a folder below it, or pass --output DIR on the command line",
+            "output.folder",
+        )
+    return target
+
+
+@dataclass(frozen=True)
+class Section:
+    """A top-level YAML section: its parser and an optional hook into :func:`build_run`.
+
+    Attributes
+    ----------
+    parse : callable
+        ``parse(value, ctx)`` with the raw value (None when absent); returns the parsed
+        value or raises ``ctx.error(message, key)``.
+    apply : callable, optional
+        ``apply(cfg, value, problem, kwargs)`` called by :func:`build_run` for sections
+        stored in ``RunConfig.extra``; may change ``kwargs`` in place.
+
+    Examples
+    --------
+    A section that caps the number of evaluated subsets through its ``apply`` hook:
+
+    >>> import tempfile
+    >>> from featuresift.config import build_run, load_config
+    >>> from featuresift.demo import write_demo
+    >>> def parse(value, ctx):
+    ...     return ctx.integer(value, "eval_cap", minimum=1, optional=True)
+    >>> def apply(cfg, value, problem, kwargs):
+    ...     if value is not None:
+    ...         kwargs["max_evaluations"] = value
+    >>> register_section("eval_cap", Section(parse, apply))
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     yml = write_demo(d, n_lots=60)[1]
+    ...     with open(yml, "a") as f:
+    ...         _ = f.write("eval_cap: 40\\n")
+    ...     kwargs = build_run(load_config(yml))[1]
+    >>> kwargs["max_evaluations"]
+    40
+    >>> del SECTIONS["eval_cap"]  # unregister again
+    """
+
+    parse: Callable[[Any, _Context], Any]
+    apply: Callable[[RunConfig, Any, SelectionProblem, dict], None] | None = None
+
+
+SECTIONS: dict[str, Section] = {
+    "data": Section(_parse_data),
+    "costs": Section(_parse_costs),
+    "budget": Section(_parse_budget),
+    "model": Section(_parse_model),
+    "cv": Section(_parse_cv),
+    "scoring": Section(_parse_scoring),
+    "objective": Section(_parse_objective),
+    "strategy": Section(_parse_strategy),
+    "limits": Section(_parse_limits),
+    "must_include": Section(lambda v, ctx: ctx.strings(v, "must_include")),
+    "never_include": Section(lambda v, ctx: ctx.strings(v, "never_include")),
+    "pick": Section(_parse_pick),
+    "seed": Section(lambda v, ctx: ctx.integer(v, "seed", minimum=0, optional=True)),
+    "n_jobs": Section(_parse_n_jobs),
+    "output": Section(_parse_output),
+}
+"""Known top-level sections, parsed in this order. Other keys are rejected."""
+
+_CORE_FIELDS = frozenset(SECTIONS)
+
+
+def register_section(name: str, section: Section) -> None:
+    """Add a top-level section; its parsed value goes to ``RunConfig.extra[name]``.
+
+    Examples
+    --------
+    A section named ``reviewer`` whose text lands in ``RunConfig.extra``:
+
+    >>> import tempfile
+    >>> from featuresift.config import build_run, load_config
+    >>> from featuresift.demo import write_demo
+    >>> register_section("reviewer", Section(lambda v, ctx: None if v is None else str(v)))
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     yml = write_demo(d, n_lots=60)[1]
+    ...     with open(yml, "a") as f:
+    ...         _ = f.write("reviewer: QA desk\\n")
+    ...     cfg = load_config(yml)
+    >>> cfg.extra["reviewer"]
+    'QA desk'
+    >>> del SECTIONS["reviewer"]  # unregister again
+    """
+    if name in _CORE_FIELDS:
+        raise ValueError(f"section '{name}' is built in")
+    SECTIONS[name] = section

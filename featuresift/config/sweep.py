@@ -1,0 +1,120 @@
+"""The ``sweep`` section and :func:`sweep_from_config` (one search per budget)."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any
+
+from featuresift.config.context import _Context, _show
+from featuresift.config.run import build_run
+from featuresift.config.schema import RunConfig
+from featuresift.config.sections import Section, register_section
+from featuresift.errors import InputError
+
+__all__ = ["sweep_from_config"]
+
+
+def _parse_sweep(value: Any, ctx: _Context) -> dict:
+    """The ``sweep`` section: budgets for ``featuresift sweep``.
+
+    ``budgets`` is a list of numbers (``null`` = unlimited); ``n_budgets`` asks for that
+    many evenly spaced budgets from the cheapest measurement to all of them.
+    """
+    d = ctx.mapping(value, "sweep", ["budgets", "n_budgets"])
+    if "budgets" in d and "n_budgets" in d:
+        raise ctx.error("give either budgets or n_budgets, not both", "sweep")
+    budgets = None
+    if d.get("budgets") is not None:
+        raw = d["budgets"]
+        if not isinstance(raw, list) or not raw:
+            raise ctx.error(f"expected a non-empty list of budgets, got {_show(raw)}",
+                            "sweep.budgets")
+        budgets = [
+            ctx.number(b, f"sweep.budgets[{i}]", minimum=0, optional=True)
+            for i, b in enumerate(raw)
+        ]
+    n = ctx.integer(d.get("n_budgets"), "sweep.n_budgets", minimum=2, optional=True)
+    return {"budgets": budgets, "n_budgets": 8 if n is None else n}
+
+
+register_section("sweep", Section(_parse_sweep))
+
+
+def _search_options(kwargs: dict) -> dict:
+    """run_search keyword arguments without the budget (set per sweep point)."""
+    return {k: v for k, v in kwargs.items() if k not in ("budget",)}
+
+
+def sweep_from_config(
+    cfg: RunConfig,
+    budgets: list[float | None] | None = None,
+    *,
+    write: bool = False,
+    callback: Callable | None = None,
+):
+    """Run the configured search once per budget on a shared evaluator.
+
+    Parameters
+    ----------
+    cfg : RunConfig
+        From :func:`load_config`.
+    budgets : list of float or None, optional
+        Budgets (None = unlimited); default from the ``sweep`` section, else 8 evenly
+        spaced budgets.
+    write : bool, default=False
+        Write ``frontier.csv``, ``frontier.json``, ``frontier.png`` and ``report.md``
+        into the output folder.
+    callback : callable, optional
+        Called with each finished :class:`~featuresift.result.SearchResult`.
+
+    Returns
+    -------
+    Frontier
+
+    Examples
+    --------
+    Two cheap budgets of the demo's forward search share one evaluator:
+
+    >>> import tempfile
+    >>> from featuresift.config import load_config
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     fr = sweep_from_config(load_config(write_demo(d, n_lots=60)[1]), budgets=[0.5, 1.0])
+    >>> fr.budgets, [r.cost <= b for r, b in zip(fr.results, fr.budgets)]
+    ([0.5, 1.0], [True, True])
+    >>> fr.n_fits < fr.n_fits_without_cache
+    True
+    """
+    from featuresift.frontier import budget_sweep, default_budgets
+    from featuresift.report import write_report
+
+    problem, kwargs = build_run(cfg)
+    spec = cfg.extra.get("sweep") or {"budgets": None, "n_budgets": 8}
+    if budgets is None:
+        budgets = spec["budgets"] or default_budgets(cfg.cost_model, spec["n_budgets"])
+    cheapest = cfg.cost_model.cheapest_feature_cost()
+    for b in budgets:
+        if b is not None and b < cheapest:
+            raise InputError(
+                f"budget {b:g} {cfg.cost_model.unit} is below the cheapest possible subset "
+                f"({cheapest:g} {cfg.cost_model.unit})",
+                key="sweep.budgets", line=cfg.lines.get("sweep.budgets"),
+            )
+    frontier = budget_sweep(problem, list(budgets), **_search_options(kwargs))
+    if callback is not None:
+        for r in frontier.results:
+            callback(r)
+    if write:
+        best = max(frontier.results, key=lambda r: r.score_mean)
+        try:
+            frontier.write(cfg.output)
+            budget = "unlimited" if best.budget is None else f"{best.budget:g}"
+            write_report(cfg.output, best, frontier=frontier, source=str(cfg.path),
+                         title="featuresift budget sweep",
+                         chosen_heading=f"Highest-scoring choice (budget {budget})")
+        except OSError as exc:
+            raise InputError(
+                f"cannot write the results to {cfg.output}: {exc.strerror or exc}",
+                key="output.folder", line=cfg.lines.get("output.folder"),
+            ) from None
+    return frontier
