@@ -10,11 +10,16 @@ Built in (name usable in YAML under ``objective.name``):
 ``score``
     Maximise the mean CV score subject to cost <= budget (the default).
 ``penalized``
-    Maximise ``score - lambda * cost`` (``lambda`` from the config; default 0).
+    Maximise ``score - lambda * cost`` (``lambda`` is required: score units given up per
+    unit of cost).
 ``expected_cost``
     Minimise the expected total cost per sample: acquisition cost plus the expected
     misclassification cost from a cost matrix, estimated on the cross-validation test
-    folds. The value is ``-(misclassification cost + acquisition cost)``.
+    folds. The value is ``-(misclassification cost + acquisition cost)``. Each test
+    sample gets the class with the least expected cost under the model's predicted
+    class probabilities (the Bayes decision), so the empty subset, whose prior-only
+    model predicts the class frequencies of the training fold, is valued at the best
+    decision without any test.
 
 Ties between equal objective values are broken by higher mean score, then lower cost,
 then fewer features (see ``rank_key``).
@@ -27,7 +32,6 @@ from collections.abc import Sequence
 from typing import Any, ClassVar
 
 import numpy as np
-from sklearn.metrics import make_scorer
 
 from featuresift.engine.records import Evaluation
 from featuresift.errors import InputError
@@ -37,6 +41,8 @@ __all__ = [
     "ScoreObjective",
     "PenalizedObjective",
     "ExpectedCostObjective",
+    "ExpectedCostScorer",
+    "bayes_decisions",
     "OBJECTIVES",
     "register_objective",
     "make_objective",
@@ -114,7 +120,8 @@ class PenalizedObjective(BaseObjective):
     Parameters
     ----------
     lam : float
-        Score units given up per unit of cost; must be >= 0.
+        Score units given up per unit of cost; must be >= 0 (``lambda`` in YAML and in
+        :func:`make_objective`). Required: there is no neutral default price.
 
     Examples
     --------
@@ -124,7 +131,7 @@ class PenalizedObjective(BaseObjective):
 
     name = "penalized"
 
-    def __init__(self, lam: float = 0.0) -> None:
+    def __init__(self, lam: float) -> None:
         if isinstance(lam, bool) or not isinstance(lam, (int, float)) or not lam >= 0:
             raise InputError(f"objective.lambda must be a number >= 0, got {lam!r}")
         self.lam = float(lam)
@@ -136,8 +143,12 @@ class PenalizedObjective(BaseObjective):
         return {"name": self.name, "lambda": self.lam}
 
 
-def _mean_misclassification_cost(y_true, y_pred, *, matrix, index):
-    """Mean of ``matrix[true, predicted]`` over the samples (module level: picklable)."""
+DECISIONS = ("bayes", "predict")
+"""How :class:`ExpectedCostObjective` turns a fitted model into a decision per sample."""
+
+
+def _misclassification_costs(y_true, y_pred, matrix, index) -> np.ndarray:
+    """``matrix[true, predicted]`` per sample."""
     try:
         rows = np.array([index[v] for v in np.asarray(y_true).tolist()], dtype=np.intp)
         cols = np.array([index[v] for v in np.asarray(y_pred).tolist()], dtype=np.intp)
@@ -145,7 +156,93 @@ def _mean_misclassification_cost(y_true, y_pred, *, matrix, index):
         raise ValueError(
             f"class {exc.args[0]!r} is not among the cost matrix labels {list(index)}"
         ) from None
-    return float(matrix[rows, cols].mean()) if rows.size else 0.0
+    return matrix[rows, cols]
+
+
+def bayes_decisions(proba: np.ndarray, classes: Sequence, matrix: np.ndarray,
+                    labels: Sequence) -> np.ndarray:
+    """The least-expected-cost label for each row of class probabilities.
+
+    Parameters
+    ----------
+    proba : ndarray of shape (n_samples, n_classes)
+        Predicted probabilities, columns in the order of ``classes``.
+    classes : sequence
+        The model's classes (``estimator.classes_``), each among ``labels``.
+    matrix : ndarray of shape (k, k)
+        Cost matrix, rows true class, columns decision, in ``labels`` order.
+    labels : sequence
+        Labels of the cost matrix.
+
+    Returns
+    -------
+    ndarray of labels
+        For each sample, ``argmin_j sum_i p(i) * matrix[i, j]`` over every label ``j``
+        (ties: the first label). A label the model never saw may still be the cheapest
+        decision.
+
+    Examples
+    --------
+    Calling a lot bad wrongly costs 5, accepting a bad lot 40: with a 20% risk of a
+    bad lot, rejecting (expected cost 0.8 * 5 = 4) beats accepting (0.2 * 40 = 8).
+
+    >>> m = np.array([[0.0, 5.0], [40.0, 0.0]])   # labels: 0 = bad, 1 = good
+    >>> bayes_decisions(np.array([[0.2, 0.8], [0.05, 0.95]]), [0, 1], m, [0, 1]).tolist()
+    [0, 1]
+    """
+    index = {v: i for i, v in enumerate(labels)}
+    try:
+        rows = [index[c] for c in np.asarray(classes).tolist()]
+    except KeyError as exc:
+        raise ValueError(
+            f"class {exc.args[0]!r} is not among the cost matrix labels {list(labels)}"
+        ) from None
+    expected = np.asarray(proba, dtype=float) @ matrix[rows, :]
+    return np.asarray(labels, dtype=object)[np.argmin(expected, axis=1)]
+
+
+class ExpectedCostScorer:
+    """Scorer: minus the mean misclassification cost per test sample (larger is better).
+
+    With ``decision="bayes"`` a model with ``predict_proba`` is asked for class
+    probabilities and each sample gets the least-expected-cost label
+    (:func:`bayes_decisions`); a model without ``predict_proba`` uses ``predict``.
+    With ``decision="predict"`` the model's own ``predict`` is always used. It calls
+    only ``predict_proba``/``predict`` and ``classes_`` of the estimator it is given,
+    as scikit-learn's own scorers do.
+
+    Examples
+    --------
+    >>> from sklearn.dummy import DummyClassifier
+    >>> X, y = np.zeros((10, 1)), np.array([0] * 2 + [1] * 8)
+    >>> prior = DummyClassifier(strategy="prior").fit(X, y)
+    >>> m = np.array([[0.0, 5.0], [40.0, 0.0]])
+    >>> ExpectedCostScorer(m, [0, 1])(prior, X, y)    # reject all: 8 lots x 5 / 10
+    -4.0
+    >>> ExpectedCostScorer(m, [0, 1], "predict")(prior, X, y)  # accept all: 2 x 40 / 10
+    -8.0
+    """
+
+    tail_safe = True  # uses only the fitted estimator's predictions (see engine.fitplan)
+
+    def __init__(self, matrix: np.ndarray, labels: Sequence, decision: str = "bayes") -> None:
+        self.matrix = np.asarray(matrix, dtype=float)
+        self.labels = list(labels)
+        self.decision = decision
+        self._index = {v: i for i, v in enumerate(self.labels)}
+
+    def __call__(self, estimator: Any, X: Any, y: Any) -> float:
+        if self.decision == "bayes" and hasattr(estimator, "predict_proba"):
+            pred = bayes_decisions(estimator.predict_proba(X), estimator.classes_,
+                                   self.matrix, self.labels)
+        else:
+            pred = estimator.predict(X)
+        costs = _misclassification_costs(y, pred, self.matrix, self._index)
+        return -float(costs.mean()) if costs.size else 0.0
+
+    def __repr__(self) -> str:
+        return (f"ExpectedCostScorer(matrix={self.matrix.tolist()}, labels={self.labels}, "
+                f"decision={self.decision!r})")
 
 
 class ExpectedCostObjective(BaseObjective):
@@ -165,6 +262,11 @@ class ExpectedCostObjective(BaseObjective):
         non-negative.
     labels : sequence, optional
         Class labels in matrix order. Default ``0, 1, ..., k - 1``.
+    decision : {"bayes", "predict"}, default="bayes"
+        How each test sample is called: ``"bayes"`` takes the label with the least
+        expected cost under the model's predicted probabilities (models without
+        ``predict_proba`` fall back to ``predict``); ``"predict"`` takes the model's
+        own prediction.
 
     Examples
     --------
@@ -178,8 +280,12 @@ class ExpectedCostObjective(BaseObjective):
 
     name = "expected_cost"
 
-    def __init__(self, cost_matrix: Sequence[Sequence[float]], labels: Sequence | None = None):
+    def __init__(self, cost_matrix: Sequence[Sequence[float]], labels: Sequence | None = None,
+                 decision: str = "bayes"):
         where = "objective.cost_matrix"
+        if decision not in DECISIONS:
+            raise InputError(f"must be one of {', '.join(DECISIONS)}, got {decision!r}",
+                             key="objective.decision")
         try:
             matrix = np.array(cost_matrix, dtype=float)
         except (TypeError, ValueError):
@@ -204,10 +310,8 @@ class ExpectedCostObjective(BaseObjective):
             raise InputError(f"objective.labels: labels must be distinct, got {labels}")
         self.cost_matrix = matrix.tolist()
         self.labels = labels
-        self._scorer = make_scorer(
-            _mean_misclassification_cost, greater_is_better=False,
-            matrix=matrix, index={v: i for i, v in enumerate(labels)},
-        )
+        self.decision = decision
+        self._scorer = ExpectedCostScorer(matrix, labels, decision)
 
     def value(self, evaluation: Evaluation, cost: float) -> float:
         return evaluation.mean - cost
@@ -228,7 +332,7 @@ class ExpectedCostObjective(BaseObjective):
 
     def describe(self) -> dict:
         return {"name": self.name, "labels": list(self.labels),
-                "cost_matrix": [list(r) for r in self.cost_matrix]}
+                "cost_matrix": [list(r) for r in self.cost_matrix], "decision": self.decision}
 
 
 OBJECTIVES: dict[str, type[BaseObjective]] = {
@@ -284,6 +388,11 @@ def make_objective(spec: str | dict | BaseObjective | None) -> BaseObjective:
         )
     if "lambda" in opts:
         opts["lam"] = opts.pop("lambda")
+    if name == PenalizedObjective.name and "lam" not in opts:
+        raise InputError(
+            "the penalized objective needs 'lambda' (score units given up per unit of cost, "
+            "e.g. lambda: 0.002)", key="objective.lambda",
+        )
     try:
         return OBJECTIVES[name](**opts)
     except TypeError as exc:

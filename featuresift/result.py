@@ -12,7 +12,45 @@ from typing import Any
 
 from featuresift.costs import CostLine
 
-__all__ = ["SearchResult", "PathRow"]
+__all__ = ["SearchResult", "PathRow", "SCORE_KINDS", "score_label"]
+
+SCORE_KINDS = {
+    "in-search": "in-search estimate (optimistic)",
+    "nested": "nested estimate (honest)",
+}
+"""Kinds of score and the words printed beside them.
+
+``in-search``: the cross-validated score the search computed on the folds it chose
+the subset with; the search maximised it, so it is optimistic for new data.
+``nested``: a score measured on outer folds the search never saw (the whole search
+re-run inside each outer training part); an honest estimate of "search, then fit".
+"""
+
+
+def score_label(kind: str, scoring: str | None = None) -> str:
+    """The words printed beside a score to say which estimate it is.
+
+    Every printed score (summary, console, report, plot titles) uses this helper so
+    that the same words mean the same thing everywhere.
+
+    Parameters
+    ----------
+    kind : {"in-search", "nested"}
+        See :data:`SCORE_KINDS`.
+    scoring : str, optional
+        Name of the scorer, put in front.
+
+    Examples
+    --------
+    >>> score_label("in-search")
+    'in-search estimate (optimistic)'
+    >>> score_label("nested", "roc_auc")
+    'roc_auc, nested estimate (honest)'
+    """
+    if kind not in SCORE_KINDS:
+        raise ValueError(f"score kind must be one of {sorted(SCORE_KINDS)}, got {kind!r}")
+    words = SCORE_KINDS[kind]
+    return words if not scoring else f"{scoring}, {words}"
 
 
 @dataclass(frozen=True)

@@ -30,7 +30,7 @@ def test_registry_builds_objectives_from_yaml_style_specs():
                           "cost_matrix": [[0, 5], [40, 0]]})
     assert isinstance(exp, ExpectedCostObjective)
     assert exp.describe() == {"name": "expected_cost", "labels": ["ok", "bad"],
-                              "cost_matrix": [[0.0, 5.0], [40.0, 0.0]]}
+                              "cost_matrix": [[0.0, 5.0], [40.0, 0.0]], "decision": "bayes"}
     with pytest.raises(InputError, match="unknown objective 'cheap'"):
         make_objective("cheap")
 
@@ -57,11 +57,18 @@ def test_scorer_is_minus_mean_cost_of_the_confusion_matrix():
     y = (X[:, 0] + 0.8 * rng.normal(size=120) > 0).astype(int)
     model = LogisticRegression().fit(X, y)
     cost = np.array([[0.0, 5.0], [40.0, 0.0]])
-    obj = ExpectedCostObjective(cost, labels=[0, 1])
+    obj = ExpectedCostObjective(cost, labels=[0, 1], decision="predict")
     # Reference: sklearn's confusion matrix (rows true, columns predicted) weighted by cost.
     cm = confusion_matrix(y, model.predict(X), labels=[0, 1])
     assert cm[0, 1] > 0 and cm[1, 0] > 0
     assert obj.required_scorer()(model, X, y) == pytest.approx(-(cm * cost).sum() / len(y))
+    # Bayes decision (default): call 1 only when p1 * 40 > p0 * 5, i.e. p1 > 5 / 45
+    # (hand-derived from the matrix); same confusion-matrix reference.
+    bayes = ExpectedCostObjective(cost, labels=[0, 1])
+    decided = (model.predict_proba(X)[:, 1] > 5 / 45).astype(int)
+    cm_b = confusion_matrix(y, decided, labels=[0, 1])
+    assert bayes.required_scorer()(model, X, y) == pytest.approx(-(cm_b * cost).sum() / len(y))
+    assert -(cm_b * cost).sum() > -(cm * cost).sum()  # the Bayes decision costs less here
     assert obj.value(Evaluation((0,), (-2.0, -3.0)), cost=1.5) == -4.0
 
 

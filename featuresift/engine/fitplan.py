@@ -222,7 +222,10 @@ def _direct_score_name(estimator: Any, scoring: Any, classification: bool) -> st
 
 
 def _sklearn_scorer(scorer: Any) -> bool:
-    return type(scorer).__module__ == "sklearn.metrics._scorer"
+    # Scorers that, like scikit-learn's, only call the fitted estimator's predictions
+    # declare it with a class attribute ``tail_safe = True``.
+    return (type(scorer).__module__ == "sklearn.metrics._scorer"
+            or getattr(type(scorer), "tail_safe", False) is True)
 
 
 def make_fit_plan(problem: Any, share_preprocessing: bool = True,
