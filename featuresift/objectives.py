@@ -186,7 +186,7 @@ def bayes_decisions(proba: np.ndarray, classes: Sequence, matrix: np.ndarray,
     Calling a lot bad wrongly costs 5, accepting a bad lot 40: with a 20% risk of a
     bad lot, rejecting (expected cost 0.8 * 5 = 4) beats accepting (0.2 * 40 = 8).
 
-    >>> m = np.array([[0.0, 5.0], [40.0, 0.0]])   # labels: 0 = bad, 1 = good
+    >>> m = np.array([[0.0, 40.0], [5.0, 0.0]])   # labels: 0 = bad, 1 = good
     >>> bayes_decisions(np.array([[0.2, 0.8], [0.05, 0.95]]), [0, 1], m, [0, 1]).tolist()
     [0, 1]
     """
@@ -216,7 +216,7 @@ class ExpectedCostScorer:
     >>> from sklearn.dummy import DummyClassifier
     >>> X, y = np.zeros((10, 1)), np.array([0] * 2 + [1] * 8)
     >>> prior = DummyClassifier(strategy="prior").fit(X, y)
-    >>> m = np.array([[0.0, 5.0], [40.0, 0.0]])
+    >>> m = np.array([[0.0, 40.0], [5.0, 0.0]])   # accepting a bad lot (0) costs 40
     >>> ExpectedCostScorer(m, [0, 1])(prior, X, y)    # reject all: 8 lots x 5 / 10
     -4.0
     >>> ExpectedCostScorer(m, [0, 1], "predict")(prior, X, y)  # accept all: 2 x 40 / 10
