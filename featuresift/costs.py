@@ -16,12 +16,14 @@ total of a subset does not depend on the order in which its features are listed.
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
+from fractions import Fraction
+from typing import Any
 
 from featuresift.errors import InputError
 
-__all__ = ["CostModel", "CostLine"]
+__all__ = ["CostModel", "CostLine", "AllowedSubsets"]
 
 
 @dataclass(frozen=True)
@@ -260,6 +262,45 @@ class CostModel:
                 lines.append(CostLine(pname, "panel", (name,), self.panels[pname][0]))
         return lines
 
+    # ------------------------------------------------------- allowed subsets
+    def allowed(
+        self,
+        budget: float | None = None,
+        *,
+        must_include: Iterable[int | str] = (),
+        never_include: Iterable[int | str] = (),
+        max_features: int | None = None,
+        include_empty: bool = False,
+    ) -> AllowedSubsets:
+        """The allowed subsets under a budget and the user's limits (exact, panel-aware).
+
+        A subset is allowed when it contains ``must_include``, avoids ``never_include``,
+        has at most ``max_features`` features and :meth:`is_feasible` holds for it (the
+        very same test, to the last bit: prices are added exactly as integers). Panels
+        count as units: a panel's price is paid once for any non-empty choice of its
+        members, and nothing more when a ``must_include`` member has paid it already.
+
+        Returns an :class:`AllowedSubsets` that counts them without listing them
+        (:meth:`AllowedSubsets.count`) and lists them by size, then column order
+        (iteration).
+
+        Examples
+        --------
+        Two single tests at 1 and 2 EUR and a 3-EUR panel of two values, budget 4 EUR:
+
+        >>> cm = CostModel(["a", "b", "c", "d"], {"a": 1.0, "b": 2.0},
+        ...                panels={"lab": (3.0, ["c", "d"])})
+        >>> allowed = cm.allowed(4.0)
+        >>> allowed.count()
+        8
+        >>> [tuple(cm.feature_names[i] for i in s) for s in allowed][:5]
+        [('a',), ('b',), ('c',), ('d',), ('a', 'b')]
+        >>> cm.allowed(4.0, must_include=["c"]).count()   # the panel is paid: d is free
+        4
+        """
+        return AllowedSubsets(self, budget, must_include, never_include, max_features,
+                              include_empty)
+
     def to_dict(self) -> dict:
         """Plain-data description (JSON-serialisable), used in outputs and fingerprints."""
         return {
@@ -269,3 +310,236 @@ class CostModel:
             },
             "panels": {p: {"cost": c, "features": list(m)} for p, (c, m) in self.panels.items()},
         }
+
+
+def _exact(value: float) -> Fraction:
+    return Fraction(value)
+
+
+class AllowedSubsets:
+    """Exact counting and listing of the subsets allowed by a cost model and limits.
+
+    Built by :meth:`CostModel.allowed`. The budget test is the cost model's own
+    (:meth:`CostModel.is_feasible`: the float sum of the prices, correctly rounded,
+    against ``budget * (1 + 1e-12) + 1e-12``), evaluated on exact integer sums so that
+    no subset is counted or listed differently from what a check of that subset says.
+
+    Attributes
+    ----------
+    must_include, never_include : tuple of int
+        Column indices always in / never in a subset.
+    max_features : int
+        Largest subset size.
+    free : tuple of int
+        Columns that may be switched on or off.
+
+    Examples
+    --------
+    >>> cm = CostModel.uniform(["a", "b", "c"])
+    >>> allowed = cm.allowed(budget=2)
+    >>> allowed.count(), list(allowed)
+    (6, [(0,), (1,), (2,), (0, 1), (0, 2), (1, 2)])
+    >>> allowed.count(limit=4)   # stops counting once past the limit
+    5
+    """
+
+    def __init__(self, cost_model: CostModel, budget, must_include, never_include,
+                 max_features, include_empty) -> None:
+        cm = cost_model
+        self.cost_model = cm
+        self.budget = None if budget is None or math.isinf(float(budget)) else float(budget)
+        must = tuple(sorted(set(cm._indices(must_include))))
+        never = frozenset(cm._indices(never_include))
+        self.must_include = must
+        self.never_include = tuple(sorted(never))
+        n = cm.n_features
+        self.max_features = n if max_features is None else int(max_features)
+        self.include_empty = bool(include_empty)
+        self.free = tuple(i for i in range(n) if i not in never and i not in set(must))
+        # Exact integer prices: every float is a dyadic rational, so one power-of-two
+        # denominator turns all prices into integers.
+        prices = [_exact(p) for p in cm._col_price] + [_exact(p) for p in cm._panel_price]
+        den = max((f.denominator for f in prices), default=1)
+        self._den = den
+        self._col_key = tuple(int(_exact(p) * den) for p in cm._col_price)
+        self._panel_key = tuple(int(_exact(p) * den) for p in cm._panel_price)
+        self._col_panel = cm._col_panel
+        paid = {cm._col_panel[c] for c in must if cm._col_panel[c] >= 0}
+        self._paid = frozenset(paid)
+        self._base_key = sum(self._col_key[c] for c in must if cm._col_panel[c] < 0) + sum(
+            self._panel_key[p] for p in paid)
+        self._limit_key = self._max_key()
+        self._possible = (not (set(must) & never) and len(must) <= self.max_features
+                          and self._fits(self._base_key))
+
+    # ----------------------------------------------------------------- exact test
+    def _max_key(self) -> int | None:
+        """Largest integer cost key whose correctly rounded float passes the budget test."""
+        if self.budget is None:
+            return None
+        t = self.budget * (1 + 1e-12) + 1e-12
+        den = self._den
+        lo = math.floor(_exact(t) * den)
+        hi = math.floor((_exact(t) + _exact(math.ulp(t))) * den) + 1
+        # float(lo / den) <= t holds (rounding is monotone); find the last key that passes.
+        while hi - lo > 1:
+            mid = (lo + hi) // 2
+            if mid / den <= t:  # int / int is correctly rounded, like math.fsum
+                lo = mid
+            else:
+                hi = mid
+        return lo
+
+    def _fits(self, key: int) -> bool:
+        return self._limit_key is None or key <= self._limit_key
+
+    def _units(self) -> list[tuple[int, int]]:
+        """(price key, number of free members) per unit: lone features and unpaid panels.
+
+        A free member of a panel already paid by ``must_include`` is a unit of price 0.
+        """
+        units: list[tuple[int, int]] = []
+        panel_members: dict[int, int] = {}
+        for c in self.free:
+            p = self._col_panel[c]
+            if p < 0:
+                units.append((self._col_key[c], 1))
+            elif p in self._paid:
+                units.append((0, 1))
+            else:
+                panel_members[p] = panel_members.get(p, 0) + 1
+        units += [(self._panel_key[p], m) for p, m in sorted(panel_members.items())]
+        return units
+
+    # -------------------------------------------------------------------- count
+    def count(self, limit: int | None = None) -> int:
+        """Number of allowed subsets, exactly.
+
+        Parameters
+        ----------
+        limit : int, optional
+            When given and the number is larger, counting stops as soon as that is
+            known and ``limit + 1`` is returned (so asking "are there at most N?" stays
+            cheap however many subsets there are).
+
+        Returns
+        -------
+        int
+        """
+        if not self._possible:
+            return 0
+        cap = self.max_features - len(self.must_include)
+        # Expensive units first: the cheap ones left over then fit in any remaining
+        # room sooner, and such states merge into one "anything fits" state.
+        units = sorted(self._units(), reverse=True)
+        room = None if self._limit_key is None else self._limit_key - self._base_key
+        suffix = [0] * (len(units) + 1)
+        for i in range(len(units) - 1, -1, -1):
+            suffix[i] = suffix[i + 1] + units[i][0]
+        drop_empty = 0 if (self.include_empty or self.must_include) else 1
+        sized = cap < sum(m for _, m in units)  # does max_features bind at all?
+        # states: extra cost key (None: every completion fits the budget) -> number of
+        # partial subsets, by size when max_features binds.
+        states: dict[int | None, Any] = {0: [1] if sized else 1}
+        merge = _merge_sized if sized else _merge_plain
+        for i, (price, members) in enumerate(units):
+            if room is not None:
+                loose = [k for k in states if k is not None and k + suffix[i] <= room]
+                for key in loose:
+                    merge(states, None, states.pop(key))
+            ways = [math.comb(members, j) for j in range(members + 1)]
+            new: dict[int | None, Any] = {}
+            for key, vec in states.items():
+                merge(new, key, vec)
+                if key is None or room is None:
+                    target = None
+                else:
+                    target = key + price
+                    if target > room:
+                        continue
+                if sized:
+                    grown = [0] * min(cap + 1, len(vec) + members)
+                    for size, n_ways in enumerate(vec):
+                        if n_ways:
+                            for j in range(1, min(members, cap - size) + 1):
+                                grown[size + j] += n_ways * ways[j]
+                    if any(grown):
+                        merge(new, target, grown)
+                else:
+                    merge(new, target, vec * ((1 << members) - 1))
+            states = new
+            if limit is not None:
+                total = _total(states, sized) - drop_empty
+                if total > limit:
+                    return limit + 1
+        total = _total(states, sized) - drop_empty
+        return total if limit is None else min(total, limit + 1)
+
+    # ---------------------------------------------------------------------- list
+    def __iter__(self) -> Iterator[tuple[int, ...]]:
+        """Allowed subsets as sorted column tuples, by size, then column order."""
+        if not self._possible:
+            return
+        must = self.must_include
+        cap = min(self.max_features - len(must), len(self.free))
+        for k in range(cap + 1):
+            if k == 0:
+                if must or self.include_empty:
+                    yield must
+                continue
+            for extra in self._combinations(k):
+                yield tuple(sorted(must + extra)) if must else extra
+
+    def _combinations(self, k: int) -> Iterator[tuple[int, ...]]:
+        """Free-column combinations of size ``k`` within the budget, in column order."""
+        free = self.free
+        col_key, col_panel = self._col_key, self._col_panel
+        panel_key, paid = self._panel_key, self._paid
+        room = None if self._limit_key is None else self._limit_key - self._base_key
+        touched: dict[int, int] = {}
+        chosen: list[int] = []
+
+        def step(start: int, key: int) -> Iterator[tuple[int, ...]]:
+            need = k - len(chosen)
+            for pos in range(start, len(free) - need + 1):
+                c = free[pos]
+                p = col_panel[c]
+                if p < 0:
+                    extra = col_key[c]
+                elif p in paid or touched.get(p):
+                    extra = 0
+                else:
+                    extra = panel_key[p]
+                new_key = key + extra
+                if room is not None and new_key > room:
+                    continue
+                if need == 1:
+                    yield (*chosen, c)
+                    continue
+                chosen.append(c)
+                if p >= 0:
+                    touched[p] = touched.get(p, 0) + 1
+                yield from step(pos + 1, new_key)
+                chosen.pop()
+                if p >= 0:
+                    touched[p] -= 1
+
+        yield from step(0, 0)
+
+
+def _merge_plain(states: dict, key: Any, count: int) -> None:
+    states[key] = states.get(key, 0) + count
+
+
+def _merge_sized(states: dict, key: Any, vec: list[int]) -> None:
+    old = states.get(key)
+    if old is None:
+        states[key] = vec
+    elif len(old) >= len(vec):
+        states[key] = [a + b for a, b in zip(old, vec)] + old[len(vec):]
+    else:
+        states[key] = [a + b for a, b in zip(vec, old)] + vec[len(old):]
+
+
+def _total(states: dict, sized: bool) -> int:
+    return sum(sum(v) for v in states.values()) if sized else sum(states.values())

@@ -9,6 +9,7 @@ Every expected number below is worked out by hand from that formula.
 
 from __future__ import annotations
 
+import itertools
 import math
 import random
 
@@ -176,3 +177,58 @@ def test_repeated_feature_names_are_rejected():
 def test_unknown_feature_in_a_subset_is_rejected(lab, subset):
     with pytest.raises(InputError, match="unknown feature 'nope'|out of range"):
         lab.cost(subset)
+
+
+def _random_cost_model(rng, n):
+    names = [f"f{i}" for i in range(n)]
+    cols = list(range(n))
+    rng.shuffle(cols)
+    prices = [0.0, 0.1, 0.2, 0.3, 1.0, 2.5]
+    panels, singles, i = {}, {}, 0
+    while i < n:
+        if rng.random() < 0.3 and i + 1 < n:
+            m = rng.randint(2, min(3, n - i))
+            panels[f"p{i}"] = (rng.choice(prices + [rng.random()]),
+                               [names[c] for c in cols[i:i + m]])
+            i += m
+        else:
+            singles[names[cols[i]]] = rng.choice(prices + [3 * rng.random()])
+            i += 1
+    return CostModel(names, singles, panels=panels)
+
+
+def test_allowed_subsets_match_brute_force_with_panels_and_limits():
+    # Reference: every subset tested one by one with is_feasible (the budget check the
+    # searches use); prices such as 0.1 + 0.2 against 0.3 probe the float tolerance.
+    import itertools
+    import random
+
+    rng = random.Random(0)
+    for _ in range(150):
+        n = rng.randint(1, 8)
+        cm = _random_cost_model(rng, n)
+        must = rng.sample(range(n), rng.choice([0, 0, 1, 2]) if n > 2 else 0)
+        never = [c for c in rng.sample(range(n), rng.choice([0, 1, 2]) if n > 3 else 0)
+                 if c not in must]
+        max_features = rng.choice([None, 1, 2, 3])
+        budget = rng.choice([None, 0.3, 0.6, 1.0, 3.0, 5 * rng.random(),
+                             cm.cost(rng.sample(range(n), min(n, 3)))])
+        empty = rng.random() < 0.3
+        brute = [
+            s for k in range(n + 1) for s in itertools.combinations(range(n), k)
+            if set(must) <= set(s) and not set(never) & set(s)
+            and (max_features is None or len(s) <= max_features)
+            and cm.is_feasible(s, budget) and (s or empty)
+        ]
+        allowed = cm.allowed(budget, must_include=must, never_include=never,
+                             max_features=max_features, include_empty=empty)
+        assert list(allowed) == brute
+        assert allowed.count() == len(brute)
+        assert allowed.count(limit=2) == min(len(brute), 3)
+
+
+def test_allowed_subsets_counts_large_problems_without_listing():
+    cm = CostModel.uniform([f"x{i}" for i in range(40)])
+    # sum_{k=1..10} C(40, k) (computed with math.comb)
+    assert cm.allowed(10).count() == sum(math.comb(40, k) for k in range(1, 11))
+    assert cm.allowed(None).count(limit=1000) == 1001

@@ -130,10 +130,17 @@ def test_exhaustive_equals_brute_force():
     assert res.n_evaluations == len(brute)
 
 
-def test_exhaustive_refuses_too_many_candidates():
+def test_exhaustive_refuses_too_many_subsets():
     ev = CriterionEvaluator(len, 18, _names(18))
+    # 2^18 - 1 = 262,143 non-empty subsets (computed), above a limit of 100,000.
+    with pytest.raises(InputError, match=r"262,143 allowed subsets.*max_subsets=100,000"):
+        run_search(ev, "exhaustive", max_subsets=100_000)
     with pytest.raises(InputError, match=r"18 candidate features.*max_candidates=16"):
-        run_search(ev, "exhaustive")
+        run_search(ev, "exhaustive", max_candidates=16)
+    # A budget makes the same 18 candidates affordable: C(18,1) + C(18,2) = 171 subsets.
+    res = run_search(ev, "exhaustive", budget=2, max_subsets=200)
+    assert res.n_evaluations == 171
+    assert res.stop_reason == "optimum over all 171 allowed subsets"
     # never_include narrows the candidates below the limit: allowed.
     space = SearchSpace(ev, CostModel.uniform(_names(18)), never_include=range(4),
                         max_features=1)

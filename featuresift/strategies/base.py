@@ -81,7 +81,7 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from featuresift.costs import CostModel
+from featuresift.costs import AllowedSubsets, CostModel
 from featuresift.engine.evaluator import BaseEvaluator, normalise_subset
 from featuresift.engine.records import COMPLETE, Evaluation
 from featuresift.errors import InputError
@@ -105,7 +105,7 @@ class StopSearch(Exception):
     Examples
     --------
     >>> from featuresift.engine.evaluator import CriterionEvaluator
-    >>> from featuresift.costs import CostModel
+    >>> from featuresift.costs import AllowedSubsets, CostModel
     >>> ev = CriterionEvaluator(len, n_features=3)
     >>> space = SearchSpace(ev, CostModel.uniform("abc"), max_evaluations=1)
     >>> _ = space.evaluate([[0]])
@@ -132,7 +132,7 @@ class Scored:
     Examples
     --------
     >>> from featuresift.engine.evaluator import CriterionEvaluator
-    >>> from featuresift.costs import CostModel
+    >>> from featuresift.costs import AllowedSubsets, CostModel
     >>> ev = CriterionEvaluator(lambda s: float(sum(s)), n_features=3)
     >>> space = SearchSpace(ev, CostModel.uniform("abc"))
     >>> sc = space.evaluate([[0, 2]])[0]
@@ -195,7 +195,7 @@ class PathStep:
     Examples
     --------
     >>> from featuresift.engine.evaluator import CriterionEvaluator
-    >>> from featuresift.costs import CostModel
+    >>> from featuresift.costs import AllowedSubsets, CostModel
     >>> cm = CostModel(["ph", "ash"], {"ph": 1.0, "ash": 3.0})
     >>> space = SearchSpace(CriterionEvaluator(len, 2), cm)
     >>> step = space.record("add", [0, 1], feature=1)
@@ -243,7 +243,7 @@ class SearchSpace:
     Column ``c`` alone is over budget and ``a`` is excluded, so only ``b`` can start:
 
     >>> from featuresift.engine.evaluator import CriterionEvaluator
-    >>> from featuresift.costs import CostModel
+    >>> from featuresift.costs import AllowedSubsets, CostModel
     >>> cm = CostModel(["a", "b", "c"], {"a": 1.0, "b": 2.0, "c": 4.0})
     >>> space = SearchSpace(CriterionEvaluator(len, 3), cm, budget=3.0, never_include=[0])
     >>> space.addable([]), space.within_budget([1, 2])
@@ -332,6 +332,25 @@ class SearchSpace:
             and self.within_budget(s)
         )
 
+    def allowed_subsets(self, include_empty: bool = False) -> AllowedSubsets:
+        """Every allowed subset, counted exactly or listed (see :meth:`CostModel.allowed`).
+
+        ``.count(limit=None)`` gives their number without listing them; iterating lists
+        them by size, then column order. The empty subset is left out unless
+        ``include_empty`` (it is the "nothing" reference, not a choice of measurements).
+
+        Examples
+        --------
+        >>> from featuresift.engine.evaluator import CriterionEvaluator
+        >>> cm = CostModel(["a", "b", "c"], {"a": 1.0, "b": 2.0, "c": 4.0})
+        >>> space = SearchSpace(CriterionEvaluator(len, 3), cm, budget=3.0)
+        >>> space.allowed_subsets().count(), list(space.allowed_subsets())
+        (3, [(0,), (1,), (0, 1)])
+        """
+        return self.cost_model.allowed(
+            self.budget, must_include=self.must_include, never_include=self.never_include,
+            max_features=self.max_features, include_empty=include_empty)
+
     def addable(self, subset: Iterable[int]) -> list[int]:
         """Features that can be added to ``subset`` keeping it allowed, in column order.
 
@@ -380,7 +399,7 @@ class SearchSpace:
         Examples
         --------
         >>> from featuresift.engine.evaluator import CriterionEvaluator
-        >>> from featuresift.costs import CostModel
+        >>> from featuresift.costs import AllowedSubsets, CostModel
         >>> space = SearchSpace(CriterionEvaluator(len, 4), CostModel.uniform("abcd"),
         ...                     budget=2, random_state=1)
         >>> s = space.sample_allowed(0.9)
