@@ -291,8 +291,8 @@ class CostModel:
         >>> cm = CostModel(["a", "b", "c", "d"], {"a": 1.0, "b": 2.0},
         ...                panels={"lab": (3.0, ["c", "d"])})
         >>> allowed = cm.allowed(4.0)
-        >>> allowed.count()
-        8
+        >>> allowed.count()     # a, b, c, d, ab, ac, ad, cd, acd (worked by hand)
+        9
         >>> [tuple(cm.feature_names[i] for i in s) for s in allowed][:5]
         [('a',), ('b',), ('c',), ('d',), ('a', 'b')]
         >>> cm.allowed(4.0, must_include=["c"]).count()   # the panel is paid: d is free

@@ -200,9 +200,6 @@ def _random_cost_model(rng, n):
 def test_allowed_subsets_match_brute_force_with_panels_and_limits():
     # Reference: every subset tested one by one with is_feasible (the budget check the
     # searches use); prices such as 0.1 + 0.2 against 0.3 probe the float tolerance.
-    import itertools
-    import random
-
     rng = random.Random(0)
     for _ in range(150):
         n = rng.randint(1, 8)
