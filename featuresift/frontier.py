@@ -2,18 +2,39 @@
 
 :func:`budget_sweep` runs one search per budget on a **shared evaluator**, so a subset
 scored for one budget is never fitted again for another. The resulting
-:class:`Frontier` lists, for each budget, the chosen measurements, their cost and CV
-score, and marks the cost-efficient points (no other point is at most as expensive
-and strictly better, or cheaper and at least as good).
+:class:`Frontier` lists, for each budget, the chosen measurements, their cost and their
+**in-search** CV score (the search's own estimate, optimistic), marks the cost-efficient
+points, and answers the question a sweep is run for:
+
+* the **headline pick**: the pick rule (the run's ``pick``) applied to the sweep's
+  points that fit the run's own budget — with ``one_se``, the cheapest point whose score
+  is within one standard error of the best affordable point;
+* the **unconstrained best**: the highest in-search score at any budget, shown apart;
+* how often each measurement was chosen across budgets (:meth:`Frontier.choice_frequency`);
+* optionally, the **nested** (honest) estimate of the search at the headline's budget.
+
+Efficiency, exactly
+    A point is *efficient* when its score is finite, it is strictly better than every
+    point of strictly lower cost, and at least as good as every point of the same cost;
+    among points of the same cost and the same score only the first in budget order is
+    marked (several budgets that choose the same subset count once). Costs are equal
+    when they differ by at most 1e-9 (panel sums in floating point); scores are compared
+    exactly.
+
+Default budgets
+    Round money values of the 1-2-5 series (1, 2, 5, 10, 20, 50 ... in the cost unit)
+    from the cheapest priced measurement or panel up to, not including, the price of
+    everything, thinned evenly to at most ``n - 1`` values, then unlimited.
 """
 
 from __future__ import annotations
 
+import inspect
 import json
 import math
 import os
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -26,41 +47,111 @@ from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult
 from featuresift.search import prepare_for_objective, run_search
 
-__all__ = ["Frontier", "budget_sweep", "default_budgets"]
+__all__ = ["Frontier", "budget_sweep", "default_budgets", "round_budgets", "efficient_points"]
 
 _ENGINE_OPTIONS = ("racing", "journal", "chunk_size", "verbose", "on_fit_error",
                    "share_preprocessing")
+_COST_TOL = 1e-9
+SCORE_KIND = "in-search"
+"""What the sweep's scores are: the search's own CV estimates (optimistic)."""
+
+
+def round_budgets(low: float, high: float) -> list[float]:
+    """Values of the 1-2-5 series with ``low <= v < high``.
+
+    Examples
+    --------
+    >>> round_budgets(0.8, 60)
+    [1.0, 2.0, 5.0, 10.0, 20.0, 50.0]
+    """
+    if not (math.isfinite(low) and math.isfinite(high)) or low <= 0 or high <= low:
+        return []
+    out = []
+    for d in range(math.floor(math.log10(low)), math.ceil(math.log10(high)) + 1):
+        for m in (1, 2, 5):
+            v = float(f"{m}e{d}")
+            if low * (1 - 1e-12) <= v < high:
+                out.append(v)
+    return out
 
 
 def default_budgets(cost_model: CostModel, n: int = 8) -> list[float | None]:
-    """Evenly spaced budgets from the cheapest single measurement to the full cost.
+    """Round budgets (1-2-5 series) from the cheapest priced item to the full cost.
 
-    The last entry is None (unlimited). Duplicates are removed.
+    At most ``n - 1`` round values from :func:`round_budgets` between the cheapest
+    positive price of a measurement or panel and the price of every candidate (thinned
+    evenly, keeping the smallest and the largest), then None (unlimited).
 
     Examples
     --------
     >>> cm = CostModel(["a", "b", "c"], {"a": 1.0, "b": 2.0, "c": 7.0})
     >>> default_budgets(cm, n=4)
-    [1.0, 4.0, 7.0, None]
+    [1.0, 2.0, 5.0, None]
+    >>> grain = CostModel(["m", "p", "d"], {"m": 0.0, "p": 6.0, "d": 12.5})
+    >>> default_budgets(grain)
+    [10.0, None]
     """
-    if n < 2:
-        raise InputError("a sweep needs at least 2 budgets")
-    lo = cost_model.cheapest_feature_cost()
-    hi = cost_model.cost(range(cost_model.n_features))
-    values = sorted({round(float(v), 10) for v in np.linspace(lo, hi, n)[:-1]})
+    if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 2:
+        raise InputError(f"a sweep needs at least 2 budgets, got {n!r}")
+    items = [cost_model.cost([c]) for c in range(cost_model.n_features)]
+    priced = [c for c in items if c > 0]
+    if not priced:
+        return [None]
+    values = round_budgets(min(priced), cost_model.cost(range(cost_model.n_features)))
+    if len(values) > n - 1:
+        keep = sorted({int(i) for i in np.round(np.linspace(0, len(values) - 1, n - 1))})
+        values = [values[i] for i in keep]
     return [*values, None]
 
 
-def _efficient(costs: Sequence[float], scores: Sequence[float]) -> list[bool]:
+def efficient_points(costs: Sequence[float], scores: Sequence[float]) -> list[bool]:
+    """Flag the non-dominated points (see the module docstring for the exact rule).
+
+    Examples
+    --------
+    Four budgets choosing the same subset are one efficient point:
+
+    >>> efficient_points([1.0, 3.0, 3.0, 3.0, 3.0], [0.7, 0.8, 0.8, 0.8, 0.8])
+    [True, True, False, False, False]
+    """
     out = []
     for i, (c, s) in enumerate(zip(costs, scores)):
-        dominated = any(
-            (c2 <= c and s2 > s) or (c2 < c and s2 >= s)
-            for j, (c2, s2) in enumerate(zip(costs, scores))
-            if j != i
-        )
-        out.append(not dominated and math.isfinite(s))
+        ok = math.isfinite(s)
+        for j, (c2, s2) in enumerate(zip(costs, scores)):
+            if not ok:
+                break
+            if j == i or not math.isfinite(s2):
+                continue
+            same = abs(c2 - c) <= _COST_TOL * max(1.0, abs(c))
+            if (c2 < c and not same and s2 >= s) or (same and (s2 > s or (s2 == s and j < i))):
+                ok = False
+        out.append(ok)
     return out
+
+
+_efficient = efficient_points  # older private name
+
+
+def _sem(r: SearchResult) -> float:
+    n = len(r.fold_scores)
+    return r.score_std / math.sqrt(n) if n > 1 and math.isfinite(r.score_std) else 0.0
+
+
+def _default_pick() -> str:
+    return inspect.signature(run_search).parameters["pick"].default
+
+
+def _pick_index(points: list[tuple[int, float, float, float, int]], rule: str) -> int | None:
+    """Index chosen by ``rule`` among (index, cost, mean, sem, size) points."""
+    ok = [p for p in points if math.isfinite(p[2])]
+    if not ok:
+        return None
+    best = max(ok, key=lambda p: (p[2], -p[1], -p[4], -p[0]))
+    if rule == "best":
+        return best[0]
+    # one_se (Breiman et al. 1984): cheapest point within one SE of the best.
+    close = [p for p in ok if p[2] >= best[2] - best[3]]
+    return min(close, key=lambda p: (round(p[1], 9), -p[2], p[4], p[0]))[0]
 
 
 @dataclass
@@ -79,6 +170,12 @@ class Frontier:
         Model fits for the whole sweep (shared cache).
     n_fits_without_cache : int
         Fits the same searches would have needed with no sharing between budgets.
+    budget : float or None
+        The run's own budget: the headline pick must fit it (None: unlimited).
+    pick : str
+        Pick rule of the headline ("best" or "one_se").
+    nested : NestedEvaluation or None
+        Nested estimate of the search at the headline's budget, when asked for.
 
     Examples
     --------
@@ -87,13 +184,13 @@ class Frontier:
     >>> X, y = load_wine(return_X_y=True)
     >>> costs = CostModel.uniform(["alcohol", "malic", "ash", "alkalinity"], unit="EUR")
     >>> problem = SelectionProblem(X[:, :4], y, GaussianNB(), cost_model=costs, cv=3)
-    >>> fr = budget_sweep(problem, [1, 2], "forward")
+    >>> fr = budget_sweep(problem, [1, 2], "forward", pick="best")
     >>> fr.budgets, [r.selected for r in fr.results], fr.cost_unit
     ([1, 2], [['alcohol'], ['alcohol', 'alkalinity']], 'EUR')
     >>> fr.n_fits, fr.n_fits_without_cache  # the second search reuses the first one's fits
     (21, 33)
-    >>> fr.to_frame()["cost"].tolist()
-    [1.0, 2.0]
+    >>> fr.to_frame()["cost"].tolist(), fr.headline_index, fr.best_index
+    ([1.0, 2.0], 1, 1)
     """
 
     budgets: list[float | None]
@@ -102,26 +199,93 @@ class Frontier:
     scoring: str
     n_fits: int
     n_fits_without_cache: int
+    budget: float | None = None
+    pick: str = "best"
+    nested: Any = field(default=None, repr=False)
 
+    # -------------------------------------------------------------- the answer
+    def _points(self, within_budget: bool) -> list[tuple[int, float, float, float, int]]:
+        cap = self.budget
+        return [
+            (i, r.cost, r.score_mean, _sem(r), len(r.selected))
+            for i, r in enumerate(self.results)
+            if not within_budget or cap is None or r.cost <= cap + _COST_TOL * max(1.0, cap)
+        ]
+
+    @property
+    def headline_index(self) -> int | None:
+        """Index of the headline point: the pick rule within :attr:`budget`."""
+        return _pick_index(self._points(True), self.pick)
+
+    @property
+    def best_index(self) -> int | None:
+        """Index of the highest in-search score at any budget (ties: cheaper)."""
+        return _pick_index(self._points(False), "best")
+
+    @property
+    def headline(self) -> SearchResult | None:
+        """The headline :class:`SearchResult` (None when no point fits the budget)."""
+        i = self.headline_index
+        return None if i is None else self.results[i]
+
+    def choice_frequency(self):
+        """How often each measurement was chosen across the sweep's budgets.
+
+        Returns
+        -------
+        pandas.DataFrame
+            One row per measurement chosen at least once: ``feature``, ``n_budgets``
+            (points that chose it), ``share`` (of all points), ``first_budget`` (the
+            smallest budget that chose it; NaN = unlimited), ``in_headline``. Sorted by
+            share, then first budget.
+        """
+        import pandas as pd
+
+        head = self.headline
+        rows: dict[str, dict[str, Any]] = {}
+        order = sorted(range(len(self.budgets)),
+                       key=lambda i: math.inf if self.budgets[i] is None else self.budgets[i])
+        for i in order:
+            for name in self.results[i].selected:
+                row = rows.setdefault(name, {
+                    "feature": name, "n_budgets": 0,
+                    "first_budget": np.nan if self.budgets[i] is None else self.budgets[i],
+                    "in_headline": head is not None and name in head.selected,
+                })
+                row["n_budgets"] += 1
+        frame = pd.DataFrame(list(rows.values()),
+                             columns=["feature", "n_budgets", "first_budget", "in_headline"])
+        frame.insert(2, "share", frame["n_budgets"] / max(len(self.results), 1))
+        return frame.sort_values(["share", "first_budget"], ascending=[False, True],
+                                 na_position="last", kind="stable").reset_index(drop=True)
+
+    # -------------------------------------------------------------- tables
     def to_frame(self):
-        """One row per budget: budget, chosen features, cost, score, efficiency flag."""
+        """One row per budget: budget, chosen features, cost, in-search score, flags.
+
+        ``efficient`` follows :func:`efficient_points`; ``headline`` marks the pick within
+        the run's budget and ``best`` the highest score at any budget.
+        """
         import pandas as pd
 
         costs = [r.cost for r in self.results]
         scores = [r.score_mean for r in self.results]
-        eff = _efficient(costs, scores)
+        eff = efficient_points(costs, scores)
+        head, best = self.headline_index, self.best_index
         rows = []
-        for b, r, e in zip(self.budgets, self.results, eff):
-            n_folds = len(r.fold_scores)
+        for i, (b, r, e) in enumerate(zip(self.budgets, self.results, eff)):
             rows.append({
                 "budget": np.nan if b is None else b,
                 "n_selected": len(r.selected),
                 "selected": " + ".join(r.selected),
                 "cost": r.cost,
+                "score_kind": SCORE_KIND,
                 "score_mean": r.score_mean,
                 "score_std": r.score_std,
-                "score_sem": r.score_std / math.sqrt(n_folds) if n_folds > 1 else 0.0,
+                "score_sem": _sem(r),
                 "efficient": e,
+                "headline": i == head,
+                "best": i == best,
                 "n_evaluations": r.n_evaluations,
             })
         return pd.DataFrame(rows)
@@ -129,9 +293,16 @@ class Frontier:
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready description of the sweep."""
         frame = self.to_frame()
+        head, best = self.headline_index, self.best_index
+        choices = self.choice_frequency()
         return {
             "cost_unit": self.cost_unit,
             "scoring": self.scoring,
+            "score_kind": SCORE_KIND,
+            "budget": self.budget,
+            "pick": self.pick,
+            "headline": head,
+            "best": best,
             "n_fits": self.n_fits,
             "n_fits_without_cache": self.n_fits_without_cache,
             "points": [
@@ -141,16 +312,100 @@ class Frontier:
                     "cost": r.cost,
                     "score_mean": r.score_mean,
                     "score_std": r.score_std,
+                    "score_sem": _sem(r),
                     "efficient": bool(e),
                 }
                 for b, r, e in zip(self.budgets, self.results, frame["efficient"])
             ],
+            "choice_frequency": [
+                {"feature": row.feature, "n_budgets": int(row.n_budgets),
+                 "share": float(row.share),
+                 "first_budget": None if math.isnan(row.first_budget)
+                 else float(row.first_budget),
+                 "in_headline": bool(row.in_headline)}
+                for row in choices.itertuples()
+            ],
+            "nested": None if self.nested is None else {
+                "budget": self.results[head].budget if head is not None else None,
+                **self.nested.to_dict(),
+            },
         }
 
-    def plot(self, ax=None):
-        """Draw score against cost (error bars: one standard error); returns the axes.
+    def _describe(self, i: int | None) -> str:
+        if i is None:
+            return "no point fits the budget"
+        r = self.results[i]
+        b = "unlimited" if self.budgets[i] is None else f"{self.budgets[i]:g}"
+        what = " + ".join(r.selected) if r.selected else "no measurement"
+        return (f"budget {b}: {what} — cost {r.cost:g} {self.cost_unit}, {SCORE_KIND} "
+                f"{self.scoring} {r.score_mean:.4f} ± {_sem(r):.4f} (s.e.)")
 
-        Requires matplotlib.
+    def answer_lines(self) -> list[str]:
+        """Plain-text lines: the headline pick, the unconstrained best, the nested score."""
+        cap = "unlimited" if self.budget is None else f"{self.budget:g} {self.cost_unit}"
+        lines = [f"Headline (pick rule {self.pick}, within the budget {cap}): "
+                 + self._describe(self.headline_index)]
+        if self.best_index != self.headline_index:
+            lines.append("Highest in-search score at any budget (unconstrained, not the "
+                         "answer): " + self._describe(self.best_index))
+        if self.nested is not None:
+            ne = self.nested
+            ci = "" if ne.ci is None else (
+                f", {ne.confidence:.0%} CI [{ne.ci[0]:.4f}, {ne.ci[1]:.4f}]")
+            lines.append(f"Nested {self.scoring} of the search at the headline's budget "
+                         f"({ne.design}): {ne.outer_mean:.4f}{ci}; optimism of the "
+                         f"in-search score {ne.optimism:+.4f}")
+        return lines
+
+    def to_markdown(self) -> list[str]:
+        """Lines of the report section on the sweep."""
+        u = self.cost_unit
+        frame = self.to_frame()
+
+        def cell(v: float, digits: int) -> str:
+            return "—" if not math.isfinite(v) else f"{v:.{digits}f}"
+
+        lines = [
+            "## Accuracy against cost across budgets",
+            "",
+            f"Scores are **{SCORE_KIND}** estimates (each search's own cross-validation of "
+            "its choice: optimistic, since the search chose the subset on those folds).",
+            "",
+            *[f"- {s}" for s in self.answer_lines()],
+            "",
+            f"| budget | measurements | cost ({u}) | {SCORE_KIND} {self.scoring} | ± s.e. "
+            "| efficient | pick |",
+            "|---|---|---|---|---|---|---|",
+        ]
+        for r in frame.itertuples():
+            mark = "headline" if r.headline else ("best, over budget" if r.best else "")
+            lines.append(
+                f"| {'unlimited' if math.isnan(r.budget) else f'{r.budget:g}'} | "
+                f"{r.selected or '(nothing)'} | {cell(r.cost, 2)} | {cell(r.score_mean, 4)} | "
+                f"{cell(r.score_sem, 4)} | {'yes' if r.efficient else ''} | {mark} |"
+            )
+        choices = self.choice_frequency()
+        lines += ["", "How often each measurement was chosen across the budgets:", "",
+                  "| measurement | budgets choosing it | share | first chosen at budget |",
+                  "|---|---|---|---|"]
+        for r in choices.itertuples():
+            first = "unlimited" if math.isnan(r.first_budget) else f"{r.first_budget:g}"
+            lines.append(f"| {r.feature} | {r.n_budgets} | {r.share:.2f} | {first} |")
+        lines += [
+            "",
+            f"The sweep used {self.n_fits} model fits; without sharing evaluations between "
+            f"budgets it would have needed {self.n_fits_without_cache}.",
+            "",
+            "![accuracy against cost](frontier.png)",
+        ]
+        return lines
+
+    # -------------------------------------------------------------- plot and files
+    def plot(self, ax=None):
+        """Draw in-search score against cost (error bars: one standard error).
+
+        The headline pick and, if different, the unconstrained best are marked; the run's
+        budget is a dotted vertical line. Requires matplotlib. Returns the axes.
         """
         import matplotlib
 
@@ -163,7 +418,8 @@ class Frontier:
         eff = frame[frame["efficient"]].sort_values("cost")
         ax.errorbar(
             frame["cost"], frame["score_mean"], yerr=frame["score_sem"], fmt="o",
-            color="0.55", ecolor="0.75", capsize=3, label="chosen subset per budget",
+            color="0.55", ecolor="0.75", capsize=3,
+            label="chosen subset per budget (± 1 s.e.)",
         )
         ax.step(eff["cost"], eff["score_mean"], where="post", color="tab:green",
                 label="cost-efficient choices")
@@ -171,21 +427,37 @@ class Frontier:
         for _, row in eff.iterrows():
             ax.annotate(f"{int(row['n_selected'])}", (row["cost"], row["score_mean"]),
                         textcoords="offset points", xytext=(4, -12), fontsize=8)
+        head, best = self.headline_index, self.best_index
+        if head is not None:
+            r = frame.iloc[head]
+            ax.plot([r["cost"]], [r["score_mean"]], "*", ms=14, color="tab:blue", zorder=5,
+                    label=f"headline pick ({self.pick})")
+        if best is not None and best != head:
+            r = frame.iloc[best]
+            ax.plot([r["cost"]], [r["score_mean"]], "s", ms=9, mfc="none", color="tab:red",
+                    zorder=5, label="best at any budget")
+        if self.budget is not None:
+            ax.axvline(self.budget, ls=":", color="0.4", label="budget of the run")
         ax.set_xlabel(f"acquisition cost per sample ({self.cost_unit})")
-        ax.set_ylabel(f"cross-validated {self.scoring}")
-        ax.set_title("Accuracy against measurement cost (numbers: measurements chosen)")
+        ax.set_ylabel(f"{SCORE_KIND} {self.scoring}")
+        ax.set_title(f"Accuracy against measurement cost ({SCORE_KIND} scores, optimistic;\n"
+                     "numbers: measurements chosen)", fontsize=10)
         ax.grid(alpha=0.3)
-        ax.legend(loc="lower right", fontsize=8)
+        ax.legend(loc="lower right", fontsize=7)
         return ax
 
     def write(self, folder: str | os.PathLike, plot: bool = True) -> list[Path]:
-        """Write ``frontier.csv``, ``frontier.json`` and (if matplotlib) ``frontier.png``."""
+        """Write ``frontier.csv``, ``frontier_choices.csv``, ``frontier.json`` and (if
+        matplotlib) ``frontier.png``."""
         out = Path(folder)
         out.mkdir(parents=True, exist_ok=True)
         written = []
         csv_path = out / "frontier.csv"
         self.to_frame().to_csv(csv_path, index=False)
         written.append(csv_path)
+        choices_path = out / "frontier_choices.csv"
+        self.choice_frequency().to_csv(choices_path, index=False)
+        written.append(choices_path)
         json_path = out / "frontier.json"
         json_path.write_text(json.dumps(self.to_dict(), indent=2) + "\n", encoding="utf-8")
         written.append(json_path)
@@ -208,6 +480,9 @@ def budget_sweep(
     budgets: Sequence[float | None] | int = 8,
     strategy: str | dict = "forward",
     *,
+    budget: float | None = None,
+    nested: int | None = None,
+    n_repeats: int = 1,
     n_jobs: int | None = None,
     evaluator: BaseEvaluator | None = None,
     **search_options: Any,
@@ -219,10 +494,20 @@ def budget_sweep(
     problem : SelectionProblem
         Data, model, costs, CV splits and scorer.
     budgets : sequence of float or None, or int, default=8
-        Budgets to search (None: unlimited), or a number of evenly spaced budgets
+        Budgets to search (None: unlimited), or at most that many round budgets
         (see :func:`default_budgets`).
     strategy : str or dict, default="forward"
         Strategy name or spec, as for :func:`featuresift.run_search`.
+    budget : float, optional
+        The run's own budget: the headline pick is chosen among the points that fit it
+        (default: unlimited).
+    nested : int, optional
+        K: also compute the nested estimate of the search at the headline's budget
+        (:func:`featuresift.nested.nested_evaluation` with K outer folds, the problem's
+        number of CV folds inside). Its caveat: the choice of that budget from the sweep
+        is not itself nested.
+    n_repeats : int, default=1
+        R repeats of the K outer folds of ``nested``.
     n_jobs : int, optional
         Parallel fits.
     evaluator : BaseEvaluator, optional
@@ -230,7 +515,8 @@ def budget_sweep(
         with the engine options found in ``search_options`` (``racing``, ``journal``,
         ``chunk_size``, ``verbose``, ``on_fit_error``, ``share_preprocessing``).
     **search_options
-        Passed to :func:`featuresift.run_search` (objective, limits, strategy options...).
+        Passed to :func:`featuresift.run_search` (objective, pick, limits, strategy
+        options...).
 
     Examples
     --------
@@ -239,16 +525,20 @@ def budget_sweep(
     >>> X, y = load_iris(return_X_y=True)
     >>> cm = CostModel(["a", "b", "c", "d"], {"a": 1, "b": 1, "c": 5, "d": 5})
     >>> p = SelectionProblem(X, y, GaussianNB(), cost_model=cm, cv=3)
-    >>> fr = budget_sweep(p, [1, 6, None])
-    >>> [r.cost <= 6 for r in fr.results[:2]]
-    [True, True]
+    >>> fr = budget_sweep(p, [1, 6, None], budget=6)
+    >>> [r.cost <= 6 for r in fr.results[:2]], fr.headline.cost <= 6
+    ([True, True], True)
     """
     if isinstance(budgets, int) and not isinstance(budgets, bool):
         budgets = default_budgets(problem.cost_model, budgets)
     budgets = list(budgets)
     if not budgets:
         raise InputError("a sweep needs at least one budget")
+    if nested is not None and (isinstance(nested, bool) or not isinstance(nested, int)
+                               or nested < 2):
+        raise InputError(f"nested needs at least 2 outer folds, got {nested!r}")
     engine = {k: search_options.pop(k) for k in _ENGINE_OPTIONS if k in search_options}
+    original, objective_spec = problem, search_options.get("objective")
     if evaluator is None:
         # An objective with its own scorer (expected cost) must score the sweep too.
         problem, search_options["objective"] = prepare_for_objective(
@@ -268,11 +558,30 @@ def budget_sweep(
     scoring = problem.scoring if isinstance(problem.scoring, str) else "score"
     for r in results:
         r.scoring = scoring
-    return Frontier(
+    frontier = Frontier(
         budgets=budgets,
         results=results,
         cost_unit=problem.cost_model.unit,
         scoring=scoring,
         n_fits=shared.n_fits - fits_before,
         n_fits_without_cache=without_cache,
+        budget=budget,
+        pick=search_options.get("pick", _default_pick()),
     )
+    head = frontier.headline_index
+    if nested is not None and head is not None:
+        from featuresift.nested import nested_evaluation
+
+        opts = {**search_options, "objective": objective_spec}
+        # The inner CV of each outer search: the problem's splitter, re-split on the
+        # outer training rows (fixed index lists cannot be, so they become K-fold).
+        fixed = getattr(original.cv, "cv", None) is not None  # sklearn's wrapper of a list
+        inner = len(original.splits) if fixed else original.cv
+        frontier.nested = nested_evaluation(
+            original.X, original.y, original.estimator, cost_model=original.cost_model,
+            outer_cv=nested, n_repeats=n_repeats, inner_cv=inner,
+            scoring=original.scoring, groups=original.groups,
+            feature_names=original.feature_names, strategy=strategy, n_jobs=n_jobs,
+            budget=budgets[head], **opts,
+        )
+    return frontier

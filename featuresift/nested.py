@@ -2,24 +2,43 @@
 
 The CV score a search reports for its chosen subset is the very number the search
 maximised, so it is optimistically biased (Kohavi & John 1997; Ambroise & McLachlan
-2002). :func:`nested_evaluation` re-runs the *whole* search inside each outer
-training fold — inner CV, budget and all — then fits the model on the chosen
-measurements and scores it on the outer test fold, which the search never saw.
+2002): it is the **in-search** estimate. :func:`nested_evaluation` re-runs the *whole*
+search inside each outer training fold — inner CV, budget and all — then fits the model
+on the chosen measurements and scores it on the outer test fold, which the search never
+saw: the **nested** estimate.
 
-It also reports how stable the choice is across outer folds (selection frequency
-per measurement and the Nogueira stability index).
+Outer folds can be repeated (``n_repeats`` R times ``outer_cv`` K folds, each repeat
+with its own shuffle), which steadies the estimate and the choice frequencies. The
+nested score comes with a confidence interval, the corrected resampled t interval of
+Nadeau & Bengio (2003), in the repeated k-fold form of Bouckaert & Frank (2004)::
+
+    mean ± t(1 - (1 - confidence) / 2, n - 1) * sqrt((1 / n + n_test / n_train) * s²)
+
+over the ``n = R * K`` outer scores with sample variance ``s²``. Outer scores are not
+independent (training sets overlap, and every repeat reuses the same rows), so the plain
+t interval ``s / sqrt(n)`` is far too narrow and shrinks with R for no new data; the
+``n_test / n_train`` term widens it for that overlap. It remains an approximation: no
+unbiased estimator of the variance of k-fold CV exists (Bengio & Grandvalet 2004), and
+it does not cover the variation from drawing a new data set of the same size.
+
+It also reports how often each measurement was chosen across the outer searches and how
+stable the choice is (Nogueira, Sechidis & Brown 2018).
 """
 
 from __future__ import annotations
 
+import copy
+import inspect
 import math
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
+from scipy import stats
 from sklearn.base import clone, is_classifier
+from sklearn.dummy import DummyClassifier, DummyRegressor
 from sklearn.metrics import check_scoring
-from sklearn.model_selection import check_cv
+from sklearn.model_selection import GroupKFold, KFold, StratifiedKFold, check_cv
 
 from featuresift.costs import CostModel
 from featuresift.errors import InputError
@@ -28,7 +47,116 @@ from featuresift.result import SearchResult
 from featuresift.search import run_search
 from featuresift.stability import nogueira_stability
 
-__all__ = ["NestedEvaluation", "nested_evaluation"]
+__all__ = ["NestedEvaluation", "nested_evaluation", "corrected_t_interval", "outer_splitter",
+           "NOTHING_LABEL"]
+
+NOTHING_LABEL = "(nothing)"
+"""How an outer search that answered with no measurement is shown in answer counts."""
+
+# The search driver's name for its seed ("seed"; "random_state" in older versions).
+_SEED_NAME = "seed" if "seed" in inspect.signature(run_search).parameters else "random_state"
+
+CI_METHOD = "corrected resampled t (Nadeau & Bengio 2003)"
+
+
+def corrected_t_interval(
+    scores: Any, test_train_ratio: float, confidence: float = 0.95
+) -> tuple[float, float] | None:
+    """Corrected resampled t interval for the mean of (repeated) cross-validation scores.
+
+    ``mean ± t(1 - (1 - confidence) / 2, n - 1) * sqrt((1/n + test_train_ratio) * s²)``
+    (Nadeau & Bengio 2003; Bouckaert & Frank 2004 for repeated k-fold), where ``s²`` is
+    the sample variance of the ``n`` scores and ``test_train_ratio`` the mean ratio of
+    test to training rows of the splits. The extra term accounts, approximately, for the
+    dependence between scores whose training sets overlap.
+
+    Parameters
+    ----------
+    scores : array-like of float
+        One score per outer split (all repeats).
+    test_train_ratio : float
+        Mean ``n_test / n_train`` of those splits (``1 / (K - 1)`` for K-fold).
+    confidence : float, default=0.95
+
+    Returns
+    -------
+    (low, high) or None
+        None with fewer than two finite scores.
+
+    Examples
+    --------
+    >>> lo, hi = corrected_t_interval([0.80, 0.84, 0.78, 0.82, 0.81], 1 / 4)
+    >>> round(lo, 4), round(hi, 4)
+    (0.7684, 0.8516)
+    """
+    if not 0 < confidence < 1:
+        raise InputError(f"confidence must lie strictly between 0 and 1, got {confidence!r}")
+    s = np.asarray(scores, dtype=float)
+    s = s[np.isfinite(s)]
+    n = s.size
+    if n < 2:
+        return None
+    mean = float(s.mean())
+    se = math.sqrt((1.0 / n + float(test_train_ratio)) * float(s.var(ddof=1)))
+    half = float(stats.t.ppf(0.5 + confidence / 2, n - 1)) * se
+    return mean - half, mean + half
+
+
+def outer_splitter(
+    n_splits: int, *, stratified: bool, grouped: bool = False, seed: int | None = 0
+) -> Any:
+    """The shuffled outer K-fold splitter used for an integer ``outer_cv``.
+
+    Grouped data get :class:`~sklearn.model_selection.GroupKFold` (shuffled groups),
+    classification :class:`~sklearn.model_selection.StratifiedKFold`, otherwise
+    :class:`~sklearn.model_selection.KFold`; all shuffled with ``seed``. Repeat r of a
+    repeated nested evaluation uses ``seed + r``.
+
+    Examples
+    --------
+    >>> outer_splitter(5, stratified=True, seed=3)
+    StratifiedKFold(n_splits=5, random_state=3, shuffle=True)
+    """
+    if isinstance(n_splits, bool) or not isinstance(n_splits, (int, np.integer)) \
+            or n_splits < 2:
+        raise InputError(f"nested evaluation needs at least 2 outer folds, got {n_splits!r}")
+    if grouped:
+        return GroupKFold(int(n_splits), shuffle=True, random_state=seed)
+    if stratified:
+        return StratifiedKFold(int(n_splits), shuffle=True, random_state=seed)
+    return KFold(int(n_splits), shuffle=True, random_state=seed)
+
+
+def _repeat_splitters(outer: Any, n_repeats: int) -> list[Any]:
+    """One splitter per repeat: the same splitter with seed + r."""
+    if n_repeats == 1:
+        return [outer]
+    rs = getattr(outer, "random_state", None)
+    if not getattr(outer, "shuffle", False) or not isinstance(rs, (int, np.integer)):
+        raise InputError(
+            f"n_repeats={n_repeats} needs an outer splitter that shuffles with an integer "
+            f"random_state (got {outer!r}); pass outer_cv as a number of folds instead"
+        )
+    out = []
+    for r in range(n_repeats):
+        s = copy.deepcopy(outer)
+        s.random_state = int(rs) + r
+        out.append(s)
+    return out
+
+
+def _fit_score(estimator, scorer, X_train, y_train, X_test, y_test, support, classification):
+    """Score on the test rows the model refitted on the training rows of ``support``.
+
+    No measurement: the prior-only model (class frequencies, or the mean).
+    """
+    if not support:
+        model = (DummyClassifier(strategy="prior") if classification
+                 else DummyRegressor(strategy="mean"))
+        fitted = model.fit(np.zeros((len(y_train), 1)), y_train)
+        return float(scorer(fitted, np.zeros((len(y_test), 1)), y_test))
+    model = clone(estimator).fit(X_train[:, support], y_train)
+    return float(scorer(model, X_test[:, support], y_test))
 
 
 @dataclass
@@ -38,26 +166,38 @@ class NestedEvaluation:
     Attributes
     ----------
     outer_scores : list of float
-        Score of the refitted model on each outer test fold.
+        Nested score: the refitted model on each outer test fold (all repeats, repeat
+        by repeat).
     inner_scores : list of float
-        The inner CV score the search reported for its choice in each outer fold
-        (optimistic; shown for comparison).
+        The in-search score (the search's own CV estimate of its choice) in each outer
+        fold; optimistic, shown for comparison.
     selected : list of list of str
-        The measurements chosen in each outer fold.
+        The measurements chosen in each outer fold (empty: buy nothing).
     costs : list of float
         Their acquisition costs.
     selection_frequency : dict of str to float
-        Share of outer folds that chose each measurement.
+        Share of outer searches that chose each measurement.
     stability : float or None
         Nogueira et al. (2018) stability of the choices (None when undefined,
-        e.g. every fold chose every feature).
+        e.g. every search chose nothing or every feature).
     cost_unit, scoring : str
     results : list of SearchResult
         Full search result of each outer fold.
+    repeats : list of int
+        Repeat index of each outer score (0 .. n_repeats - 1).
+    n_repeats, n_splits : int
+        R and K of the R x K outer splits.
+    confidence : float
+        Level of :attr:`ci`.
+    ci : tuple of float or None
+        Confidence interval of the nested score (:func:`corrected_t_interval`).
+    test_train_ratio : float
+        Mean ``n_test / n_train`` of the outer splits (used by the interval).
 
     Examples
     --------
-    Each outer fold searches under a budget of 2 EUR on its own training part:
+    Each outer search runs under a budget of 2 EUR on its own training part; 2 repeats of
+    3 outer folds give 6 outer scores:
 
     >>> from sklearn.datasets import load_wine
     >>> from sklearn.naive_bayes import GaussianNB
@@ -65,11 +205,12 @@ class NestedEvaluation:
     >>> prices = {"alcohol": 1, "malic": 1, "ash": 2}
     >>> costs = CostModel(["alcohol", "malic", "ash"], prices, unit="EUR")
     >>> ne = nested_evaluation(X[:, :3], y, GaussianNB(), cost_model=costs,
-    ...                        outer_cv=3, inner_cv=3, budget=2)
-    >>> ne.selected, ne.costs, ne.cost_unit
-    ([['alcohol', 'malic'], ['alcohol', 'malic'], ['alcohol', 'malic']], [2.0, 2.0, 2.0], 'EUR')
-    >>> [round(s, 3) for s in ne.outer_scores], round(ne.optimism, 3)
-    ([0.75, 0.78, 0.712], 0.019)
+    ...                        outer_cv=3, n_repeats=2, inner_cv=3, budget=2)
+    >>> len(ne.outer_scores), ne.repeats, ne.selection_frequency["malic"]
+    (6, [0, 0, 0, 1, 1, 1], 1.0)
+    >>> lo, hi = ne.ci
+    >>> lo < ne.outer_mean < hi
+    True
     """
 
     outer_scores: list[float]
@@ -81,10 +222,16 @@ class NestedEvaluation:
     cost_unit: str
     scoring: str
     results: list[SearchResult] = field(repr=False, default_factory=list)
+    repeats: list[int] = field(default_factory=list)
+    n_repeats: int = 1
+    n_splits: int = 0
+    confidence: float = 0.95
+    ci: tuple[float, float] | None = None
+    test_train_ratio: float = float("nan")
 
     @property
     def outer_mean(self) -> float:
-        """Mean outer-fold score: the estimate of the procedure's performance."""
+        """Mean outer-fold score: the nested estimate of the procedure's performance."""
         return float(np.mean(self.outer_scores))
 
     @property
@@ -93,38 +240,117 @@ class NestedEvaluation:
         return float(np.std(self.outer_scores, ddof=1)) if len(self.outer_scores) > 1 else 0.0
 
     @property
+    def inner_mean(self) -> float:
+        """Mean in-search score over the outer searches."""
+        return float(np.mean(self.inner_scores))
+
+    @property
     def optimism(self) -> float:
-        """Mean inner score minus mean outer score (the selection bias seen here)."""
-        return float(np.mean(self.inner_scores) - self.outer_mean)
+        """In-search minus nested mean score (the selection bias seen here)."""
+        return float(self.inner_mean - self.outer_mean)
+
+    @property
+    def repeat_means(self) -> list[float]:
+        """Mean nested score of each repeat."""
+        reps = np.asarray(self.repeats or [0] * len(self.outer_scores))
+        scores = np.asarray(self.outer_scores, dtype=float)
+        return [float(scores[reps == r].mean()) for r in range(int(reps.max()) + 1)]
+
+    @property
+    def answer_frequency(self) -> dict[str, float]:
+        """Share of outer searches giving each distinct answer (most frequent first)."""
+        keys = [" + ".join(s) if s else NOTHING_LABEL for s in self.selected]
+        counts: dict[str, int] = {}
+        for k in keys:
+            counts[k] = counts.get(k, 0) + 1
+        ordered = sorted(counts.items(), key=lambda kv: (-kv[1], keys.index(kv[0])))
+        return {k: v / len(keys) for k, v in ordered}
+
+    @property
+    def design(self) -> str:
+        """``"R x K outer folds"`` in words."""
+        k = self.n_splits or len(self.outer_scores)
+        if self.n_repeats > 1:
+            return f"{self.n_repeats} repeats x {k} outer folds"
+        return f"{k} outer folds"
+
+    def _ci_text(self) -> str:
+        if self.ci is None:
+            return "no interval (fewer than two outer scores)"
+        return (f"{self.confidence:.0%} CI [{self.ci[0]:.4f}, {self.ci[1]:.4f}], "
+                f"{CI_METHOD}")
 
     def summary(self) -> str:
-        """Readable report."""
+        """Readable report: nested score with its interval, in-search score, optimism,
+        choice frequencies and stability."""
         lines = [
-            f"Nested CV ({len(self.outer_scores)} outer folds), {self.scoring}:",
-            f"  outer (honest) {self.outer_mean:.4f} ± {self.outer_std:.4f}",
-            f"  inner (as reported by the search) {np.mean(self.inner_scores):.4f}"
-            f"  -> optimism {self.optimism:+.4f}",
+            f"Nested CV ({self.design}, {len(self.outer_scores)} outer searches), "
+            f"{self.scoring}:",
+            f"  nested score    {self.outer_mean:.4f}  {self._ci_text()}",
+            f"  in-search score {self.inner_mean:.4f}  (the search's own estimate, "
+            "optimistic)",
+            f"  optimism (in-search - nested) {self.optimism:+.4f}",
             f"  mean cost {np.mean(self.costs):.2f} {self.cost_unit}",
-            "  stability (Nogueira): "
+            "  stability (Nogueira et al. 2018): "
             + ("undefined" if self.stability is None else f"{self.stability:.3f}"),
-            "  selection frequency:",
+            "  answers of the outer searches:",
         ]
+        for key, share in list(self.answer_frequency.items())[:5]:
+            lines.append(f"    {share:5.2f}  {key}")
+        lines.append("  each measurement chosen in share of outer searches:")
         for name, freq in sorted(self.selection_frequency.items(), key=lambda kv: -kv[1]):
             if freq > 0:
                 lines.append(f"    {name:<28} {freq:.2f}")
         return "\n".join(lines)
 
+    def to_markdown(self) -> list[str]:
+        """Lines of the report section on the nested estimate."""
+        lines = [
+            "## Honest estimate (nested cross-validation)",
+            "",
+            f"The whole search was re-run inside each outer training fold ({self.design}) "
+            "and the chosen measurements were scored on the outer test fold, which the "
+            "search never saw.",
+            "",
+            f"- nested {self.scoring}: **{self.outer_mean:.4f}**, {self._ci_text()}; the "
+            "interval widens the plain t interval for overlapping training sets and is "
+            "approximate",
+            f"- in-search {self.scoring} (the search's own estimate): {self.inner_mean:.4f} — "
+            f"optimism {self.optimism:+.4f}",
+            "- stability of the choice (Nogueira et al. 2018): "
+            + ("undefined" if self.stability is None else f"{self.stability:.3f}"),
+            "",
+            "| answer of the outer search | share |",
+            "|---|---|",
+        ]
+        lines += [f"| {k} | {v:.2f} |" for k, v in self.answer_frequency.items()]
+        lines += ["", "| measurement | chosen in share of outer searches |", "|---|---|"]
+        lines += [f"| {n} | {v:.2f} |" for n, v in sorted(
+            self.selection_frequency.items(), key=lambda kv: -kv[1]) if v > 0]
+        return lines
+
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready description."""
         return {
+            "score_kind": "nested",
             "outer_scores": self.outer_scores,
+            "repeats": self.repeats,
+            "n_repeats": self.n_repeats,
+            "n_splits": self.n_splits,
             "outer_mean": self.outer_mean,
             "outer_std": self.outer_std,
+            "ci": None if self.ci is None else list(self.ci),
+            "confidence": self.confidence,
+            "ci_method": CI_METHOD,
+            "test_train_ratio": self.test_train_ratio,
             "inner_scores": self.inner_scores,
+            "inner_mean": self.inner_mean,
+            "optimism": self.optimism,
             "selected": self.selected,
             "costs": self.costs,
             "cost_unit": self.cost_unit,
             "selection_frequency": self.selection_frequency,
+            "answer_frequency": self.answer_frequency,
             "stability": self.stability,
             "scoring": self.scoring,
         }
@@ -137,11 +363,14 @@ def nested_evaluation(
     *,
     cost_model: CostModel | None = None,
     outer_cv: Any = 5,
+    n_repeats: int = 1,
     inner_cv: Any = 5,
     scoring: Any = None,
     groups: Any = None,
     feature_names: list[str] | None = None,
     strategy: str | dict = "forward",
+    confidence: float = 0.95,
+    seed: int | None = 0,
     n_jobs: int | None = None,
     **search_options: Any,
 ) -> NestedEvaluation:
@@ -152,13 +381,23 @@ def nested_evaluation(
     X, y, estimator, cost_model, scoring, groups, feature_names
         As for :class:`~featuresift.SelectionProblem`.
     outer_cv : int or splitter, default=5
-        Outer splits; the search never sees the outer test fold.
+        Outer splits; the search never sees the outer test fold. An int K gives
+        :func:`outer_splitter` (shuffled; stratified for classifiers, grouped when
+        ``groups`` is given) seeded with ``seed``.
+    n_repeats : int, default=1
+        R: repeat the K outer folds R times, repeat r shuffled with seed + r (a splitter
+        given as ``outer_cv`` must shuffle and have an integer ``random_state``). R x K
+        searches are run.
     inner_cv : int or splitter, default=5
         CV used by the search inside each outer training fold.
     strategy : str or dict, default="forward"
+    confidence : float, default=0.95
+        Level of the interval of the nested score (:func:`corrected_t_interval`).
+    seed : int, default=0
+        Seed of the outer shuffles (repeat r: seed + r) and of the searches.
     n_jobs : int, optional
     **search_options
-        Passed to :func:`featuresift.run_search` (budget, objective, limits, ...).
+        Passed to :func:`featuresift.run_search` (budget, objective, pick, limits, ...).
 
     Examples
     --------
@@ -169,25 +408,48 @@ def nested_evaluation(
     >>> len(ne.outer_scores), all(len(s) == 2 for s in ne.selected)
     (3, True)
     """
+    if isinstance(n_repeats, bool) or not isinstance(n_repeats, (int, np.integer)) \
+            or n_repeats < 1:
+        raise InputError(f"n_repeats must be an integer >= 1, got {n_repeats!r}")
+    if not 0 < confidence < 1:
+        raise InputError(f"confidence must lie strictly between 0 and 1, got {confidence!r}")
     full = SelectionProblem(
         X, y, estimator, cost_model=cost_model, cv=2, scoring=scoring, groups=groups,
         feature_names=feature_names,
     )
     Xa, ya, names = full.X, full.y, full.feature_names
     g = full.groups
-    outer = check_cv(outer_cv, ya, classifier=is_classifier(estimator))
+    classification = is_classifier(estimator)
+    if "random_state" in search_options:  # the search's seed under its older name
+        seed = search_options.pop("random_state")
+    search_options[_SEED_NAME] = seed
+    if isinstance(outer_cv, (int, np.integer)) and not isinstance(outer_cv, bool):
+        outer = outer_splitter(int(outer_cv), stratified=classification,
+                               grouped=g is not None, seed=0 if seed is None else seed)
+    else:
+        outer = check_cv(outer_cv, ya, classifier=classification)
+    splits: list[tuple[np.ndarray, np.ndarray, int]] = []
+    for r, splitter in enumerate(_repeat_splitters(outer, int(n_repeats))):
+        splits += [(tr, te, r) for tr, te in splitter.split(Xa, ya, g)]
+    n_splits = len(splits) // int(n_repeats)
+    inner_repeats = getattr(outer, "n_repeats", None)
+    if n_repeats == 1 and isinstance(inner_repeats, int) and inner_repeats > 1:
+        # A repeated splitter given as outer_cv: repeats come one after another.
+        n_splits = len(splits) // inner_repeats
+        splits = [(tr, te, i // n_splits) for i, (tr, te, _) in enumerate(splits)]
     scorer = check_scoring(estimator, scoring=scoring)
     outer_scores, inner_scores, selected, costs, results = [], [], [], [], []
-    for train, test in outer.split(Xa, ya, g):
+    for train, test, _ in splits:
         inner = SelectionProblem(
             Xa[train], ya[train], estimator, cost_model=full.cost_model, cv=inner_cv,
             scoring=scoring, groups=None if g is None else g[train], feature_names=names,
         )
         res = run_search(inner, strategy, n_jobs=n_jobs, **search_options)
-        if not res.support:
-            raise InputError("the search chose no measurement in an outer fold")
-        model = clone(estimator).fit(Xa[train][:, res.support], ya[train])
-        outer_scores.append(float(scorer(model, Xa[test][:, res.support], ya[test])))
+        if not res.support and not res.fold_scores:
+            raise InputError("the search found no allowed subset in an outer fold "
+                             f"({res.stop_reason})")
+        outer_scores.append(_fit_score(estimator, scorer, Xa[train], ya[train], Xa[test],
+                                       ya[test], list(res.support), classification))
         inner_scores.append(res.score_mean)
         selected.append(res.selected)
         costs.append(res.cost)
@@ -199,6 +461,7 @@ def nested_evaluation(
         stab = None
     if stab is not None and not math.isfinite(stab):
         stab = None
+    ratio = float(np.mean([len(te) / len(tr) for tr, te, _ in splits]))
     return NestedEvaluation(
         outer_scores=outer_scores,
         inner_scores=inner_scores,
@@ -209,4 +472,10 @@ def nested_evaluation(
         cost_unit=full.cost_model.unit,
         scoring=scoring if isinstance(scoring, str) else "score",
         results=results,
+        repeats=[r for _, _, r in splits],
+        n_repeats=max(r for _, _, r in splits) + 1,
+        n_splits=n_splits,
+        confidence=confidence,
+        ci=corrected_t_interval(outer_scores, ratio, confidence),
+        test_train_ratio=ratio,
     )

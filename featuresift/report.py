@@ -117,44 +117,9 @@ def render_report(
          for r in result.path],
     )
     if nested is not None:
-        inner_mean = sum(nested.inner_scores) / len(nested.inner_scores)
-        lines += [
-            "",
-            "## Honest estimate (nested cross-validation)",
-            "",
-            "The whole search was re-run inside each outer training fold and the chosen "
-            "measurements were scored on the outer test fold, which the search never saw.",
-            "",
-            f"- outer {nested.scoring}: **{_f(nested.outer_mean)} ± {_f(nested.outer_std)}**",
-            f"- the search's own (inner) score: {_f(inner_mean)} — optimism {nested.optimism:+.4f}",
-            "- stability of the choice (Nogueira et al. 2018): "
-            + ("undefined" if nested.stability is None else _f(nested.stability, 3)),
-            "",
-        ]
-        lines += _table(
-            ["measurement", "chosen in share of outer folds"],
-            [[n, _f(v, 2)] for n, v in sorted(nested.selection_frequency.items(),
-                                              key=lambda kv: -kv[1]) if v > 0],
-        )
+        lines += ["", *nested.to_markdown()]
     if frontier is not None:
-        frame = frontier.to_frame()
-        lines += ["", "## Accuracy against cost across budgets", ""]
-        lines += _table(
-            ["budget", "measurements", f"cost ({u})", "score", "± s.e.", "efficient"],
-            [
-                ["unlimited" if math.isnan(r.budget) else _f(float(r.budget), 2), r.selected,
-                 _f(float(r.cost), 2), _f(float(r.score_mean)), _f(float(r.score_sem)),
-                 "yes" if r.efficient else ""]
-                for r in frame.itertuples()
-            ],
-        )
-        lines += [
-            "",
-            f"The sweep used {frontier.n_fits} model fits; without sharing evaluations between "
-            f"budgets it would have needed {frontier.n_fits_without_cache}.",
-            "",
-            "![accuracy against cost](frontier.png)",
-        ]
+        lines += ["", *frontier.to_markdown()]
     if feature_table is not None:
         lines += ["", "## Per-measurement screening table", ""]
         cols = [str(c) for c in feature_table.columns]

@@ -6,7 +6,8 @@ from sklearn.datasets import load_wine
 from sklearn.naive_bayes import GaussianNB
 
 from featuresift import CostModel, CriterionEvaluator, SelectionProblem
-from featuresift.frontier import _efficient, budget_sweep, default_budgets
+from featuresift.frontier import Frontier, budget_sweep, default_budgets, efficient_points
+from featuresift.result import SearchResult
 
 
 @pytest.fixture(scope="module")
@@ -43,15 +44,80 @@ def test_efficiency_flags_by_hand():
     costs = [1.0, 2.0, 2.0, 5.0]
     scores = [0.70, 0.80, 0.75, 0.80]
     # (2, 0.75) is dominated by (2, 0.80); (5, 0.80) by the cheaper (2, 0.80).
-    assert _efficient(costs, scores) == [True, True, False, False]
+    assert efficient_points(costs, scores) == [True, True, False, False]
 
 
-def test_default_budgets_cover_range():
+def test_efficiency_flags_with_ties_by_hand():
+    # Hand-made frontier (computed by hand from the documented rule): budgets 3, 5, 8 and
+    # unlimited all choose the same subset (cost 3, score 0.8): one efficient point, the
+    # first; a tie in score at a higher cost is not efficient; a cost equal up to float
+    # rounding (0.1 + 0.2) counts as the same cost; NaN (failed) is never efficient.
+    costs = [1.0, 3.0, 3.0, 3.0, 3.0, 0.1 + 0.2, 0.3, 6.0, 7.0, 9.0]
+    scores = [0.78, 0.8, 0.8, 0.8, 0.8, 0.65, 0.75, 0.8, float("nan"), 0.81]
+    assert efficient_points(costs, scores) == [
+        True,   # cost 1, 0.78: beats both cost-0.3 points (0.65 and 0.75)
+        True,   # cost 3, 0.80: strictly better than every cheaper point
+        False, False, False,  # identical repeats of the same point
+        False,  # cost 0.3 (float sum), 0.65: beaten by the other cost-0.3 point
+        True,   # cost 0.3, 0.75: the best at the lowest cost
+        False,  # cost 6, 0.80: a tie with a cheaper point is not an improvement
+        False,  # failed evaluation
+        True,   # cost 9, 0.81
+    ]
+
+
+def _point(cost, mean, sem, selected, budget):
+    folds = [mean - sem * np.sqrt(3), mean, mean + sem * np.sqrt(3)]  # std*sqrt(1/3)==sem
+    return SearchResult(selected, list(range(len(selected))), cost, "EUR", [], budget, mean,
+                        float(np.std(folds, ddof=1)), folds, "accuracy", {}, {}, [], 1, 3, 0,
+                        0.0, "done")
+
+
+def test_headline_follows_pick_rule_within_run_budget():
+    pts = [_point(1.0, 0.70, 0.01, ["a"], 1.0), _point(4.0, 0.79, 0.01, ["a", "b"], 5.0),
+           _point(9.0, 0.80, 0.01, ["a", "b", "c"], 10.0),
+           _point(20.0, 0.90, 0.01, ["a", "b", "c", "d"], None)]
+    fr = Frontier([1.0, 5.0, 10.0, None], pts, "EUR", "accuracy", 0, 0, budget=10.0,
+                  pick="one_se")
+    # Best within 10 EUR: 0.80 (s.e. 0.01); one-standard-error rule (Breiman et al. 1984):
+    # cheapest within 0.79 -> the 4 EUR point. The 20 EUR point is better but over budget.
+    assert fr.headline_index == 1 and fr.headline.cost <= fr.budget
+    assert fr.best_index == 3
+    frame = fr.to_frame()
+    assert frame["headline"].tolist() == [False, True, False, False]
+    assert frame["best"].tolist() == [False, False, False, True]
+    assert set(frame["score_kind"]) == {"in-search"}
+    fr.pick = "best"
+    assert fr.headline_index == 2
+    fr.budget = 0.5  # nothing fits
+    assert fr.headline_index is None
+    fr.budget = None
+    assert fr.headline_index == fr.best_index == 3
+    choices = fr.choice_frequency().set_index("feature")
+    assert choices.loc["a", "n_budgets"] == 4 and choices.loc["a", "share"] == 1.0
+    assert choices.loc["d", "share"] == 0.25 and np.isnan(choices.loc["d", "first_budget"])
+    assert choices.loc["c", "first_budget"] == 10.0
+    text = "\n".join(fr.to_markdown())
+    assert "in-search" in text and "How often each measurement" in text
+
+
+def test_default_budgets_are_round_values():
     cm = CostModel(["a", "b", "c"], {"a": 0.5}, panels={"p": (10.0, ["b", "c"])})
-    b = default_budgets(cm, n=5)
-    assert b[0] == 0.5 and b[-1] is None
-    assert all(x < y for x, y in zip(b[:-2], b[1:-1]))
-    assert max(x for x in b if x is not None) < cm.cost([0, 1, 2])
+    assert default_budgets(cm, n=6) == [0.5, 1.0, 2.0, 5.0, 10.0, None]
+    # Five round values for four places: thinned evenly, smallest and largest kept.
+    assert default_budgets(cm, n=5) == [0.5, 1.0, 5.0, 10.0, None]
+    # Seven measurements costing 1..7 (total 28): n=8 used to give 1 + k * 27/7 =
+    # 4.857, ... ; now only 1-2-5 values remain.
+    cm = CostModel([f"m{i}" for i in range(7)], {f"m{i}": float(i + 1) for i in range(7)})
+    b = default_budgets(cm, n=8)
+    assert b == [1.0, 2.0, 5.0, 10.0, 20.0, None]
+    many = CostModel([f"m{i}" for i in range(4)], {"m0": 0.0, "m1": 0.3, "m2": 400.0,
+                                                   "m3": 900.0})
+    b = default_budgets(many, n=4)  # 0.5 ... 1000 (11 values) thinned to 3, ends kept
+    assert b == [0.5, 20.0, 1000.0, None]
+    for x in b[:-1]:
+        mantissa = x / 10 ** np.floor(np.log10(x))
+        assert round(mantissa, 9) in (1.0, 2.0, 5.0)
 
 
 def test_sweep_on_criterion_evaluator_is_exact():

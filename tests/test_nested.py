@@ -46,3 +46,52 @@ def test_nested_outer_score_is_refit_on_outer_train_only():
     assert ne.selected[0] == res.selected
     assert "x0" in ne.selected[0]
     assert ne.stability is not None and ne.stability > 0.5
+
+
+def test_nested_repeats_give_r_times_k_outer_scores_and_a_corrected_t_interval():
+    from scipy import stats
+    from sklearn.model_selection import StratifiedKFold
+
+    rng = np.random.default_rng(2)
+    X = rng.normal(size=(60, 4))
+    y = (X[:, 0] + rng.normal(scale=0.7, size=60) > 0).astype(int)
+    ne = nested_evaluation(X, y, GaussianNB(), outer_cv=3, n_repeats=2, inner_cv=3,
+                           scoring="accuracy", n_features=1, seed=5)
+    assert len(ne.outer_scores) == 6 and len(ne.inner_scores) == 6 and len(ne.selected) == 6
+    assert ne.repeats == [0, 0, 0, 1, 1, 1] and (ne.n_repeats, ne.n_splits) == (2, 3)
+    # Repeat r uses the shuffled stratified splitter seeded with seed + r.
+    for r in (0, 1):
+        folds = list(StratifiedKFold(3, shuffle=True, random_state=5 + r).split(X, y))
+        tr, te = folds[0]
+        inner = SelectionProblem(X[tr], y[tr], GaussianNB(), cv=3, scoring="accuracy")
+        sup = run_search(inner, "forward", n_features=1).support
+        model = clone(GaussianNB()).fit(X[tr][:, sup], y[tr])
+        assert ne.outer_scores[3 * r] == pytest.approx(
+            float((model.predict(X[te][:, sup]) == y[te]).mean()))
+    lo, hi = ne.ci
+    assert lo < ne.outer_mean < hi
+    # Corrected resampled t (Nadeau & Bengio 2003, Machine Learning 52; the repeated
+    # k-fold form of Bouckaert & Frank 2004): variance (1/n + n_test/n_train) * s^2 with
+    # n - 1 degrees of freedom; reference quantiles from scipy.stats.t.interval.
+    s = np.asarray(ne.outer_scores)
+    scale = np.sqrt((1 / 6 + ne.test_train_ratio) * s.var(ddof=1))
+    ref = stats.t.interval(0.95, 5, loc=s.mean(), scale=scale)
+    assert (lo, hi) == pytest.approx(ref, rel=1e-12)
+    assert ne.test_train_ratio == pytest.approx(20 / 40)
+    # Wider than the naive t interval over 6 dependent scores.
+    naive = stats.t.interval(0.95, 5, loc=s.mean(), scale=s.std(ddof=1) / np.sqrt(6))
+    assert hi - lo > naive[1] - naive[0]
+    assert ne.optimism == pytest.approx(np.mean(ne.inner_scores) - s.mean())
+    assert sum(ne.answer_frequency.values()) == pytest.approx(1.0)
+    d = ne.to_dict()
+    assert d["score_kind"] == "nested" and d["ci"] == [lo, hi] and d["n_repeats"] == 2
+
+
+def test_nested_repeats_need_a_reseedable_splitter():
+    from featuresift.errors import InputError
+
+    X = np.random.default_rng(0).normal(size=(30, 2))
+    y = np.repeat([0, 1], 15)
+    with pytest.raises(InputError, match="n_repeats=2 needs an outer splitter that shuffles"):
+        nested_evaluation(X, y, GaussianNB(), outer_cv=StratifiedKFold(3), n_repeats=2,
+                          inner_cv=3, n_features=1)
