@@ -34,6 +34,7 @@ from featuresift.config import (
     run_from_config,
     sweep_from_config,
 )
+from featuresift.config.nested import nested_spec
 from featuresift.engine.racing import RACES
 from featuresift.errors import FitFailedError, InputError
 from featuresift.report import write_report
@@ -142,10 +143,10 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
     callback = _step_printer(sys.stderr) if args.verbose else None
     nested = None
     with _clean_on_error(cfg.output):
-        if args.nested is not None:
+        if nested_spec(cfg, args.nested, args.nested_repeats) is not None:
             # Run the honest estimate first, so that nothing is written when it fails; it
             # re-runs the whole search in each outer fold.
-            nested = nested_from_config(cfg, args.nested)
+            nested = nested_from_config(cfg, args.nested, args.nested_repeats)
         result = run_from_config(cfg, write=True, callback=callback)
         write_report(cfg.output, result, nested=nested, source=str(cfg.path))
     files = "result.json, selected.csv, path.csv, report.md"
@@ -185,18 +186,34 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
     def show(res) -> None:
         budget = "unlimited" if res.budget is None else f"{res.budget:g}"
         out.write(f"  budget {budget:>10}: {len(res.selected):>2} measurements, cost "
-                  f"{res.cost:g}, {res.scoring} {res.score_mean:.4f}\n")
+                  f"{res.cost:g}, in-search {res.scoring} {res.score_mean:.4f}\n")
 
     with _clean_on_error(cfg.output):
-        frontier = sweep_from_config(cfg, args.budgets, write=True, callback=show)
-    frame = frontier.to_frame()[["budget", "n_selected", "cost", "score_mean", "score_sem",
-                                 "efficient"]]
-    out.write("\n" + frame.to_string(index=False, na_rep="unlimited",
-                                     float_format=lambda v: f"{v:.4g}") + "\n\n")
-    out.write(f"{frontier.n_fits} model fits for the sweep ({frontier.n_fits_without_cache} "
-              "without sharing evaluations between budgets).\n")
-    out.write(f"Results written to {cfg.output} (frontier.csv, frontier.json, "
-              "frontier.png, report.md)\n")
+        frontier = sweep_from_config(cfg, args.budgets, write=True, callback=show,
+                                     nested_folds=args.nested,
+                                     nested_repeats=args.nested_repeats)
+    frame = frontier.to_frame()
+    table = frame[["budget", "n_selected", "cost", "score_mean", "score_sem", "efficient"]]
+    table = table.assign(pick=["headline" if h else ("best (any budget)" if b else "")
+                               for h, b in zip(frame["headline"], frame["best"])])
+    table = table.rename(columns={"score_mean": f"in-search {frontier.scoring}",
+                                  "score_sem": "s.e."})
+    out.write("\nScores are in-search estimates (each search's own CV of its choice: "
+              "optimistic).\n")
+    out.write(table.to_string(index=False, na_rep="unlimited",
+                              float_format=lambda v: f"{v:.4g}") + "\n\n")
+    for line in frontier.answer_lines():
+        out.write(line + "\n")
+    choices = frontier.choice_frequency()
+    if len(choices):
+        out.write("\nMeasurements chosen across the budgets:\n")
+        out.write(choices.drop(columns=["in_headline"]).to_string(
+            index=False, na_rep="unlimited", float_format=lambda v: f"{v:.3g}") + "\n")
+    out.write(f"\n{frontier.n_fits} model fits for the sweep "
+              f"({frontier.n_fits_without_cache} without sharing evaluations between "
+              "budgets).\n")
+    out.write(f"Results written to {cfg.output} (frontier.csv, frontier_choices.csv, "
+              "frontier.json, frontier.png, report.md)\n")
     return 0
 
 
@@ -314,7 +331,12 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--nested", type=int, metavar="K",
                      help="also estimate performance honestly: re-run the whole search in "
                           "each of K outer folds and score on data it never saw (K times "
-                          "the work); writes nested.json and a report section")
+                          "the work); writes nested.json and a report section (overrides "
+                          "nested.folds)")
+    run.add_argument("--nested-repeats", type=int, metavar="R",
+                     help="repeat the K outer folds R times with new shuffles (R x K "
+                          "searches; steadier estimate and choice frequencies; overrides "
+                          "nested.repeats)")
     run.set_defaults(func=cmd_run)
 
     sweep = sub.add_parser(
@@ -322,7 +344,9 @@ def build_parser() -> argparse.ArgumentParser:
         description="Run the configured search for each budget (sharing every evaluation\n"
         "between budgets) and write frontier.csv, frontier.json, frontier.png and\n"
         "report.md into the output folder. Budgets come from --budgets, else the\n"
-        "`sweep` section (budgets: [..] or n_budgets: N), else 8 evenly spaced budgets.",
+        "`sweep` section (budgets: [..] or n_budgets: N), else up to 8 round budgets\n"
+        "(1-2-5 series) plus the config's budget. Scores are in-search estimates; the\n"
+        "headline applies the pick rule within the config's budget.",
         epilog=_RUN_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     sweep.add_argument("config", metavar="CONFIG", help="YAML run configuration")
@@ -340,6 +364,11 @@ def build_parser() -> argparse.ArgumentParser:
                        help="do not keep the evaluation journal in the output folder")
     sweep.add_argument("--racing", choices=sorted(RACES),
                        help="drop candidates statistically behind the leader (fewer fits)")
+    sweep.add_argument("--nested", type=int, metavar="K",
+                       help="also compute the nested (honest) estimate of the search at the "
+                            "headline's budget, with K outer folds")
+    sweep.add_argument("--nested-repeats", type=int, metavar="R",
+                       help="repeat the K outer folds of --nested R times")
     sweep.add_argument("-q", "--quiet", action="store_true",
                        help="print nothing except errors (files are still written)")
     sweep.set_defaults(func=cmd_sweep)

@@ -105,13 +105,48 @@ def test_screen_table_matches_scipy_anova(small_config):
 
 
 def test_run_nested_writes_honest_estimate(small_config, capsys):
-    path, _ = small_config
+    path, cfg = small_config
+    cfg["nested"] = {"folds": 3, "repeats": 2}  # the command line overrides the folds
+    path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
     assert main(["run", str(path), "--nested", "2"]) == 0
     out_dir = path.parent / "out"
     nested = json.loads((out_dir / "nested.json").read_text())
-    assert len(nested["outer_scores"]) == 2
+    assert len(nested["outer_scores"]) == 4 and nested["repeats"] == [0, 0, 1, 1]
     assert all(len(s) == 3 for s in nested["selected"])
     assert 0.0 <= nested["outer_mean"] <= 1.0
+    lo, hi = nested["ci"]
+    assert lo < nested["outer_mean"] < hi and nested["score_kind"] == "nested"
     report = (out_dir / "report.md").read_text()
-    assert "nested cross-validation" in report
-    assert "outer (honest)" in capsys.readouterr().out
+    assert "nested cross-validation" in report and "95% CI" in report
+    out = capsys.readouterr().out
+    assert "nested score" in out and "in-search score" in out and "2 repeats x 2" in out
+
+
+def test_nested_section_is_checked(small_config, capsys):
+    path, cfg = small_config
+    cfg["nested"] = {"folds": 5, "repeat": 2}
+    path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
+    assert main(["validate", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert "nested.repeat" in err and "repeats" in err
+
+
+def test_sweep_headline_within_config_budget_and_nested_at_pick(small_config, capsys):
+    path, cfg = small_config
+    cfg["budget"] = 10.0
+    cfg["pick"] = "best"
+    path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
+    assert main(["sweep", str(path), "--budgets", "6,10,none", "--nested", "2"]) == 0
+    out_dir = path.parent / "out"
+    data = json.loads((out_dir / "frontier.json").read_text())
+    head, best = data["points"][data["headline"]], data["points"][data["best"]]
+    assert data["budget"] == 10.0 and head["cost"] <= 10.0
+    # "best" rule: the highest in-search score among the points within 10.
+    within = [p["score_mean"] for p in data["points"] if p["cost"] <= 10.0]
+    assert head["score_mean"] == max(within)
+    assert best["score_mean"] == max(p["score_mean"] for p in data["points"])
+    assert data["nested"]["budget"] == head["budget"] and len(data["nested"]["outer_scores"]) == 2
+    choices = pd.read_csv(out_dir / "frontier_choices.csv")
+    assert choices["n_budgets"].max() <= 3 and set(choices["feature"]) <= set(CANDIDATES)
+    out = capsys.readouterr().out
+    assert "in-search roc_auc" in out and "Headline" in out and "Nested roc_auc" in out

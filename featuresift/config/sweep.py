@@ -17,8 +17,10 @@ __all__ = ["sweep_from_config"]
 def _parse_sweep(value: Any, ctx: _Context) -> dict:
     """The ``sweep`` section: budgets for ``featuresift sweep``.
 
-    ``budgets`` is a list of numbers (``null`` = unlimited); ``n_budgets`` asks for that
-    many evenly spaced budgets from the cheapest measurement to all of them.
+    ``budgets`` is a list of numbers (``null`` = unlimited); ``n_budgets`` asks for at
+    most that many round budgets (1-2-5 series, see
+    :func:`featuresift.frontier.default_budgets`), to which the run's own ``budget`` is
+    added.
     """
     d = ctx.mapping(value, "sweep", ["budgets", "n_budgets"])
     if "budgets" in d and "n_budgets" in d:
@@ -51,21 +53,31 @@ def sweep_from_config(
     *,
     write: bool = False,
     callback: Callable | None = None,
+    nested_folds: int | None = None,
+    nested_repeats: int | None = None,
 ):
     """Run the configured search once per budget on a shared evaluator.
+
+    The headline pick is the configuration's ``pick`` rule applied to the points that
+    fit its ``budget`` (:attr:`Frontier.headline`); the highest score at any budget is
+    shown apart. With a ``nested`` section (or ``nested_folds``), the search at the
+    headline's budget also gets a nested estimate (:attr:`Frontier.nested`).
 
     Parameters
     ----------
     cfg : RunConfig
         From :func:`load_config`.
     budgets : list of float or None, optional
-        Budgets (None = unlimited); default from the ``sweep`` section, else 8 evenly
-        spaced budgets.
+        Budgets (None = unlimited); default from the ``sweep`` section, else 8 round
+        budgets (:func:`~featuresift.frontier.default_budgets`) plus the run's budget.
     write : bool, default=False
-        Write ``frontier.csv``, ``frontier.json``, ``frontier.png`` and ``report.md``
-        into the output folder.
+        Write ``frontier.csv``, ``frontier_choices.csv``, ``frontier.json``,
+        ``frontier.png`` and ``report.md`` into the output folder.
     callback : callable, optional
         Called with each finished :class:`~featuresift.result.SearchResult`.
+    nested_folds, nested_repeats : int, optional
+        K and R of the nested estimate at the headline's budget (over the ``nested``
+        section).
 
     Returns
     -------
@@ -82,16 +94,23 @@ def sweep_from_config(
     ...     fr = sweep_from_config(load_config(write_demo(d, n_lots=60)[1]), budgets=[0.5, 1.0])
     >>> fr.budgets, [r.cost <= b for r, b in zip(fr.results, fr.budgets)]
     ([0.5, 1.0], [True, True])
-    >>> fr.n_fits < fr.n_fits_without_cache
-    True
+    >>> fr.n_fits < fr.n_fits_without_cache, fr.budget, fr.headline.cost <= fr.budget
+    (True, 30.0, True)
     """
+    from featuresift.config.nested import nested_from_config, nested_spec
     from featuresift.frontier import budget_sweep, default_budgets
     from featuresift.report import write_report
 
     problem, kwargs = build_run(cfg)
     spec = cfg.extra.get("sweep") or {"budgets": None, "n_budgets": 8}
+    nested = nested_spec(cfg, nested_folds, nested_repeats)
     if budgets is None:
-        budgets = spec["budgets"] or default_budgets(cfg.cost_model, spec["n_budgets"])
+        budgets = spec["budgets"]
+        if budgets is None:
+            budgets = default_budgets(cfg.cost_model, spec["n_budgets"])
+            if cfg.budget is not None and cfg.budget not in budgets:
+                budgets = sorted([b for b in budgets if b is not None] + [cfg.budget])
+                budgets.append(None)
     cheapest = cfg.cost_model.cheapest_feature_cost()
     for b in budgets:
         if b is not None and b < cheapest:
@@ -100,18 +119,25 @@ def sweep_from_config(
                 f"({cheapest:g} {cfg.cost_model.unit})",
                 key="sweep.budgets", line=cfg.lines.get("sweep.budgets"),
             )
-    frontier = budget_sweep(problem, list(budgets), **_search_options(kwargs))
+    frontier = budget_sweep(problem, list(budgets), budget=cfg.budget,
+                            **_search_options(kwargs))
     if callback is not None:
         for r in frontier.results:
             callback(r)
+    head = frontier.headline
+    if nested is not None and head is not None:
+        frontier.nested = nested_from_config(cfg, nested["folds"], nested["repeats"],
+                                             budget=head.budget)
     if write:
-        best = max(frontier.results, key=lambda r: r.score_mean)
+        shown = head if head is not None else frontier.results[frontier.best_index or 0]
+        budget = "unlimited" if shown.budget is None else f"{shown.budget:g}"
+        heading = (f"Headline pick (rule {frontier.pick}, budget {budget})" if head is not None
+                   else f"No point fits the run's budget; highest-scoring (budget {budget})")
         try:
             frontier.write(cfg.output)
-            budget = "unlimited" if best.budget is None else f"{best.budget:g}"
-            write_report(cfg.output, best, frontier=frontier, source=str(cfg.path),
-                         title="featuresift budget sweep",
-                         chosen_heading=f"Highest-scoring choice (budget {budget})")
+            write_report(cfg.output, shown, frontier=frontier, nested=frontier.nested,
+                         source=str(cfg.path), title="featuresift budget sweep",
+                         chosen_heading=heading)
         except OSError as exc:
             raise InputError(
                 f"cannot write the results to {cfg.output}: {exc.strerror or exc}",
