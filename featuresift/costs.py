@@ -163,6 +163,11 @@ class CostModel:
             f"unit={self.unit!r})"
         )
 
+    def _repr_html_(self) -> str:
+        from featuresift.display import cost_model_html
+
+        return cost_model_html(self)
+
     # ------------------------------------------------------------------ helpers
     @classmethod
     def uniform(cls, feature_names: Sequence[str], cost: float = 1.0, unit: str = "features"):

@@ -291,7 +291,7 @@ class Frontier:
         return pd.DataFrame(rows)
 
     def to_dict(self) -> dict[str, Any]:
-        """JSON-ready description of the sweep."""
+        """JSON-ready description of the sweep (``results``: each search in full)."""
         frame = self.to_frame()
         head, best = self.headline_index, self.best_index
         choices = self.choice_frequency()
@@ -329,7 +329,64 @@ class Frontier:
                 "budget": self.results[head].budget if head is not None else None,
                 **self.nested.to_dict(),
             },
+            "results": [r.to_dict() for r in self.results],
         }
+
+    def to_json(self, indent: int = 2) -> str:
+        """The sweep as a JSON string (what ``frontier.json`` holds)."""
+        return json.dumps(self.to_dict(), indent=indent)
+
+    @classmethod
+    def from_dict(cls, data: dict[str, Any]) -> Frontier:
+        """Rebuild a sweep from :meth:`to_dict` output (or a loaded ``frontier.json``)."""
+        from featuresift.nested import NestedEvaluation
+
+        if "results" not in data or "points" not in data:
+            raise ValueError("not a featuresift frontier: 'points' and 'results' are needed")
+        nested = data.get("nested")
+        if nested is not None:
+            nested = {k: v for k, v in nested.items() if k != "budget"}
+        return cls(
+            budgets=[p["budget"] for p in data["points"]],
+            results=[SearchResult.from_dict(r) for r in data["results"]],
+            cost_unit=data["cost_unit"],
+            scoring=data["scoring"],
+            n_fits=int(data["n_fits"]),
+            n_fits_without_cache=int(data["n_fits_without_cache"]),
+            budget=data.get("budget"),
+            pick=data.get("pick", "best"),
+            nested=None if nested is None else NestedEvaluation.from_dict(nested),
+        )
+
+    @classmethod
+    def from_json(cls, text: str | os.PathLike) -> Frontier:
+        """Load a sweep from a JSON string or a ``frontier.json`` file.
+
+        Examples
+        --------
+        >>> from sklearn.datasets import load_iris
+        >>> from sklearn.naive_bayes import GaussianNB
+        >>> X, y = load_iris(return_X_y=True)
+        >>> p = SelectionProblem(X, y, GaussianNB(), cv=3)
+        >>> fr = budget_sweep(p, [1, 2])
+        >>> Frontier.from_json(fr.to_json()).to_dict() == fr.to_dict()
+        True
+        """
+        if isinstance(text, os.PathLike) or (
+            isinstance(text, str) and not text.lstrip().startswith("{")
+        ):
+            text = Path(text).read_text(encoding="utf-8")
+        return cls.from_dict(json.loads(text))
+
+    def __repr__(self) -> str:
+        from featuresift.display import frontier_repr
+
+        return frontier_repr(self)
+
+    def _repr_html_(self) -> str:
+        from featuresift.display import frontier_html
+
+        return frontier_html(self)
 
     def _describe(self, i: int | None) -> str:
         if i is None:
@@ -405,12 +462,11 @@ class Frontier:
         """Draw in-search score against cost (error bars: one standard error).
 
         The headline pick and, if different, the unconstrained best are marked; the run's
-        budget is a dotted vertical line. Requires matplotlib. Returns the axes.
+        budget is a dotted vertical line. Requires matplotlib. Returns the axes. Draws on
+        ``ax`` (a new figure from ``matplotlib.pyplot`` when None); the matplotlib backend
+        is left as it is.
         """
-        import matplotlib
-
         if ax is None:
-            matplotlib.use("Agg", force=False)
             import matplotlib.pyplot as plt
 
             _, ax = plt.subplots(figsize=(7, 4.5))
@@ -463,14 +519,15 @@ class Frontier:
         written.append(json_path)
         if plot:
             try:
-                import matplotlib.pyplot as plt
+                from matplotlib.figure import Figure
             except ImportError:
                 return written
-            ax = self.plot()
+            # A figure without pyplot: drawn to the file, whatever the session's backend.
+            fig = Figure(figsize=(7, 4.5))
+            self.plot(fig.subplots())
             png = out / "frontier.png"
-            ax.figure.tight_layout()
-            ax.figure.savefig(png, dpi=120)
-            plt.close(ax.figure)
+            fig.tight_layout()
+            fig.savefig(png, dpi=120)
             written.append(png)
         return written
 

@@ -329,6 +329,40 @@ class NestedEvaluation:
             self.selection_frequency.items(), key=lambda kv: -kv[1]) if v > 0]
         return lines
 
+    def __repr__(self) -> str:
+        from featuresift.display import nested_repr
+
+        return nested_repr(self)
+
+    def _repr_html_(self) -> str:
+        from featuresift.display import nested_html
+
+        return nested_html(self)
+
+    @classmethod
+    def from_dict(cls, data: dict[str, Any]) -> NestedEvaluation:
+        """Rebuild from :meth:`to_dict` output (the per-fold search results are not kept).
+
+        Examples
+        --------
+        >>> ne = NestedEvaluation([0.8, 0.9], [0.85, 0.95], [["a"], ["a"]], [1.0, 1.0],
+        ...                       {"a": 1.0}, None, "EUR", "accuracy")
+        >>> NestedEvaluation.from_dict(ne.to_dict()).to_dict() == ne.to_dict()
+        True
+        """
+        ci = data.get("ci")
+        return cls(
+            outer_scores=list(data["outer_scores"]), inner_scores=list(data["inner_scores"]),
+            selected=[list(s) for s in data["selected"]], costs=list(data["costs"]),
+            selection_frequency=dict(data["selection_frequency"]),
+            stability=data.get("stability"), cost_unit=data["cost_unit"],
+            scoring=data["scoring"], repeats=list(data.get("repeats", [])),
+            n_repeats=int(data.get("n_repeats", 1)), n_splits=int(data.get("n_splits", 0)),
+            confidence=float(data.get("confidence", 0.95)),
+            ci=None if ci is None else (float(ci[0]), float(ci[1])),
+            test_train_ratio=float(data.get("test_train_ratio", float("nan"))),
+        )
+
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready description."""
         return {

@@ -18,12 +18,20 @@ from typing import Any
 import numpy as np
 from sklearn.base import BaseEstimator, clone, is_classifier
 from sklearn.metrics import check_scoring, get_scorer_names
-from sklearn.model_selection import check_cv
+from sklearn.model_selection import (
+    GroupKFold,
+    KFold,
+    RepeatedKFold,
+    RepeatedStratifiedKFold,
+    StratifiedGroupKFold,
+    StratifiedKFold,
+    check_cv,
+)
 
 from featuresift.costs import CostModel
 from featuresift.errors import InputError
 
-__all__ = ["SelectionProblem"]
+__all__ = ["SelectionProblem", "make_splitter"]
 
 
 def _as_2d_float(X: Any) -> tuple[np.ndarray, list[str] | None]:
@@ -38,6 +46,76 @@ def _as_2d_float(X: Any) -> tuple[np.ndarray, list[str] | None]:
     if arr.ndim != 2:
         raise InputError(f"X must be 2-dimensional, got shape {arr.shape}")
     return np.ascontiguousarray(arr), names
+
+
+def make_splitter(
+    folds: int,
+    *,
+    classification: bool,
+    grouped: bool = False,
+    repeats: int = 1,
+    stratified: bool | None = None,
+    shuffle: bool = True,
+    seed: int | None = 0,
+) -> Any:
+    """The CV splitter for a number of folds: one rule for Python and YAML.
+
+    Grouped folds (each group's rows in one fold) are :class:`StratifiedGroupKFold`
+    for a classification task and :class:`GroupKFold` otherwise; without groups,
+    :class:`StratifiedKFold` / :class:`KFold`, repeated when ``repeats > 1``.
+    ``seed`` shuffles the assignment when ``shuffle`` is true. This is what the YAML
+    ``cv`` section builds, and what :class:`SelectionProblem` builds for an integer
+    ``cv`` given with ``groups``.
+
+    Parameters
+    ----------
+    folds : int
+        Number of folds (at least 2).
+    classification : bool
+        Whether the target is a class label (stratify by default).
+    grouped : bool, default=False
+        Keep each group's rows in one fold.
+    repeats : int, default=1
+        Repetitions of k-fold with different shuffles (not with groups).
+    stratified : bool, optional
+        Override stratification (default: stratify for classification).
+    shuffle : bool, default=True
+        Shuffle before splitting (with ``seed``).
+    seed : int, optional, default=0
+        Seed of the shuffle.
+
+    Examples
+    --------
+    >>> make_splitter(4, classification=True, grouped=True)
+    StratifiedGroupKFold(n_splits=4, random_state=0, shuffle=True)
+    >>> make_splitter(3, classification=False, grouped=True, seed=2)
+    GroupKFold(n_splits=3, random_state=2, shuffle=True)
+    """
+    if isinstance(folds, bool) or not isinstance(folds, (int, np.integer)) or folds < 2:
+        raise InputError(f"cv must be at least 2 folds, got {folds!r}", key="cv")
+    strat = classification if stratified is None else bool(stratified)
+    rs = seed if shuffle else None
+    if grouped:
+        if repeats > 1:
+            raise InputError("repeated grouped cross-validation is not supported",
+                             key="cv.repeats")
+        cls = StratifiedGroupKFold if strat else GroupKFold
+        return cls(int(folds), shuffle=shuffle, random_state=rs)
+    if repeats > 1:
+        cls = RepeatedStratifiedKFold if strat else RepeatedKFold
+        return cls(n_splits=int(folds), n_repeats=int(repeats), random_state=seed)
+    cls = StratifiedKFold if strat else KFold
+    return cls(int(folds), shuffle=shuffle, random_state=rs)
+
+
+def _is_group_splitter(cv: Any) -> bool:
+    """Whether a splitter needs ``groups`` (GroupKFold, LeaveOneGroupOut, ...)."""
+    if isinstance(cv, (int, np.integer)) or not hasattr(cv, "split"):
+        return False
+    try:
+        return "groups" in cv._get_default_requests().split.requests  # scikit-learn >= 1.4
+    except AttributeError:
+        return "Group" in type(cv).__name__
 
 
 _ADDRESS = re.compile(r" at 0x[0-9a-fA-F]+")
@@ -81,13 +159,17 @@ class SelectionProblem:
     cost_model : CostModel, optional
         Acquisition costs. Default: every feature costs 1 (unit "features").
     cv : int, CV splitter or iterable of (train, test), default=5
-        Cross-validation, resolved with :func:`sklearn.model_selection.check_cv`
-        (stratified for classifiers). The splits are computed once.
+        Cross-validation. An integer with ``groups`` gives grouped folds, stratified for
+        classifiers (:func:`make_splitter`: ``StratifiedGroupKFold`` or ``GroupKFold``,
+        shuffled with seed 0, as the YAML ``cv`` section); an integer without groups is
+        resolved with :func:`sklearn.model_selection.check_cv` (stratified for
+        classifiers). The splits are computed once.
     scoring : str or callable, optional
         A scikit-learn scorer name, or a callable ``scorer(estimator, X, y)``.
         Default: the estimator's ``score`` method.
     groups : array-like, optional
-        Group labels for grouped splitters.
+        Group labels (e.g. farm, supplier, batch): rows of a group never fall on both
+        sides of a split. Required by grouped splitters such as ``GroupKFold``.
     feature_names : sequence of str, optional
         Column names (taken from a DataFrame, else from ``cost_model``, when not given).
 
@@ -151,7 +233,24 @@ class SelectionProblem:
             )
         self.scoring = scoring
         self.scorer = check_scoring(estimator, scoring=scoring)
-        splitter = check_cv(cv, y_arr, classifier=self.classification)
+        if self.groups is not None and self.groups.shape[0] != X_arr.shape[0]:
+            raise InputError(
+                f"groups has {self.groups.shape[0]} values for {X_arr.shape[0]} rows of X",
+                key="groups",
+            )
+        if self.groups is None and _is_group_splitter(cv):
+            raise InputError(
+                f"{type(cv).__name__} needs group labels: pass groups=...", key="groups"
+            )
+        if self.groups is not None and isinstance(cv, (int, np.integer)) \
+                and not isinstance(cv, bool):
+            n_groups = np.unique(self.groups).size
+            if n_groups < cv:
+                raise InputError(f"groups has {n_groups} distinct values, fewer than "
+                                 f"cv = {cv} folds", key="groups")
+            splitter = make_splitter(int(cv), classification=self.classification, grouped=True)
+        else:
+            splitter = check_cv(cv, y_arr, classifier=self.classification)
         self.cv = splitter
         self.splits: list[tuple[np.ndarray, np.ndarray]] = [
             (np.asarray(tr), np.asarray(te))
@@ -160,6 +259,16 @@ class SelectionProblem:
         if not self.splits:
             raise InputError("the cross-validation produced no splits")
         self._fingerprint: str | None = None
+
+    def __repr__(self) -> str:
+        from featuresift.display import problem_repr
+
+        return problem_repr(self)
+
+    def _repr_html_(self) -> str:
+        from featuresift.display import problem_html
+
+        return problem_html(self)
 
     @property
     def n_features(self) -> int:

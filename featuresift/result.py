@@ -12,7 +12,7 @@ from typing import Any
 
 from featuresift.costs import CostLine
 
-__all__ = ["SearchResult", "PathRow", "SCORE_KINDS", "score_label"]
+__all__ = ["SearchResult", "PathRow", "EvaluatedSubset", "SCORE_KINDS", "score_label"]
 
 SCORE_KINDS = {
     "in-search": "in-search estimate (optimistic)",
@@ -85,6 +85,45 @@ class PathRow:
     n_evaluations: int
 
 
+@dataclass(frozen=True)
+class EvaluatedSubset:
+    """One subset a search evaluated, in names.
+
+    Attributes
+    ----------
+    features : tuple of str
+        The subset's measurements, in column order.
+    cost : float
+        Its acquisition cost per sample.
+    score_mean, score_sem : float
+        Mean CV score (in-search) and its standard error over the folds run.
+    objective : float
+        Objective value (larger is better).
+    n_folds : int
+        Folds scored (fewer than the CV's when racing dropped it).
+    status : str
+        ``"complete"``, ``"dropped"`` (racing) or ``"failed"``.
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> from sklearn.naive_bayes import GaussianNB
+    >>> from featuresift import SelectionProblem, run_search
+    >>> X, y = load_iris(return_X_y=True)
+    >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), n_features=1)
+    >>> [e.features for e in res.evaluations]
+    [('x0',), ('x1',), ('x2',), ('x3',)]
+    """
+
+    features: tuple[str, ...]
+    cost: float
+    score_mean: float
+    score_sem: float
+    objective: float
+    n_folds: int
+    status: str
+
+
 def _num(x: float) -> float | None:
     return None if x is None or (isinstance(x, float) and not math.isfinite(x)) else x
 
@@ -131,6 +170,9 @@ class SearchResult:
         Why the search stopped.
     success : bool
         False when no allowed subset was found or a limit stopped the search.
+    evaluations : list of EvaluatedSubset
+        Every subset the search evaluated, in the order first asked for (see
+        :meth:`evaluations_frame`).
 
     Notes
     -----
@@ -175,6 +217,7 @@ class SearchResult:
     stop_reason: str
     success: bool = True
     extras: dict[str, Any] = field(default_factory=dict)
+    evaluations: list[EvaluatedSubset] = field(default_factory=list, repr=False)
 
     # ------------------------------------------------------------- conversion
     def to_dict(self) -> dict:
@@ -213,20 +256,162 @@ class SearchResult:
             "stop_reason": self.stop_reason,
             "success": self.success,
             **({"extras": self.extras} if self.extras else {}),
+            "evaluations": [
+                {"features": list(e.features), "cost": e.cost,
+                 "score_mean": _num(e.score_mean), "score_sem": _num(e.score_sem),
+                 "objective": _num(e.objective), "n_folds": e.n_folds, "status": e.status}
+                for e in self.evaluations
+            ],
         }
+
+    @classmethod
+    def from_dict(cls, data: dict[str, Any]) -> SearchResult:
+        """Rebuild a result from :meth:`to_dict` output (or a loaded ``result.json``).
+
+        Examples
+        --------
+        >>> from sklearn.datasets import load_iris
+        >>> from sklearn.naive_bayes import GaussianNB
+        >>> from featuresift import SelectionProblem, run_search
+        >>> X, y = load_iris(return_X_y=True)
+        >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), n_features=2)
+        >>> SearchResult.from_json(res.to_json()).to_dict() == res.to_dict()
+        True
+        """
+        d = dict(data)
+        score = d.get("score") or {}
+        known = {
+            "selected", "support", "cost", "cost_unit", "cost_breakdown", "budget", "score",
+            "objective", "strategy", "path", "n_evaluations", "n_fits", "n_cache_hits",
+            "wall_time_s", "stop_reason", "success", "extras", "evaluations",
+        }
+        unknown = sorted(set(d) - known)
+        if unknown:
+            raise ValueError(f"not a featuresift result: unknown key(s) {', '.join(unknown)}")
+        return cls(
+            selected=list(d["selected"]),
+            support=[int(i) for i in d["support"]],
+            cost=float(d["cost"]),
+            cost_unit=str(d["cost_unit"]),
+            cost_breakdown=[
+                CostLine(c["item"], c["kind"], tuple(c["features"]), float(c["cost"]))
+                for c in d.get("cost_breakdown", [])
+            ],
+            budget=d.get("budget"),
+            score_mean=_nan(score.get("mean")),
+            score_std=_nan(score.get("std")),
+            fold_scores=[_nan(v) for v in score.get("folds", [])],
+            scoring=score.get("scoring", ""),
+            objective=d.get("objective", {}),
+            strategy=d.get("strategy", {}),
+            path=[
+                PathRow(r["step"], r["action"], r["feature"], tuple(r["features"]),
+                        _nan(r["score_mean"]), _nan(r["score_std"]), r["cost"],
+                        _nan(r["objective"]), r["n_evaluations"])
+                for r in d.get("path", [])
+            ],
+            n_evaluations=int(d.get("n_evaluations", 0)),
+            n_fits=int(d.get("n_fits", 0)),
+            n_cache_hits=int(d.get("n_cache_hits", 0)),
+            wall_time=float(d.get("wall_time_s", 0.0)),
+            stop_reason=str(d.get("stop_reason", "")),
+            success=bool(d.get("success", True)),
+            extras=dict(d.get("extras") or {}),
+            evaluations=[
+                EvaluatedSubset(tuple(e["features"]), e["cost"], _nan(e["score_mean"]),
+                                _nan(e["score_sem"]), _nan(e["objective"]), e["n_folds"],
+                                e["status"])
+                for e in d.get("evaluations", [])
+            ],
+        )
+
+    @classmethod
+    def from_json(cls, text: str | os.PathLike) -> SearchResult:
+        """Load a result from a JSON string or a ``result.json`` file (see :meth:`to_json`).
+
+        Examples
+        --------
+        >>> res = SearchResult.from_json(
+        ...     '{"selected": ["ph"], "support": [0], "cost": 2.0, "cost_unit": "EUR",'
+        ...     ' "score": {"scoring": "accuracy", "mean": 0.8, "std": 0.1, "folds": [0.7, 0.9]}}')
+        >>> res.selected, res.score_mean, res.fold_scores
+        (['ph'], 0.8, [0.7, 0.9])
+        """
+        if isinstance(text, os.PathLike) or (
+            isinstance(text, str) and not text.lstrip().startswith("{")
+        ):
+            text = Path(text).read_text(encoding="utf-8")
+        return cls.from_dict(json.loads(text))
 
     def to_json(self, indent: int = 2) -> str:
         """The result as a JSON string."""
         return json.dumps(self.to_dict(), indent=indent, allow_nan=False)
 
     def path_frame(self):
-        """The path as a pandas DataFrame (one row per step)."""
+        """The path as a pandas DataFrame (one row per step; ``features`` as tuples)."""
         import pandas as pd
 
         rows = self.to_dict()["path"]
         for r in rows:
-            r["features"] = " + ".join(r["features"])
-        return pd.DataFrame(rows)
+            r["features"] = tuple(r["features"])
+            r["n_features"] = len(r["features"])
+        cols = ["step", "action", "feature", "n_features", "features", "score_mean",
+                "score_std", "cost", "objective", "n_evaluations"]
+        return pd.DataFrame(rows, columns=cols)
+
+    def evaluations_frame(self):
+        """Every evaluated subset as a DataFrame, best objective first.
+
+        Columns: ``features`` (tuple of names), ``n``, ``cost``, ``mean``, ``se``
+        (standard error over the folds), ``objective``, ``n_folds``, ``status``. The
+        scores are in-search estimates (optimistic for the best rows).
+
+        Examples
+        --------
+        >>> from sklearn.datasets import load_iris
+        >>> from sklearn.naive_bayes import GaussianNB
+        >>> from featuresift import SelectionProblem, run_search
+        >>> X, y = load_iris(return_X_y=True)
+        >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), n_features=1)
+        >>> res.evaluations_frame()[["features", "n", "cost"]].head(2)
+          features  n  cost
+        0    (x3,)  1   1.0
+        1    (x2,)  1   1.0
+        """
+        import pandas as pd
+
+        rows = [
+            {"features": e.features, "n": len(e.features), "cost": e.cost,
+             "mean": e.score_mean, "se": e.score_sem, "objective": e.objective,
+             "n_folds": e.n_folds, "status": e.status}
+            for e in self.evaluations
+        ]
+        cols = ["features", "n", "cost", "mean", "se", "objective", "n_folds", "status"]
+        frame = pd.DataFrame(rows, columns=cols)
+        if len(frame):
+            frame = frame.sort_values(["objective", "cost", "n"],
+                                      ascending=[False, True, True], kind="stable")
+        return frame.reset_index(drop=True)
+
+    def plot(self, ax=None):
+        """Score (with one standard error) and cost along the search path.
+
+        Draws on ``ax`` (a new figure from ``matplotlib.pyplot`` when None) and returns
+        the axes; the matplotlib backend is left as it is. Requires matplotlib.
+        """
+        from featuresift.display import plot_path
+
+        return plot_path(self, ax)
+
+    def __repr__(self) -> str:
+        from featuresift.display import result_repr
+
+        return result_repr(self)
+
+    def _repr_html_(self) -> str:
+        from featuresift.display import result_html
+
+        return result_html(self)
 
     def write(self, folder: str | os.PathLike) -> list[Path]:
         """Write ``result.json``, ``selected.csv`` and ``path.csv`` into ``folder``.
@@ -316,6 +501,10 @@ class SearchResult:
 
     def __str__(self) -> str:
         return self.summary()
+
+
+def _nan(x: float | None) -> float:
+    return math.nan if x is None else float(x)
 
 
 def _fmt(x: float | None) -> str:

@@ -11,7 +11,7 @@ from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.errors import InputError
 from featuresift.objectives import BaseObjective, make_objective
 from featuresift.problem import SelectionProblem
-from featuresift.result import PathRow, SearchResult
+from featuresift.result import EvaluatedSubset, PathRow, SearchResult
 from featuresift.strategies.base import (
     Scored,
     SearchSpace,
@@ -241,6 +241,12 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
         for st in space.path
     ]
     strategy_desc = {"name": strat.name, "options": strat.get_options()}
+    evaluations = [
+        EvaluatedSubset(tuple(names[i] for i in key), sc.cost, sc.mean, sc.evaluation.sem,
+                        sc.value, sc.evaluation.n_folds_run or len(sc.evaluation.fold_scores),
+                        sc.evaluation.status)
+        for key, sc in space.visited.items()
+    ]
     extras = dict(space.extras)
     if isinstance(evaluator, CrossValidationEvaluator):
         extras["engine"] = evaluator.stats()
@@ -254,7 +260,7 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
             n_cache_hits=evaluator.n_cache_hits - hits_before,
             wall_time=time.perf_counter() - t0,
             stop_reason=space.stop_reason or "no allowed subset was evaluated", success=False,
-            extras=extras,
+            extras=extras, evaluations=evaluations,
         )
     ev = best.evaluation
     return SearchResult(
@@ -278,4 +284,5 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
         stop_reason=space.stop_reason or "strategy finished",
         success=not limited,
         extras=extras,
+        evaluations=evaluations,
     )

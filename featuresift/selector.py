@@ -260,7 +260,7 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         self.random_state = random_state
         self.n_jobs = n_jobs
 
-    def fit(self, X: Any, y: Any) -> MeasurementSelector:
+    def fit(self, X: Any, y: Any, groups: Any = None) -> MeasurementSelector:
         """Search for the best affordable subset of the columns of ``X``.
 
         Parameters
@@ -269,6 +269,12 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
             Candidate measurements.
         y : array-like of shape (n_samples,)
             Target.
+        groups : array-like of shape (n_samples,), optional
+            Group labels (farm, supplier, batch...): the search's CV keeps each group's
+            rows in one fold. With an integer ``cv`` they give grouped folds (stratified
+            for classifiers); a grouped splitter such as ``GroupKFold`` requires them.
+            Inside a scikit-learn meta-estimator, request them with
+            ``set_fit_request(groups=True)`` (metadata routing).
 
         Returns
         -------
@@ -286,9 +292,15 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
             else [f"x{i}" for i in range(X.shape[1])]
         )
         cost_model = build_cost_model(names, self.costs, self.panels, self.cost_unit)
+        if groups is not None:
+            groups = np.asarray(groups)
+            if groups.ndim != 1 or groups.shape[0] != X.shape[0]:
+                raise InputError(
+                    f"groups must have one label per row of X ({X.shape[0]}), "
+                    f"got shape {groups.shape}", key="groups")
         problem = SelectionProblem(
             X, y, self.estimator, cost_model=cost_model, cv=self.cv, scoring=self.scoring,
-            feature_names=names,
+            groups=groups, feature_names=names,
         )
         options = dict(self.strategy_options or {})
         result = run_search(

@@ -1,0 +1,384 @@
+"""How results look in a notebook and a console: short reprs, HTML tables, plots.
+
+Every public result object (:class:`~featuresift.result.SearchResult`,
+:class:`~featuresift.frontier.Frontier`, :class:`~featuresift.nested.NestedEvaluation`,
+:class:`~featuresift.problem.SelectionProblem`, :class:`~featuresift.costs.CostModel`)
+delegates its ``__repr__`` (one line, no memory address) and ``_repr_html_`` (what
+Jupyter shows) to the functions here, so the same facts are shown the same way:
+the chosen measurements, their cost against the budget beside the references
+(nothing / free only / everything, when the result has them), and every score with
+its kind, in-search (optimistic) or nested (honest).
+
+Plot functions draw on a given matplotlib ``Axes`` or a new figure from
+``matplotlib.pyplot``; they never choose or switch the backend (a script that needs a
+file-only backend selects it before plotting, as the command-line tool does).
+
+Examples
+--------
+>>> from featuresift.costs import CostModel
+>>> cm = CostModel(["a", "b", "c"], {"a": 0.0}, panels={"kit": (5.0, ["b", "c"])}, unit="EUR")
+>>> "<table" in cost_model_html(cm)
+True
+"""
+
+from __future__ import annotations
+
+import html
+import math
+from collections.abc import Iterable, Mapping, Sequence
+from typing import Any
+
+__all__ = [
+    "score_text",
+    "short_list",
+    "result_repr",
+    "result_html",
+    "frontier_repr",
+    "frontier_html",
+    "nested_repr",
+    "nested_html",
+    "problem_repr",
+    "problem_html",
+    "cost_model_html",
+    "plot_path",
+]
+
+_MAX_NAMES = 4
+"""Names shown in a one-line repr before "+N more"."""
+
+
+def score_kind_label(kind: str, scoring: str | None = None) -> str:
+    """The words beside a score: :func:`featuresift.result.score_label`."""
+    from featuresift.result import score_label
+
+    return score_label(kind, scoring)
+
+
+def _f(x: Any, digits: int = 4) -> str:
+    if x is None:
+        return "-"
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return str(x)
+    if not math.isfinite(v):
+        return "-"
+    return f"{v:.{digits}f}"
+
+
+def _money(x: Any) -> str:
+    if x is None:
+        return "unlimited"
+    v = float(x)
+    return f"{v:g}" if math.isfinite(v) else "unlimited"
+
+
+def short_list(names: Sequence[str], limit: int = _MAX_NAMES) -> str:
+    """``['a', 'b', +3 more]``: a list of names cut for a one-line repr.
+
+    Examples
+    --------
+    >>> short_list(["ph", "ash", "fat", "salt", "iron", "zinc"])
+    "['ph', 'ash', 'fat', 'salt', +2 more]"
+    >>> short_list([])
+    '[]'
+    """
+    names = list(names)
+    shown = [repr(str(n)) for n in names[:limit]]
+    if len(names) > limit:
+        shown.append(f"+{len(names) - limit} more")
+    return "[" + ", ".join(shown) + "]"
+
+
+def score_text(mean: Any, scoring: str, kind: str, sem: Any = None) -> str:
+    """``0.9123 ± 0.0100 (roc_auc, in-search estimate (optimistic))``.
+
+    Examples
+    --------
+    >>> score_text(0.91234, "roc_auc", "nested")
+    '0.9123 (roc_auc, nested estimate (honest))'
+    """
+    spread = "" if sem is None or not math.isfinite(float(sem)) else f" ± {_f(sem)}"
+    return f"{_f(mean)}{spread} ({score_kind_label(kind, scoring)})"
+
+
+def _table(header: Sequence[str], rows: Iterable[Sequence[Any]], caption: str = "") -> str:
+    cap = f"<caption style='text-align:left'>{html.escape(caption)}</caption>" if caption else ""
+    head = "".join(f"<th>{html.escape(str(h))}</th>" for h in header)
+    body = "".join(
+        "<tr>" + "".join(f"<td>{html.escape(str(c))}</td>" for c in row) + "</tr>"
+        for row in rows
+    )
+    return (f"<table class='featuresift'>{cap}<thead><tr>{head}</tr></thead>"
+            f"<tbody>{body}</tbody></table>")
+
+
+def _block(title: str, parts: Iterable[str]) -> str:
+    return (f"<div class='featuresift'><strong>{html.escape(title)}</strong>"
+            + "".join(parts) + "</div>")
+
+
+def _p(text: str) -> str:
+    return f"<p>{html.escape(text)}</p>"
+
+
+# ------------------------------------------------------------------ references
+def references_of(result: Any) -> list[tuple[str, float | None, float | None]]:
+    """``(name, cost, score)`` of the reference answers stored with a result.
+
+    The references ("nothing", "free only", "everything") are kept in the result
+    (attribute ``references`` or ``extras["references"]``) as a mapping of name to a
+    record with ``cost`` and ``score_mean`` (or ``score``); an empty list when absent.
+    """
+    refs = getattr(result, "references", None)
+    if not refs:
+        refs = getattr(result, "extras", {}).get("references")
+    if not refs:
+        return []
+    items = refs.items() if isinstance(refs, Mapping) else (
+        (getattr(r, "name", None) or r.get("name"), r) for r in refs)
+    out = []
+    for name, rec in items:
+        get = rec.get if isinstance(rec, Mapping) else (lambda k, r=rec: getattr(r, k, None))
+        score = get("score_mean")
+        if score is None:
+            score = get("score")
+            if isinstance(score, Mapping):
+                score = score.get("mean")
+        out.append((str(name), get("cost"), score))
+    return out
+
+
+# ---------------------------------------------------------------- SearchResult
+def result_repr(res: Any) -> str:
+    """One line: chosen measurements, cost against budget, in-search score, strategy.
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> from sklearn.naive_bayes import GaussianNB
+    >>> from featuresift import SelectionProblem, run_search
+    >>> X, y = load_iris(return_X_y=True)
+    >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), n_features=1)
+    >>> print(result_repr(res))
+    SearchResult(selected=['x3'], cost=1 / unlimited features, score=0.9600 in-search, strategy='forward', 4 subsets)
+    """  # noqa: E501
+    strategy = res.strategy.get("name") if isinstance(res.strategy, Mapping) else res.strategy
+    return (
+        f"SearchResult(selected={short_list(res.selected)}, "
+        f"cost={_money(res.cost)} / {_money(res.budget)} {res.cost_unit}, "
+        f"score={_f(res.score_mean)} in-search, strategy={strategy!r}, "
+        f"{res.n_evaluations} subsets)"
+    )
+
+
+def result_html(res: Any) -> str:
+    """HTML for Jupyter: chosen measurements and their cost lines, score, references."""
+    u = res.cost_unit
+    rows = [
+        (c.item if c.kind == "feature" else f"{c.item} (panel: {', '.join(c.features)})",
+         f"{c.cost:g}")
+        for c in res.cost_breakdown
+    ]
+    rows.append(("TOTAL per sample", f"{res.cost:g}"))
+    parts = [
+        _p(f"Strategy {res.strategy.get('name')}; budget {_money(res.budget)} {u}; "
+           f"{len(res.selected)} measurement(s) chosen."),
+        _table(["chosen measurement", f"cost ({u})"], rows),
+        _p("Score: " + score_text(res.score_mean, res.scoring, "in-search",
+                                  _sem(res.score_std, len(res.fold_scores)))),
+    ]
+    refs = references_of(res)
+    if refs:
+        parts.append(_table(
+            ["reference", f"cost ({u})", "score"],
+            [(name, _money(cost) if cost is not None else "-", _f(score))
+             for name, cost, score in refs],
+            caption="Beside the references",
+        ))
+    parts.append(_p(f"{res.n_evaluations} subsets evaluated, {res.n_fits} model fits, "
+                    f"{res.wall_time:.2f} s; stopped: {res.stop_reason}."))
+    return _block("featuresift search result", parts)
+
+
+def _sem(std: float, n: int) -> float | None:
+    if n < 2 or std is None or not math.isfinite(std):
+        return None
+    return std / math.sqrt(n)
+
+
+def plot_path(res: Any, ax: Any = None) -> Any:
+    """Score (with one standard error) and cost along a search path; returns the axes.
+
+    The score is drawn on ``ax`` against the step number; the cost of the subset at
+    each step on a twin axis (right). Requires matplotlib.
+    """
+    if ax is None:
+        import matplotlib.pyplot as plt
+
+        _, ax = plt.subplots(figsize=(7, 4))
+    steps = [r.step for r in res.path]
+    scores = [r.score_mean for r in res.path]
+    n = max(len(res.fold_scores), 1)
+    sems = [(r.score_std / math.sqrt(n)) if n > 1 and math.isfinite(r.score_std) else 0.0
+            for r in res.path]
+    ax.errorbar(steps, scores, yerr=sems, marker="o", color="tab:blue", capsize=3,
+                label=f"score ({score_kind_label('in-search', res.scoring)})")
+    for r in res.path:
+        if r.feature:
+            ax.annotate(f"{r.action} {r.feature}", (r.step, r.score_mean), fontsize=7,
+                        textcoords="offset points", xytext=(3, 5), rotation=20)
+    ax.set_xlabel("search step")
+    ax.set_ylabel(f"cross-validated {res.scoring}")
+    twin = ax.twinx()
+    twin.step(steps, [r.cost for r in res.path], where="mid", color="tab:orange",
+              label=f"cost ({res.cost_unit})")
+    if res.budget is not None:
+        twin.axhline(res.budget, color="tab:orange", linestyle=":", label="budget")
+    twin.set_ylabel(f"cost per sample ({res.cost_unit})")
+    handles = ax.get_legend_handles_labels()
+    more = twin.get_legend_handles_labels()
+    ax.legend(handles[0] + more[0], handles[1] + more[1], loc="lower right", fontsize=8)
+    ax.set_title(f"Search path ({res.strategy.get('name')})")
+    ax.grid(alpha=0.3)
+    return ax
+
+
+# -------------------------------------------------------------------- Frontier
+def _efficient_flags(fr: Any) -> list[bool]:
+    from featuresift.frontier import _efficient
+
+    return _efficient([r.cost for r in fr.results], [r.score_mean for r in fr.results])
+
+
+def frontier_repr(fr: Any) -> str:
+    """One line: budgets, cost and in-search score ranges, cost-efficient points.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace as NS
+    >>> r = [NS(cost=1.0, score_mean=0.7), NS(cost=3.0, score_mean=0.9)]
+    >>> fr = NS(budgets=[1, None], results=r, cost_unit="EUR", scoring="accuracy")
+    >>> print(frontier_repr(fr))
+    Frontier(2 budgets from 1 to unlimited EUR, cost 1-3 EUR, accuracy 0.7000-0.9000 in-search, 2 cost-efficient)
+    """  # noqa: E501
+    costs = [r.cost for r in fr.results]
+    scores = [r.score_mean for r in fr.results if math.isfinite(r.score_mean)]
+    lo_b = min((b for b in fr.budgets if b is not None), default=None)
+    hi_b = None if any(b is None for b in fr.budgets) else max(fr.budgets, default=None)
+    span = (f"cost {min(costs):g}-{max(costs):g} {fr.cost_unit}, " if costs else "")
+    score = (f"{fr.scoring} {_f(min(scores))}-{_f(max(scores))} in-search, "
+             if scores else "")
+    return (f"Frontier({len(fr.budgets)} budgets from {_money(lo_b)} to {_money(hi_b)} "
+            f"{fr.cost_unit}, {span}{score}{sum(_efficient_flags(fr))} cost-efficient)")
+
+
+def frontier_html(fr: Any) -> str:
+    """HTML table: one row per budget (chosen measurements, cost, in-search score)."""
+    eff = _efficient_flags(fr)
+    rows = []
+    for b, r, e in zip(fr.budgets, fr.results, eff):
+        rows.append((_money(b), ", ".join(r.selected) or "(nothing)", f"{r.cost:g}",
+                     _f(r.score_mean), _f(_sem(r.score_std, len(r.fold_scores))),
+                     "yes" if e else ""))
+    parts = [_table(
+        [f"budget ({fr.cost_unit})", "chosen measurements", f"cost ({fr.cost_unit})",
+         f"score ({score_kind_label('in-search', fr.scoring)})", "SE", "cost-efficient"],
+        rows,
+    )]
+    refs = references_of(fr.results[-1]) if fr.results else []
+    if refs:
+        parts.append(_table(["reference", f"cost ({fr.cost_unit})", "score"],
+                            [(n, _money(c) if c is not None else "-", _f(s))
+                             for n, c, s in refs], caption="Beside the references"))
+    parts.append(_p(f"{fr.n_fits} model fits for the sweep "
+                    f"({fr.n_fits_without_cache} without sharing between budgets)."))
+    return _block("featuresift budget sweep", parts)
+
+
+# ------------------------------------------------------------ NestedEvaluation
+def nested_repr(ne: Any) -> str:
+    """One line: outer folds, nested score, in-search score, optimism, mean cost."""
+    import numpy as np
+
+    return (
+        f"NestedEvaluation({len(ne.outer_scores)} outer folds, "
+        f"{ne.scoring} {_f(ne.outer_mean)} ± {_f(ne.outer_std)} nested, "
+        f"{_f(float(np.mean(ne.inner_scores)))} in-search, optimism {ne.optimism:+.4f}, "
+        f"mean cost {float(np.mean(ne.costs)):g} {ne.cost_unit})"
+    )
+
+
+def nested_html(ne: Any) -> str:
+    """HTML: nested and in-search scores, then the choice of each outer fold."""
+    import numpy as np
+
+    parts = [
+        _p("Score: " + score_text(ne.outer_mean, ne.scoring, "nested",
+                                  _sem(ne.outer_std, len(ne.outer_scores)))),
+        _p("The search's own score: " + score_text(float(np.mean(ne.inner_scores)),
+                                                   ne.scoring, "in-search")
+           + f"; optimism {ne.optimism:+.4f}."),
+        _p("Stability of the choice (Nogueira): "
+           + ("undefined" if ne.stability is None else f"{ne.stability:.3f}")),
+        _table(
+            ["outer fold", "chosen measurements", f"cost ({ne.cost_unit})",
+             f"nested {ne.scoring}", f"in-search {ne.scoring}"],
+            [(i, ", ".join(s) or "(nothing)", f"{c:g}", _f(o), _f(n))
+             for i, (s, c, o, n) in enumerate(zip(ne.selected, ne.costs, ne.outer_scores,
+                                                  ne.inner_scores))],
+        ),
+    ]
+    return _block("featuresift nested evaluation", parts)
+
+
+# ------------------------------------------------------------ SelectionProblem
+def _estimator_name(est: Any) -> str:
+    steps = getattr(est, "steps", None)
+    if steps:
+        return "Pipeline(" + " > ".join(type(s).__name__ for _, s in steps) + ")"
+    return type(est).__name__
+
+
+def problem_repr(p: Any) -> str:
+    """One line: shape, estimator, CV, scorer and costs (never a memory address)."""
+    scoring = p.scoring if isinstance(p.scoring, str) or p.scoring is None else (
+        getattr(p.scoring, "__name__", type(p.scoring).__name__))
+    cm = p.cost_model
+    return (
+        f"SelectionProblem(n_samples={p.n_samples}, n_features={p.n_features}, "
+        f"estimator={_estimator_name(p.estimator)}, cv={type(p.cv).__name__} "
+        f"({len(p.splits)} splits{', grouped' if p.groups is not None else ''}), "
+        f"scoring={scoring!r}, costs={cm!r})"
+    )
+
+
+def problem_html(p: Any) -> str:
+    """HTML: data, model, CV and the price table."""
+    rows = [
+        ("samples x candidates", f"{p.n_samples} x {p.n_features}"),
+        ("target", "classification" if p.classification else "regression"),
+        ("estimator", _estimator_name(p.estimator)),
+        ("cross-validation", f"{type(p.cv).__name__}, {len(p.splits)} splits"
+         + (f", {len(set(p.groups.tolist()))} groups" if p.groups is not None else "")),
+        ("scoring", str(p.scoring if p.scoring is not None else "estimator score")),
+    ]
+    return _block("featuresift selection problem",
+                  [_table(["", ""], rows), cost_model_html(p.cost_model, title=False)])
+
+
+# ------------------------------------------------------------------- CostModel
+def cost_model_html(cm: Any, title: bool = True) -> str:
+    """HTML price table: one row per lone measurement and per panel."""
+    rows = []
+    for n in cm.feature_names:
+        if cm.panel_of(n) is None:
+            price = cm.feature_costs[n]
+            rows.append((n, "measurement", f"{price:g}", "on hand" if price == 0 else ""))
+    for pname, (price, members) in cm.panels.items():
+        rows.append((pname, "panel", f"{price:g}", ", ".join(members)))
+    table = _table(["item", "kind", f"price ({cm.unit})", "note / panel members"], rows)
+    if not title:
+        return table
+    return _block(f"featuresift costs: {cm.n_features} candidates, {len(cm.panels)} panel(s)",
+                  [table])

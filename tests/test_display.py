@@ -1,0 +1,143 @@
+"""Rich display: short reprs, HTML, plots that keep the backend, JSON round trips, frames."""
+
+from __future__ import annotations
+
+import math
+import re
+
+import numpy as np
+import pytest
+from sklearn.datasets import load_iris
+from sklearn.naive_bayes import GaussianNB
+
+from featuresift import (
+    CostModel,
+    Frontier,
+    SearchResult,
+    SelectionProblem,
+    budget_sweep,
+    nested_evaluation,
+    run_search,
+)
+
+pytestmark = pytest.mark.usefixtures("single_blas_thread")
+
+NAMES = ["sl", "sw", "pl", "pw"]
+
+
+@pytest.fixture(scope="module")
+def objects():
+    X, y = load_iris(return_X_y=True)
+    cm = CostModel(NAMES, {"sl": 1.0, "sw": 0.0}, panels={"petal": (3.0, ["pl", "pw"])},
+                   unit="EUR")
+    groups = np.arange(150) % 6
+    problem = SelectionProblem(X, y, GaussianNB(), cost_model=cm, cv=3, groups=groups)
+    result = run_search(problem, "forward", budget=4.0)
+    frontier = budget_sweep(problem, [1.0, 3.0, None])
+    nested = nested_evaluation(X, y, GaussianNB(), cost_model=cm, outer_cv=3, inner_cv=3,
+                               budget=3.0)
+    return {"problem": problem, "result": result, "frontier": frontier, "nested": nested,
+            "costs": cm}
+
+
+@pytest.mark.parametrize("name", ["problem", "result", "frontier", "nested", "costs"])
+def test_repr_is_one_short_line_without_addresses(objects, name):
+    text = repr(objects[name])
+    assert "\n" not in text
+    assert len(text) < 200, text
+    assert not re.search(r"0x[0-9a-f]{6,}", text), text
+
+
+@pytest.mark.parametrize("name", ["problem", "result", "frontier", "nested", "costs"])
+def test_html_is_there_and_escaped(objects, name):
+    out = objects[name]._repr_html_()
+    assert out.startswith("<div class='featuresift'>") and "<table" in out
+    assert out.count("<table") == out.count("</table>")
+
+
+def test_scores_are_labelled_with_their_kind(objects):
+    assert "in-search" in repr(objects["result"])
+    assert "in-search" in objects["result"]._repr_html_()
+    assert "in-search" in objects["frontier"]._repr_html_()
+    html = objects["nested"]._repr_html_()
+    assert "nested" in html and "in-search" in html
+    assert "nested" in repr(objects["nested"])
+
+
+def test_result_html_shows_chosen_measurements_and_cost_against_budget(objects):
+    res = objects["result"]
+    html = res._repr_html_()
+    for line in res.cost_breakdown:
+        assert line.item in html
+    assert "budget 4 EUR" in html
+    assert f"{res.score_mean:.4f}" in html
+
+
+def test_long_lists_are_cut_in_the_repr():
+    res = SearchResult(
+        selected=[f"measurement_{i}" for i in range(50)], support=list(range(50)), cost=50.0,
+        cost_unit="EUR", cost_breakdown=[], budget=None, score_mean=0.9, score_std=0.01,
+        fold_scores=[0.9] * 5, scoring="accuracy", objective={}, strategy={"name": "forward"},
+        path=[], n_evaluations=1000, n_fits=5000, n_cache_hits=0, wall_time=1.0,
+        stop_reason="strategy finished",
+    )
+    text = repr(res)
+    assert "+46 more" in text and len(text) < 200
+
+
+def test_json_round_trips(objects, tmp_path):
+    res = objects["result"]
+    again = SearchResult.from_json(res.to_json())
+    assert again.to_dict() == res.to_dict()
+    assert again.cost_breakdown == res.cost_breakdown and again.path == res.path
+    res.write(tmp_path)
+    from_file = SearchResult.from_json(tmp_path / "result.json")
+    assert from_file.selected == res.selected
+    fr = objects["frontier"]
+    fr_again = Frontier.from_json(fr.to_json())
+    assert fr_again.to_dict() == fr.to_dict()
+    fr.write(tmp_path, plot=False)
+    assert Frontier.from_json(tmp_path / "frontier.json").budgets == fr.budgets
+    with pytest.raises(ValueError, match="unknown key"):
+        SearchResult.from_json('{"selected": [], "colour": 1}')
+
+
+def test_evaluations_frame_lists_every_evaluated_subset(objects):
+    res = objects["result"]
+    frame = res.evaluations_frame()
+    assert list(frame.columns[:5]) == ["features", "n", "cost", "mean", "se"]
+    assert len(frame) == res.n_evaluations
+    assert all(isinstance(f, tuple) for f in frame["features"])
+    assert frame["features"].map(len).tolist() == frame["n"].tolist()
+    # Every cost is the cost model's; every mean a scored subset's.
+    cm = objects["costs"]
+    assert [cm.cost(list(f)) for f in frame["features"]] == frame["cost"].tolist()
+    best = frame.iloc[0]
+    assert best["features"] == tuple(res.selected)
+    assert math.isclose(best["mean"], res.score_mean)
+    # SE = sample std / sqrt(k) (hand-worked from the fold scores).
+    assert math.isclose(best["se"], np.std(res.fold_scores, ddof=1) / math.sqrt(3))
+    path = res.path_frame()
+    assert all(isinstance(f, tuple) for f in path["features"])
+
+
+def test_plots_return_axes_and_keep_the_backend(objects, tmp_path):
+    matplotlib = pytest.importorskip("matplotlib")
+    pytest.importorskip("matplotlib_inline")
+    import matplotlib.pyplot as plt
+
+    before = matplotlib.get_backend()
+    try:
+        # The notebook backend: a plot must not switch it (Agg would hide every figure).
+        matplotlib.use("module://matplotlib_inline.backend_inline")
+        inline = matplotlib.get_backend()
+        ax = objects["result"].plot()
+        assert ax.get_xlabel() == "search step" and len(ax.figure.axes) == 2
+        ax2 = objects["frontier"].plot()
+        assert "in-search" in ax2.get_ylabel()
+        objects["frontier"].write(tmp_path)
+        assert (tmp_path / "frontier.png").stat().st_size > 1000
+        assert matplotlib.get_backend() == inline
+        plt.close("all")
+    finally:
+        matplotlib.use(before)
