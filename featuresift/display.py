@@ -246,9 +246,9 @@ def plot_path(res: Any, ax: Any = None) -> Any:
 
 # -------------------------------------------------------------------- Frontier
 def _efficient_flags(fr: Any) -> list[bool]:
-    from featuresift.frontier import _efficient
+    from featuresift.frontier import efficient_points
 
-    return _efficient([r.cost for r in fr.results], [r.score_mean for r in fr.results])
+    return efficient_points([r.cost for r in fr.results], [r.score_mean for r in fr.results])
 
 
 def frontier_repr(fr: Any) -> str:
@@ -276,16 +276,24 @@ def frontier_repr(fr: Any) -> str:
 def frontier_html(fr: Any) -> str:
     """HTML table: one row per budget (chosen measurements, cost, in-search score)."""
     eff = _efficient_flags(fr)
+    head = getattr(fr, "headline_index", None)
+    best = getattr(fr, "best_index", None)
     rows = []
-    for b, r, e in zip(fr.budgets, fr.results, eff):
+    for i, (b, r, e) in enumerate(zip(fr.budgets, fr.results, eff)):
+        mark = "headline" if i == head else ("best, over budget" if i == best else "")
         rows.append((_money(b), ", ".join(r.selected) or "(nothing)", f"{r.cost:g}",
                      _f(r.score_mean), _f(_sem(r.score_std, len(r.fold_scores))),
-                     "yes" if e else ""))
+                     "yes" if e else "", mark))
     parts = [_table(
         [f"budget ({fr.cost_unit})", "chosen measurements", f"cost ({fr.cost_unit})",
-         f"score ({score_kind_label('in-search', fr.scoring)})", "SE", "cost-efficient"],
+         f"score ({score_kind_label('in-search', fr.scoring)})", "SE", "cost-efficient",
+         "pick"],
         rows,
     )]
+    if getattr(fr, "nested", None) is not None:
+        ne = fr.nested
+        parts.append(_p("At the headline's budget: " + score_text(
+            ne.outer_mean, ne.scoring, "nested", _sem(ne.outer_std, len(ne.outer_scores)))))
     refs = references_of(fr.results[-1]) if fr.results else []
     if refs:
         parts.append(_table(["reference", f"cost ({fr.cost_unit})", "score"],
