@@ -38,6 +38,7 @@ from featuresift.config.nested import nested_spec
 from featuresift.engine.racing import RACES
 from featuresift.errors import FitFailedError, InputError
 from featuresift.report import write_report
+from featuresift.result import score_label
 from featuresift.strategies import STRATEGIES
 
 __all__ = ["main", "build_parser"]
@@ -186,7 +187,8 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
     def show(res) -> None:
         budget = "unlimited" if res.budget is None else f"{res.budget:g}"
         out.write(f"  budget {budget:>10}: {len(res.selected):>2} measurements, cost "
-                  f"{res.cost:g}, in-search {res.scoring} {res.score_mean:.4f}\n")
+                  f"{res.cost:g}, {score_label('in-search', res.scoring)} "
+                  f"{res.score_mean:.4f}\n")
 
     with _clean_on_error(cfg.output):
         frontier = sweep_from_config(cfg, args.budgets, write=True, callback=show,
@@ -196,10 +198,10 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
     table = frame[["budget", "n_selected", "cost", "score_mean", "score_sem", "efficient"]]
     table = table.assign(pick=["headline" if h else ("best (any budget)" if b else "")
                                for h, b in zip(frame["headline"], frame["best"])])
-    table = table.rename(columns={"score_mean": f"in-search {frontier.scoring}",
+    table = table.rename(columns={"score_mean": f"{frontier.scoring} (in-search)",
                                   "score_sem": "s.e."})
-    out.write("\nScores are in-search estimates (each search's own CV of its choice: "
-              "optimistic).\n")
+    out.write(f"\nScores: {score_label('in-search', frontier.scoring)} — each search's own "
+              "CV of its choice.\n")
     out.write(table.to_string(index=False, na_rep="unlimited",
                               float_format=lambda v: f"{v:.4g}") + "\n\n")
     for line in frontier.answer_lines():

@@ -44,7 +44,7 @@ from featuresift.costs import CostModel
 from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.errors import InputError
 from featuresift.problem import SelectionProblem
-from featuresift.result import SearchResult
+from featuresift.result import SearchResult, score_label
 from featuresift.search import prepare_for_objective, run_search
 
 __all__ = ["Frontier", "budget_sweep", "default_budgets", "round_budgets", "efficient_points"]
@@ -141,6 +141,14 @@ def _default_pick() -> str:
     return inspect.signature(run_search).parameters["pick"].default
 
 
+def _without_guard(options: dict[str, Any]) -> dict[str, Any]:
+    """Search options with the driver's noise guard off (it would re-run each search in
+    outer folds: a sweep point or an outer fold of a nested estimate must not)."""
+    if "guard" in inspect.signature(run_search).parameters:
+        return {**options, "guard": "off"}
+    return dict(options)
+
+
 def _pick_index(points: list[tuple[int, float, float, float, int]], rule: str) -> int | None:
     """Index chosen by ``rule`` among (index, cost, mean, sem, size) points."""
     ok = [p for p in points if math.isfinite(p[2])]
@@ -149,7 +157,7 @@ def _pick_index(points: list[tuple[int, float, float, float, int]], rule: str) -
     best = max(ok, key=lambda p: (p[2], -p[1], -p[4], -p[0]))
     if rule == "best":
         return best[0]
-    # one_se (Breiman et al. 1984): cheapest point within one SE of the best.
+    # one-se (Breiman et al. 1984): cheapest point within one SE of the best.
     close = [p for p in ok if p[2] >= best[2] - best[3]]
     return min(close, key=lambda p: (round(p[1], 9), -p[2], p[4], p[0]))[0]
 
@@ -173,7 +181,9 @@ class Frontier:
     budget : float or None
         The run's own budget: the headline pick must fit it (None: unlimited).
     pick : str
-        Pick rule of the headline ("best" or "one_se").
+        Pick rule of the headline: "best" (highest in-search score), otherwise the
+        one-standard-error rule ("one-se", alias "one_se": the cheapest point whose score
+        is within one standard error of the best affordable point).
     nested : NestedEvaluation or None
         Nested estimate of the search at the headline's budget, when asked for.
 
@@ -394,8 +404,9 @@ class Frontier:
         r = self.results[i]
         b = "unlimited" if self.budgets[i] is None else f"{self.budgets[i]:g}"
         what = " + ".join(r.selected) if r.selected else "no measurement"
-        return (f"budget {b}: {what} — cost {r.cost:g} {self.cost_unit}, {SCORE_KIND} "
-                f"{self.scoring} {r.score_mean:.4f} ± {_sem(r):.4f} (s.e.)")
+        return (f"budget {b}: {what} — cost {r.cost:g} {self.cost_unit}, "
+                f"{score_label(SCORE_KIND, self.scoring)} {r.score_mean:.4f} ± "
+                f"{_sem(r):.4f} (s.e.)")
 
     def answer_lines(self) -> list[str]:
         """Plain-text lines: the headline pick, the unconstrained best, the nested score."""
@@ -409,9 +420,9 @@ class Frontier:
             ne = self.nested
             ci = "" if ne.ci is None else (
                 f", {ne.confidence:.0%} CI [{ne.ci[0]:.4f}, {ne.ci[1]:.4f}]")
-            lines.append(f"Nested {self.scoring} of the search at the headline's budget "
-                         f"({ne.design}): {ne.outer_mean:.4f}{ci}; optimism of the "
-                         f"in-search score {ne.optimism:+.4f}")
+            lines.append(f"The search at the headline's budget, {ne.design}: "
+                         f"{score_label('nested', self.scoring)} {ne.outer_mean:.4f}{ci}; "
+                         f"optimism of the in-search estimate {ne.optimism:+.4f}")
         return lines
 
     def to_markdown(self) -> list[str]:
@@ -425,12 +436,13 @@ class Frontier:
         lines = [
             "## Accuracy against cost across budgets",
             "",
-            f"Scores are **{SCORE_KIND}** estimates (each search's own cross-validation of "
-            "its choice: optimistic, since the search chose the subset on those folds).",
+            f"Scores: **{score_label(SCORE_KIND, self.scoring)}** — each search's own "
+            "cross-validation of its choice, optimistic since the search chose the subset "
+            "on those folds.",
             "",
             *[f"- {s}" for s in self.answer_lines()],
             "",
-            f"| budget | measurements | cost ({u}) | {SCORE_KIND} {self.scoring} | ± s.e. "
+            f"| budget | measurements | cost ({u}) | {self.scoring} ({SCORE_KIND}) | ± s.e. "
             "| efficient | pick |",
             "|---|---|---|---|---|---|---|",
         ]
@@ -495,9 +507,9 @@ class Frontier:
         if self.budget is not None:
             ax.axvline(self.budget, ls=":", color="0.4", label="budget of the run")
         ax.set_xlabel(f"acquisition cost per sample ({self.cost_unit})")
-        ax.set_ylabel(f"{SCORE_KIND} {self.scoring}")
-        ax.set_title(f"Accuracy against measurement cost ({SCORE_KIND} scores, optimistic;\n"
-                     "numbers: measurements chosen)", fontsize=10)
+        ax.set_ylabel(score_label(SCORE_KIND, self.scoring))
+        ax.set_title(f"Accuracy against measurement cost: {score_label(SCORE_KIND)}\n"
+                     "(numbers: measurements chosen)", fontsize=10)
         ax.grid(alpha=0.3)
         ax.legend(loc="lower right", fontsize=7)
         return ax
@@ -606,9 +618,10 @@ def budget_sweep(
     fits_before = shared.n_fits
     results = []
     without_cache = 0
+    point_options = _without_guard(search_options)
     for b in budgets:
         res = run_search(
-            shared, strategy, cost_model=problem.cost_model, budget=b, **search_options
+            shared, strategy, cost_model=problem.cost_model, budget=b, **point_options
         )
         without_cache += res.n_evaluations * n_folds
         results.append(res)

@@ -43,7 +43,7 @@ from sklearn.model_selection import GroupKFold, KFold, StratifiedKFold, check_cv
 from featuresift.costs import CostModel
 from featuresift.errors import InputError
 from featuresift.problem import SelectionProblem
-from featuresift.result import SearchResult
+from featuresift.result import SearchResult, score_label
 from featuresift.search import run_search
 from featuresift.stability import nogueira_stability
 
@@ -286,10 +286,11 @@ class NestedEvaluation:
         lines = [
             f"Nested CV ({self.design}, {len(self.outer_scores)} outer searches), "
             f"{self.scoring}:",
-            f"  nested score    {self.outer_mean:.4f}  {self._ci_text()}",
-            f"  in-search score {self.inner_mean:.4f}  (the search's own estimate, "
-            "optimistic)",
-            f"  optimism (in-search - nested) {self.optimism:+.4f}",
+            f"  {score_label('nested', self.scoring)}: {self.outer_mean:.4f}, "
+            f"{self._ci_text()}",
+            f"  {score_label('in-search', self.scoring)}: {self.inner_mean:.4f} (mean over "
+            "the outer searches)",
+            f"  optimism (in-search - nested): {self.optimism:+.4f}",
             f"  mean cost {np.mean(self.costs):.2f} {self.cost_unit}",
             "  stability (Nogueira et al. 2018): "
             + ("undefined" if self.stability is None else f"{self.stability:.3f}"),
@@ -312,11 +313,12 @@ class NestedEvaluation:
             "and the chosen measurements were scored on the outer test fold, which the "
             "search never saw.",
             "",
-            f"- nested {self.scoring}: **{self.outer_mean:.4f}**, {self._ci_text()}; the "
+            f"- {score_label('nested', self.scoring)}: **{self.outer_mean:.4f}**, "
+            f"{self._ci_text()}; the "
             "interval widens the plain t interval for overlapping training sets and is "
             "approximate",
-            f"- in-search {self.scoring} (the search's own estimate): {self.inner_mean:.4f} — "
-            f"optimism {self.optimism:+.4f}",
+            f"- {score_label('in-search', self.scoring)} (the search's own, mean over the "
+            f"outer searches): {self.inner_mean:.4f} — optimism {self.optimism:+.4f}",
             "- stability of the choice (Nogueira et al. 2018): "
             + ("undefined" if self.stability is None else f"{self.stability:.3f}"),
             "",
@@ -457,6 +459,8 @@ def nested_evaluation(
     if "random_state" in search_options:  # the search's seed under its older name
         seed = search_options.pop("random_state")
     search_options[_SEED_NAME] = seed
+    if "guard" in inspect.signature(run_search).parameters:
+        search_options["guard"] = "off"  # a guard would nest outer folds inside each fold
     if isinstance(outer_cv, (int, np.integer)) and not isinstance(outer_cv, bool):
         outer = outer_splitter(int(outer_cv), stratified=classification,
                                grouped=g is not None, seed=0 if seed is None else seed)

@@ -119,7 +119,8 @@ def test_run_nested_writes_honest_estimate(small_config, capsys):
     report = (out_dir / "report.md").read_text()
     assert "nested cross-validation" in report and "95% CI" in report
     out = capsys.readouterr().out
-    assert "nested score" in out and "in-search score" in out and "2 repeats x 2" in out
+    assert "roc_auc, nested estimate (honest)" in out and "2 repeats x 2" in out
+    assert "roc_auc, in-search estimate (optimistic)" in out
 
 
 def test_nested_section_is_checked(small_config, capsys):
@@ -149,4 +150,5 @@ def test_sweep_headline_within_config_budget_and_nested_at_pick(small_config, ca
     choices = pd.read_csv(out_dir / "frontier_choices.csv")
     assert choices["n_budgets"].max() <= 3 and set(choices["feature"]) <= set(CANDIDATES)
     out = capsys.readouterr().out
-    assert "in-search roc_auc" in out and "Headline" in out and "Nested roc_auc" in out
+    assert "roc_auc (in-search)" in out and "Headline" in out
+    assert "roc_auc, nested estimate (honest)" in out
