@@ -447,7 +447,7 @@ class Frontier:
             "|---|---|---|---|---|---|---|",
         ]
         for r in frame.itertuples():
-            mark = "headline" if r.headline else ("best, over budget" if r.best else "")
+            mark = "headline" if r.headline else ("best at any budget" if r.best else "")
             lines.append(
                 f"| {'unlimited' if math.isnan(r.budget) else f'{r.budget:g}'} | "
                 f"{r.selected or '(nothing)'} | {cell(r.cost, 2)} | {cell(r.score_mean, 4)} | "
