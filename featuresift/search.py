@@ -111,6 +111,7 @@ def run_search(
     verbose: int = 0,
     on_fit_error: str = "raise",
     share_preprocessing: bool = True,
+    fast_path: bool = True,
     **strategy_options: Any,
 ) -> SearchResult:
     """Search feature subsets and return the chosen measurements.
@@ -143,11 +144,12 @@ def run_search(
         Parallel fits (when an evaluator is built here).
     callback : callable, optional
         ``callback(step)`` after each path step; returning True stops.
-    racing, journal, chunk_size, verbose, on_fit_error, share_preprocessing : optional
+    racing, journal, chunk_size, verbose, on_fit_error, share_preprocessing, fast_path : optional
         Passed to the :class:`CrossValidationEvaluator` built here (racing rule,
         SQLite journal path for resumable runs, fits per parallel task, progress bar,
         failure policy "raise" or "record", column-wise pipeline steps fitted once per
-        fold). Ignored when ``problem`` is an evaluator.
+        fold, exact scores of OLS/ridge/LDA from per-fold statistics). Ignored when
+        ``problem`` is an evaluator.
 
     Returns
     -------
@@ -197,6 +199,7 @@ def run_search(
         evaluator = CrossValidationEvaluator(
             problem, n_jobs=n_jobs, racing=racing, journal=journal, chunk_size=chunk_size,
             verbose=verbose, on_fit_error=on_fit_error, share_preprocessing=share_preprocessing,
+            fast_path=fast_path,
         )
     names = list(cost_model.feature_names)
     try:
