@@ -163,7 +163,7 @@ def efficiency(X, y, repeats):
             problem = SelectionProblem(X, y, _estimator(), cv=StratifiedKFold(5))
             ev = CrossValidationEvaluator(problem, n_jobs=n_jobs)
             t0 = time.perf_counter()
-            run_search(ev, "forward", n_features=N_SELECT, cost_model=problem.cost_model)
+            run_search(ev, "forward", n_features=N_SELECT, costs=problem.cost_model)
             wall = time.perf_counter() - t0
             fit_sum = sum(e.fit_time for e in ev.history)
             effs.append(fit_sum / (wall * n_jobs))
@@ -177,24 +177,24 @@ def cache_table(X, y):
     cm = problem.cost_model
     rows = []
     ev = CrossValidationEvaluator(problem, n_jobs=2)
-    r1 = run_search(ev, "forward", n_features=N_SELECT, cost_model=cm)
+    r1 = run_search(ev, "forward", n_features=N_SELECT, costs=cm)
     rows.append(("forward (fresh evaluator)", r1.n_fits, r1.n_cache_hits, r1.wall_time))
-    r2 = run_search(ev, "forward", n_features=N_SELECT, cost_model=cm)
+    r2 = run_search(ev, "forward", n_features=N_SELECT, costs=cm)
     rows.append(("forward again, same evaluator", r2.n_fits, r2.n_cache_hits, r2.wall_time))
-    r3 = run_search(ev, "backward", n_features=N_SELECT, cost_model=cm)
+    r3 = run_search(ev, "backward", n_features=N_SELECT, costs=cm)
     rows.append(("backward after forward, same evaluator", r3.n_fits, r3.n_cache_hits,
                  r3.wall_time))
     fresh = CrossValidationEvaluator(problem, n_jobs=2)
-    r4 = run_search(fresh, "backward", n_features=N_SELECT, cost_model=cm)
+    r4 = run_search(fresh, "backward", n_features=N_SELECT, costs=cm)
     rows.append(("backward (fresh evaluator)", r4.n_fits, r4.n_cache_hits, r4.wall_time))
     fl = run_search(CrossValidationEvaluator(problem, n_jobs=2), "floating-forward",
-                    n_features=N_SELECT, cost_model=cm)
+                    n_features=N_SELECT, costs=cm)
     rows.append((f"floating forward to {N_SELECT} (fresh evaluator; {fl.n_evaluations} "
                  "distinct subsets)", fl.n_fits, fl.n_cache_hits, fl.wall_time))
     # A sweep over budgets with invented prices 1-4 per measurement (cycled).
     prices = CostModel(problem.feature_names,
                        {n: 1 + i % 4 for i, n in enumerate(problem.feature_names)})
-    priced = SelectionProblem(X, y, _estimator(), cost_model=prices, cv=StratifiedKFold(5))
+    priced = SelectionProblem(X, y, _estimator(), costs=prices, cv=StratifiedKFold(5))
     t0 = time.perf_counter()
     fr = budget_sweep(priced, [5, 10, 15, 20], "forward", n_jobs=2, max_features=N_SELECT)
     rows.append((f"budget sweep, 4 budgets (5-20, prices 1-4 per measurement), one shared "
@@ -203,11 +203,11 @@ def cache_table(X, y):
     with tempfile.TemporaryDirectory() as tmp:
         path = os.path.join(tmp, "journal.sqlite")
         first = CrossValidationEvaluator(problem, n_jobs=2, journal=path)
-        r5 = run_search(first, "forward", n_features=N_SELECT, cost_model=cm)
+        r5 = run_search(first, "forward", n_features=N_SELECT, costs=cm)
         first.close()
         rows.append(("forward with a new journal", r5.n_fits, r5.n_cache_hits, r5.wall_time))
         again = CrossValidationEvaluator(problem, n_jobs=2, journal=path)
-        r6 = run_search(again, "forward", n_features=N_SELECT, cost_model=cm)
+        r6 = run_search(again, "forward", n_features=N_SELECT, costs=cm)
         again.close()
         rows.append(("forward started again on that journal", r6.n_fits, r6.n_cache_hits,
                      r6.wall_time))

@@ -164,7 +164,7 @@ def part2(quick: bool, strategy: str) -> dict:
     names = list(cm.feature_names)
     cm_tr = CostModel(names, cm.feature_costs, unit=cm.unit)
     model = make_pipeline(StandardScaler(), LogisticRegression(max_iter=500))
-    prob = SelectionProblem(X[tr], y[tr], model, cost_model=cm_tr, cv=3, scoring="accuracy",
+    prob = SelectionProblem(X[tr], y[tr], model, costs=cm_tr, cv=3, scoring="accuracy",
                             feature_names=names)
     print(f"\n== Part 2: pre-screen (top {keep} by ANOVA F per cost) + {strategy}, "
           f"{n} x {p}, 15 informative ==")

@@ -59,7 +59,7 @@ def wine_problem() -> SelectionProblem:
     data = load_wine()
     names = list(data.feature_names)
     costs = CostModel(names, PRICES, panels=PANELS, unit="EUR (invented)")
-    return SelectionProblem(data.data, data.target, GaussianNB(), cost_model=costs,
+    return SelectionProblem(data.data, data.target, GaussianNB(), costs=costs,
                             cv=StratifiedKFold(N_FOLDS, shuffle=True, random_state=0),
                             feature_names=names)
 
@@ -151,7 +151,7 @@ def main() -> None:
             for seed in seeds:
                 t0 = time.perf_counter()
                 res = run_search(TableEvaluator(table, names, N_FOLDS), name,
-                                 cost_model=costs, budget=budget, random_state=seed)
+                                 costs=costs, budget=budget, seed=seed)
                 seconds[name] += time.perf_counter() - t0
                 assert costs.is_feasible(res.support, budget)
                 hit = res.score_mean >= threshold

@@ -23,7 +23,7 @@ from typing import Any
 
 from featuresift.errors import InputError
 
-__all__ = ["CostModel", "CostLine", "AllowedSubsets"]
+__all__ = ["CostModel", "CostLine", "make_cost_model", "parse_panel", "AllowedSubsets"]
 
 
 @dataclass(frozen=True)
@@ -57,6 +57,136 @@ class CostLine:
     cost: float
 
 
+def parse_panel(name: str, spec: Any) -> tuple[Any, list[str]]:
+    """One panel in either form: ``(price, [features])`` or ``{"cost": c, "features": [...]}``.
+
+    Returns ``(price, features)``; the price is checked by the caller.
+
+    Examples
+    --------
+    >>> parse_panel("kit", {"cost": 5.0, "features": ["b", "c"]})
+    (5.0, ['b', 'c'])
+    >>> parse_panel("kit", (5.0, ["b", "c"]))
+    (5.0, ['b', 'c'])
+    """
+    where = f"costs.panels.{name}"
+    if isinstance(spec, Mapping):
+        unknown = set(spec) - {"cost", "features"}
+        if unknown or "cost" not in spec or "features" not in spec:
+            raise InputError(
+                f"{where}: a panel is {{'cost': price, 'features': [names]}} or "
+                "(price, [names])"
+                + (f"; unknown key(s): {', '.join(sorted(map(str, unknown)))}" if unknown else "")
+            )
+        price, members = spec["cost"], spec["features"]
+    else:
+        try:
+            price, members = spec
+        except (TypeError, ValueError):
+            raise InputError(
+                f"{where}: a panel is (price, [names]) or {{'cost': price, 'features': "
+                f"[names]}}, got {spec!r}"
+            ) from None
+    if isinstance(members, (str, bytes)) or not isinstance(members, Iterable):
+        raise InputError(f"{where}.features: panel features must be a list of names, "
+                         f"got {members!r}")
+    return price, [str(m) for m in members]
+
+
+def _is_spec(costs: Mapping) -> bool:
+    """A YAML-style ``{"features": ..., "panels": ..., "unit": ...}`` (not a price list)."""
+    return any(k in costs and not isinstance(costs[k], (int, float))
+               for k in ("features", "panels", "unit"))
+
+
+def make_cost_model(
+    feature_names: Sequence[str],
+    costs: Any = None,
+    panels: Mapping[str, Any] | None = None,
+    unit: str | None = None,
+) -> CostModel:
+    """A :class:`CostModel` from any of the forms ``costs`` takes in featuresift.
+
+    Parameters
+    ----------
+    feature_names : sequence of str
+        Column names, in order.
+    costs : None, CostModel, mapping or array-like
+        ``None``: every feature outside a panel costs 1 (unit "features"). A
+        :class:`CostModel` is used as is (its features must be the columns). The YAML
+        form ``{"features": {name: price}, "panels": {...}, "unit": "EUR"}``. A flat
+        mapping ``{name: price}`` of the features outside panels. An array gives one
+        price per column; entries of panel members must be 0 or NaN.
+    panels : mapping, optional
+        Panels in either form (see :class:`CostModel`), when ``costs`` does not hold them.
+    unit : str, optional
+        Cost unit, when ``costs`` does not give one.
+
+    Returns
+    -------
+    CostModel
+
+    Examples
+    --------
+    >>> cm = make_cost_model(["a", "b", "c"], {"unit": "EUR", "features": {"a": 2.0},
+    ...                      "panels": {"kit": {"cost": 5.0, "features": ["b", "c"]}}})
+    >>> cm.cost(["a", "b", "c"]), cm.unit
+    (7.0, 'EUR')
+    >>> make_cost_model(["a", "b"], [1.0, 3.0]).cost([1])
+    3.0
+    """
+    names = [str(n) for n in feature_names]
+    if isinstance(costs, CostModel):
+        if panels or unit:
+            raise InputError("give panels and unit inside the CostModel, not beside it",
+                             key="costs")
+        if list(costs.feature_names) != names:
+            raise InputError("the CostModel's features must be the columns of X, in order",
+                             key="costs")
+        return costs
+    if isinstance(costs, Mapping) and _is_spec(costs):
+        unknown = sorted(set(map(str, costs)) - {"features", "panels", "unit"})
+        if unknown:
+            raise InputError(f"unknown key(s) {', '.join(unknown)}; the cost mapping takes "
+                             "features, panels and unit", key="costs")
+        if panels is not None and costs.get("panels") is not None:
+            raise InputError("panels given twice (inside costs and beside it)", key="panels")
+        panels = costs.get("panels") if costs.get("panels") is not None else panels
+        unit = costs.get("unit") if costs.get("unit") is not None else unit
+        costs = {} if costs.get("features") is None else costs["features"]
+    panel_map = {str(k): parse_panel(str(k), v) for k, v in dict(panels or {}).items()}
+    in_panel = {m for _, members in panel_map.values() for m in members}
+    if costs is None:
+        prices: dict[str, Any] = {n: 1.0 for n in names if n not in in_panel}
+        default_unit = "features"
+    elif isinstance(costs, Mapping):
+        prices = {str(k): v for k, v in costs.items()}
+        default_unit = "cost units"
+    else:
+        import numpy as np
+
+        values = np.asarray(costs, dtype=object).ravel()
+        if values.shape[0] != len(names):
+            raise InputError(
+                f"{values.shape[0]} costs given for {len(names)} columns of X", key="costs"
+            )
+        prices = {}
+        for i, (n, v) in enumerate(zip(names, values)):
+            if n in in_panel:
+                blank = isinstance(v, (int, float, np.number)) and (
+                    math.isnan(float(v)) or float(v) == 0.0
+                )
+                if not blank:
+                    raise InputError(
+                        f"'{n}' is paid through its panel; its entry must be 0 or NaN, got {v!r}",
+                        key=f"costs[{i}]",
+                    )
+                continue
+            prices[n] = v.item() if isinstance(v, np.generic) else v
+        default_unit = "cost units"
+    return CostModel(names, prices, panels=panel_map, unit=unit or default_unit)
+
+
 def _check_price(value: object, where: str) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise InputError(f"{where}: cost must be a number, got {value!r}")
@@ -81,8 +211,9 @@ class CostModel:
     feature_costs : mapping of str to float
         Price of each feature that is not part of a panel. Features in a panel
         may be absent here; a feature neither priced nor in a panel is an error.
-    panels : mapping of str to (price, list of feature names), optional
-        Named groups bought together for one price.
+    panels : mapping, optional
+        Named groups bought together for one price: ``{name: (price, [features])}`` or
+        ``{name: {"cost": price, "features": [features]}}`` (the YAML form).
     unit : str, default="cost units"
         Currency or unit label carried into every output.
 
@@ -102,7 +233,7 @@ class CostModel:
         self,
         feature_names: Sequence[str],
         feature_costs: Mapping[str, float],
-        panels: Mapping[str, tuple[float, Sequence[str]]] | None = None,
+        panels: Mapping[str, Any] | None = None,
         unit: str = "cost units",
     ) -> None:
         names = tuple(str(n) for n in feature_names)
@@ -118,9 +249,9 @@ class CostModel:
         panel_map: dict[str, tuple[float, tuple[str, ...]]] = {}
         owner: dict[str, str] = {}
         for pname, spec in dict(panels or {}).items():
-            price, members = spec
+            price, members = parse_panel(str(pname), spec)
             price = _check_price(price, f"costs.panels.{pname}.cost")
-            members = tuple(str(m) for m in members)
+            members = tuple(members)
             if not members:
                 raise InputError(f"costs.panels.{pname}: a panel needs at least one feature")
             for m in members:

@@ -193,7 +193,7 @@ class Frontier:
     >>> from sklearn.naive_bayes import GaussianNB
     >>> X, y = load_wine(return_X_y=True)
     >>> costs = CostModel.uniform(["alcohol", "malic", "ash", "alkalinity"], unit="EUR")
-    >>> problem = SelectionProblem(X[:, :4], y, GaussianNB(), cost_model=costs, cv=3)
+    >>> problem = SelectionProblem(X[:, :4], y, GaussianNB(), costs=costs, cv=3)
     >>> fr = budget_sweep(problem, [1, 2], "forward", pick="best")
     >>> fr.budgets, [r.selected for r in fr.results], fr.cost_unit
     ([1, 2], [['alcohol'], ['alcohol', 'alkalinity']], 'EUR')
@@ -593,7 +593,7 @@ def budget_sweep(
     >>> from sklearn.naive_bayes import GaussianNB
     >>> X, y = load_iris(return_X_y=True)
     >>> cm = CostModel(["a", "b", "c", "d"], {"a": 1, "b": 1, "c": 5, "d": 5})
-    >>> p = SelectionProblem(X, y, GaussianNB(), cost_model=cm, cv=3)
+    >>> p = SelectionProblem(X, y, GaussianNB(), costs=cm, cv=3)
     >>> fr = budget_sweep(p, [1, 6, None], budget=6)
     >>> [r.cost <= 6 for r in fr.results[:2]], fr.headline.cost <= 6
     ([True, True], True)
@@ -621,7 +621,7 @@ def budget_sweep(
     point_options = _without_guard(search_options)
     for b in budgets:
         res = run_search(
-            shared, strategy, cost_model=problem.cost_model, budget=b, **point_options
+            shared, strategy, costs=problem.cost_model, budget=b, **point_options
         )
         without_cache += res.n_evaluations * n_folds
         results.append(res)
@@ -648,7 +648,7 @@ def budget_sweep(
         fixed = getattr(original.cv, "cv", None) is not None  # sklearn's wrapper of a list
         inner = len(original.splits) if fixed else original.cv
         frontier.nested = nested_evaluation(
-            original.X, original.y, original.estimator, cost_model=original.cost_model,
+            original.X, original.y, original.estimator, costs=original.cost_model,
             outer_cv=nested, n_repeats=n_repeats, inner_cv=inner,
             scoring=original.scoring, groups=original.groups,
             feature_names=original.feature_names, strategy=strategy, n_jobs=n_jobs,

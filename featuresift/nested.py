@@ -40,7 +40,8 @@ from sklearn.dummy import DummyClassifier, DummyRegressor
 from sklearn.metrics import check_scoring
 from sklearn.model_selection import GroupKFold, KFold, StratifiedKFold, check_cv
 
-from featuresift.costs import CostModel
+from featuresift._compat import renamed_keywords
+from featuresift.costs import CostModel  # noqa: F401 - the docstring examples use it
 from featuresift.errors import InputError
 from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult, score_label
@@ -53,8 +54,6 @@ __all__ = ["NestedEvaluation", "nested_evaluation", "corrected_t_interval", "out
 NOTHING_LABEL = "(nothing)"
 """How an outer search that answered with no measurement is shown in answer counts."""
 
-# The search driver's name for its seed ("seed"; "random_state" in older versions).
-_SEED_NAME = "seed" if "seed" in inspect.signature(run_search).parameters else "random_state"
 
 CI_METHOD = "corrected resampled t (Nadeau & Bengio 2003)"
 
@@ -204,7 +203,7 @@ class NestedEvaluation:
     >>> X, y = load_wine(return_X_y=True)
     >>> prices = {"alcohol": 1, "malic": 1, "ash": 2}
     >>> costs = CostModel(["alcohol", "malic", "ash"], prices, unit="EUR")
-    >>> ne = nested_evaluation(X[:, :3], y, GaussianNB(), cost_model=costs,
+    >>> ne = nested_evaluation(X[:, :3], y, GaussianNB(), costs=costs,
     ...                        outer_cv=3, n_repeats=2, inner_cv=3, budget=2)
     >>> len(ne.outer_scores), ne.repeats, ne.selection_frequency["malic"]
     (6, [0, 0, 0, 1, 1, 1], 1.0)
@@ -392,12 +391,13 @@ class NestedEvaluation:
         }
 
 
+@renamed_keywords(cost_model="costs", random_state="seed")
 def nested_evaluation(
     X: Any,
     y: Any,
     estimator: Any,
     *,
-    cost_model: CostModel | None = None,
+    costs: Any = None,
     outer_cv: Any = 5,
     n_repeats: int = 1,
     inner_cv: Any = 5,
@@ -414,8 +414,9 @@ def nested_evaluation(
 
     Parameters
     ----------
-    X, y, estimator, cost_model, scoring, groups, feature_names
-        As for :class:`~featuresift.SelectionProblem`.
+    X, y, estimator, costs, scoring, groups, feature_names
+        As for :class:`~featuresift.SelectionProblem` (``cost_model``: deprecated name
+        of ``costs``; ``random_state``: of ``seed``).
     outer_cv : int or splitter, default=5
         Outer splits; the search never sees the outer test fold. An int K gives
         :func:`outer_splitter` (shuffled; stratified for classifiers, grouped when
@@ -450,15 +451,13 @@ def nested_evaluation(
     if not 0 < confidence < 1:
         raise InputError(f"confidence must lie strictly between 0 and 1, got {confidence!r}")
     full = SelectionProblem(
-        X, y, estimator, cost_model=cost_model, cv=2, scoring=scoring, groups=groups,
+        X, y, estimator, costs=costs, cv=2, scoring=scoring, groups=groups,
         feature_names=feature_names,
     )
     Xa, ya, names = full.X, full.y, full.feature_names
     g = full.groups
     classification = is_classifier(estimator)
-    if "random_state" in search_options:  # the search's seed under its older name
-        seed = search_options.pop("random_state")
-    search_options[_SEED_NAME] = seed
+    search_options["seed"] = seed
     if "guard" in inspect.signature(run_search).parameters:
         search_options["guard"] = "off"  # a guard would nest outer folds inside each fold
     if isinstance(outer_cv, (int, np.integer)) and not isinstance(outer_cv, bool):
@@ -479,7 +478,7 @@ def nested_evaluation(
     outer_scores, inner_scores, selected, costs, results = [], [], [], [], []
     for train, test, _ in splits:
         inner = SelectionProblem(
-            Xa[train], ya[train], estimator, cost_model=full.cost_model, cv=inner_cv,
+            Xa[train], ya[train], estimator, costs=full.cost_model, cv=inner_cv,
             scoring=scoring, groups=None if g is None else g[train], feature_names=names,
         )
         res = run_search(inner, strategy, n_jobs=n_jobs, **search_options)

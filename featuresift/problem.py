@@ -28,7 +28,8 @@ from sklearn.model_selection import (
     check_cv,
 )
 
-from featuresift.costs import CostModel
+from featuresift._compat import renamed_keywords
+from featuresift.costs import CostModel, make_cost_model
 from featuresift.errors import InputError
 
 __all__ = ["SelectionProblem", "make_splitter"]
@@ -156,8 +157,11 @@ class SelectionProblem:
         Target.
     estimator : scikit-learn estimator
         Model (or pipeline) fitted on each subset; it is cloned for every fit.
-    cost_model : CostModel, optional
-        Acquisition costs. Default: every feature costs 1 (unit "features").
+    costs : CostModel or mapping, optional
+        Acquisition costs: a :class:`CostModel`, or as YAML's ``costs`` section
+        ``{"features": {name: price}, "panels": {...}, "unit": "EUR"}`` (or any form
+        :func:`~featuresift.costs.make_cost_model` takes). Default: every feature costs 1
+        (unit "features"). Kept as the attribute ``cost_model`` (a CostModel).
     cv : int, CV splitter or iterable of (train, test), default=5
         Cross-validation. An integer with ``groups`` gives grouped folds, stratified for
         classifiers (:func:`make_splitter`: ``StratifiedGroupKFold`` or ``GroupKFold``,
@@ -171,7 +175,9 @@ class SelectionProblem:
         Group labels (e.g. farm, supplier, batch): rows of a group never fall on both
         sides of a split. Required by grouped splitters such as ``GroupKFold``.
     feature_names : sequence of str, optional
-        Column names (taken from a DataFrame, else from ``cost_model``, when not given).
+        Column names (taken from a DataFrame, else from a ``CostModel``, when not given).
+    cost_model : CostModel, deprecated
+        Old name of ``costs``.
 
     Examples
     --------
@@ -183,12 +189,13 @@ class SelectionProblem:
     (4, 3)
     """
 
+    @renamed_keywords(cost_model="costs")
     def __init__(
         self,
         X: Any,
         y: Any,
         estimator: BaseEstimator,
-        cost_model: CostModel | None = None,
+        costs: Any = None,
         cv: Any = 5,
         scoring: str | Callable | None = None,
         groups: Any = None,
@@ -196,9 +203,9 @@ class SelectionProblem:
     ) -> None:
         X_arr, df_names = _as_2d_float(X)
         names = list(feature_names) if feature_names is not None else df_names
-        if names is None and cost_model is not None:
+        if names is None and isinstance(costs, CostModel):
             # A plain array with a cost model: its columns are the cost model's features.
-            names = list(cost_model.feature_names)
+            names = list(costs.feature_names)
         if names is None:
             names = [f"x{i}" for i in range(X_arr.shape[1])]
         if len(names) != X_arr.shape[1]:
@@ -223,9 +230,7 @@ class SelectionProblem:
         self.groups = None if groups is None else np.asarray(groups)
         self.feature_names = [str(n) for n in names]
         self.estimator = estimator
-        self.cost_model = cost_model if cost_model is not None else CostModel.uniform(names)
-        if list(self.cost_model.feature_names) != self.feature_names:
-            raise InputError("the cost model's features must be the columns of X, in order")
+        self.cost_model = make_cost_model(self.feature_names, costs)
         if isinstance(scoring, str) and scoring not in get_scorer_names():
             raise InputError(
                 f"unknown scorer '{scoring}'; use a scikit-learn scorer name "
@@ -252,10 +257,13 @@ class SelectionProblem:
         else:
             splitter = check_cv(cv, y_arr, classifier=self.classification)
         self.cv = splitter
-        self.splits: list[tuple[np.ndarray, np.ndarray]] = [
-            (np.asarray(tr), np.asarray(te))
-            for tr, te in splitter.split(X_arr, y_arr, self.groups)
-        ]
+        try:
+            self.splits: list[tuple[np.ndarray, np.ndarray]] = [
+                (np.asarray(tr), np.asarray(te))
+                for tr, te in splitter.split(X_arr, y_arr, self.groups)
+            ]
+        except ValueError as exc:  # too few rows per class or group, ...
+            raise InputError(f"cannot make the CV folds: {exc}", key="cv") from None
         if not self.splits:
             raise InputError("the cross-validation produced no splits")
         self._fingerprint: str | None = None

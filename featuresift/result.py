@@ -170,6 +170,8 @@ class SearchResult:
         Why the search stopped.
     success : bool
         False when no allowed subset was found or a limit stopped the search.
+    seed : int or None
+        The seed of the search (stochastic strategies; recorded in ``result.json``).
     evaluations : list of EvaluatedSubset
         Every subset the search evaluated, in the order first asked for (see
         :meth:`evaluations_frame`).
@@ -189,7 +191,7 @@ class SearchResult:
     >>> from featuresift.costs import CostModel
     >>> X, y = load_iris(return_X_y=True)
     >>> cm = CostModel(["sl", "sw", "pl", "pw"], {"sl": 1, "sw": 1, "pl": 2, "pw": 2})
-    >>> p = SelectionProblem(X, y, GaussianNB(), cost_model=cm, cv=3)
+    >>> p = SelectionProblem(X, y, GaussianNB(), costs=cm, cv=3)
     >>> res = run_search(p, "forward", budget=2)
     >>> res.selected, res.cost, res.success
     (['pw'], 2.0, True)
@@ -218,6 +220,7 @@ class SearchResult:
     success: bool = True
     extras: dict[str, Any] = field(default_factory=dict)
     evaluations: list[EvaluatedSubset] = field(default_factory=list, repr=False)
+    seed: int | None = 0
 
     # ------------------------------------------------------------- conversion
     def to_dict(self) -> dict:
@@ -255,6 +258,7 @@ class SearchResult:
             "wall_time_s": self.wall_time,
             "stop_reason": self.stop_reason,
             "success": self.success,
+            "seed": self.seed,
             **({"extras": self.extras} if self.extras else {}),
             "evaluations": [
                 {"features": list(e.features), "cost": e.cost,
@@ -283,7 +287,7 @@ class SearchResult:
         known = {
             "selected", "support", "cost", "cost_unit", "cost_breakdown", "budget", "score",
             "objective", "strategy", "path", "n_evaluations", "n_fits", "n_cache_hits",
-            "wall_time_s", "stop_reason", "success", "extras", "evaluations",
+            "wall_time_s", "stop_reason", "success", "extras", "evaluations", "seed",
         }
         unknown = sorted(set(d) - known)
         if unknown:
@@ -317,6 +321,7 @@ class SearchResult:
             stop_reason=str(d.get("stop_reason", "")),
             success=bool(d.get("success", True)),
             extras=dict(d.get("extras") or {}),
+            seed=d.get("seed"),
             evaluations=[
                 EvaluatedSubset(tuple(e["features"]), e["cost"], _nan(e["score_mean"]),
                                 _nan(e["score_sem"]), _nan(e["objective"]), e["n_folds"],

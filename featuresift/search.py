@@ -6,7 +6,8 @@ import time
 from collections.abc import Callable, Iterable
 from typing import Any
 
-from featuresift.costs import CostModel
+from featuresift._compat import renamed_keywords
+from featuresift.costs import CostModel, make_cost_model
 from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.errors import InputError
 from featuresift.objectives import BaseObjective, make_objective
@@ -58,7 +59,7 @@ def _pick(space: SearchSpace, rule: str) -> Scored | None:
 def _with_scorer(problem: SelectionProblem, scorer: Any) -> SelectionProblem:
     """The same problem (data, model, costs, splits) scored with ``scorer``."""
     return SelectionProblem(
-        problem.X, problem.y, problem.estimator, cost_model=problem.cost_model,
+        problem.X, problem.y, problem.estimator, costs=problem.cost_model,
         cv=problem.splits, scoring=scorer, groups=problem.groups,
         feature_names=problem.feature_names,
     )
@@ -89,20 +90,21 @@ def prepare_for_objective(
     return problem, objective
 
 
+@renamed_keywords(cost_model="costs", random_state="seed", max_time="max_time_s")
 def run_search(
     problem: SelectionProblem | BaseEvaluator,
     strategy: str | dict | SearchStrategy = "forward",
     *,
-    cost_model: CostModel | None = None,
+    costs: Any = None,
     budget: float | None = None,
     objective: str | dict | BaseObjective | None = None,
     max_features: int | None = None,
     max_evaluations: int | None = None,
-    max_time: float | None = None,
+    max_time_s: float | None = None,
     must_include: Iterable[int | str] = (),
     never_include: Iterable[int | str] = (),
     pick: str = "best",
-    random_state: int | None = 0,
+    seed: int | None = 0,
     n_jobs: int | None = None,
     callback: Callable | None = None,
     racing: Any = None,
@@ -124,24 +126,28 @@ def run_search(
     strategy : str, dict or SearchStrategy, default="forward"
         Registered name ("forward", "backward", ...), ``{"name": ..., **options}``
         or an instance. Extra keyword arguments are passed as strategy options.
-    cost_model : CostModel, optional
-        Needed only when ``problem`` is an evaluator; default uniform cost 1.
+    costs : CostModel or mapping, optional
+        Needed only when ``problem`` is an evaluator (a problem carries its own costs);
+        a :class:`CostModel` or YAML's ``{"features":..., "panels":..., "unit":...}``;
+        default every feature costs 1.
     budget : float, optional
         Maximum acquisition cost per sample (None: unlimited).
     objective : str, dict or BaseObjective, optional
         Default "score" (maximise the mean CV score within the budget). An objective
         with its own scorer (``expected_cost``) replaces the problem's scorer.
-    max_features, max_evaluations, max_time : optional
+    max_features, max_evaluations, max_time_s : optional
         User limits (size, distinct subsets evaluated, seconds).
     must_include, never_include : iterables of names or column indices
         Measurements always taken / not available.
     pick : {"best", "one_se"}, default="best"
         Final pick: the strategy's answer, or the cheapest evaluated allowed subset
         whose mean score is within one standard error of it.
-    random_state : int, optional
-        Seed for stochastic strategies.
+    seed : int, optional, default=0
+        Seed of stochastic strategies; recorded in the result (``result.seed``).
     n_jobs : int, optional
         Parallel fits (when an evaluator is built here).
+    cost_model, random_state, max_time : deprecated
+        Old names of ``costs``, ``seed`` and ``max_time_s`` (DeprecationWarning).
     callback : callable, optional
         ``callback(step)`` after each path step; returning True stops.
     racing, journal, chunk_size, verbose, on_fit_error, share_preprocessing, fast_path : optional
@@ -181,7 +187,8 @@ def run_search(
             scoring = f"{objective.name} scorer"
     else:
         evaluator = problem
-        cost_model = cost_model or CostModel.uniform(evaluator.feature_names)
+        cost_model = costs if isinstance(costs, CostModel) else make_cost_model(
+            evaluator.feature_names, costs)
         scoring = "criterion"
     if budget is not None:
         if isinstance(budget, bool) or not isinstance(budget, (int, float)) or budget != budget:
@@ -204,15 +211,15 @@ def run_search(
     names = list(cost_model.feature_names)
     try:
         return _search(evaluator, strat, cost_model, names, budget, objective, max_features,
-                       max_evaluations, max_time, must_include, never_include,
-                       random_state, callback, pick, scoring, t0)
+                       max_evaluations, max_time_s, must_include, never_include,
+                       seed, callback, pick, scoring, t0)
     finally:
         if owned:
             evaluator.close()  # closes a journal this call opened
 
 
 def _search(evaluator, strat, cost_model, names, budget, objective, max_features,
-            max_evaluations, max_time, must_include, never_include, random_state, callback,
+            max_evaluations, max_time_s, must_include, never_include, seed, callback,
             pick, scoring, t0) -> SearchResult:
     space = SearchSpace(
         evaluator,
@@ -221,10 +228,10 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
         objective=objective,
         max_features=max_features,
         max_evaluations=max_evaluations,
-        max_time=max_time,
+        max_time_s=max_time_s,
         must_include=_resolve_features(must_include, names, "must_include"),
         never_include=_resolve_features(never_include, names, "never_include"),
-        random_state=random_state,
+        seed=seed,
         callback=callback,
     )
     fits_before = evaluator.n_fits
@@ -263,7 +270,7 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
             n_cache_hits=evaluator.n_cache_hits - hits_before,
             wall_time=time.perf_counter() - t0,
             stop_reason=space.stop_reason or "no allowed subset was evaluated", success=False,
-            extras=extras, evaluations=evaluations,
+            extras=extras, evaluations=evaluations, seed=seed,
         )
     ev = best.evaluation
     return SearchResult(
@@ -288,4 +295,5 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
         success=not limited,
         extras=extras,
         evaluations=evaluations,
+        seed=seed,
     )

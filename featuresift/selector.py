@@ -9,7 +9,7 @@ grid-searched like any scikit-learn estimator.
 
 from __future__ import annotations
 
-import math
+import warnings
 from collections.abc import Iterable, Mapping
 from typing import Any
 
@@ -20,37 +20,13 @@ from sklearn.pipeline import Pipeline
 from sklearn.utils import get_tags
 from sklearn.utils.validation import check_is_fitted, validate_data
 
-from featuresift.costs import CostModel
+from featuresift._compat import warn_renamed
+from featuresift.costs import CostModel, make_cost_model
 from featuresift.errors import InputError
 from featuresift.problem import SelectionProblem
 from featuresift.search import run_search
 
 __all__ = ["MeasurementSelector", "build_cost_model"]
-
-
-def _panel_spec(name: str, spec: Any) -> tuple[Any, list[str]]:
-    """Accept ``{"cost": c, "features": [...]}`` or ``(c, [...])`` for one panel."""
-    if isinstance(spec, Mapping):
-        unknown = set(spec) - {"cost", "features"}
-        if unknown or "cost" not in spec or "features" not in spec:
-            raise InputError(
-                "a panel is {'cost': price, 'features': [names]}"
-                + (f"; unknown key(s): {', '.join(sorted(map(str, unknown)))}" if unknown else ""),
-                key=f"panels.{name}",
-            )
-        price, members = spec["cost"], spec["features"]
-    else:
-        try:
-            price, members = spec
-        except (TypeError, ValueError):
-            raise InputError(
-                f"a panel is (price, [names]) or {{'cost': ..., 'features': [...]}}, got {spec!r}",
-                key=f"panels.{name}",
-            ) from None
-    if isinstance(members, str) or not isinstance(members, Iterable):
-        raise InputError(f"panel features must be a list of names, got {members!r}",
-                         key=f"panels.{name}.features")
-    return price, [str(m) for m in members]
 
 
 def _accepts_nan(estimator: Any) -> bool:
@@ -74,71 +50,16 @@ def build_cost_model(
     panels: Mapping[str, Any] | None = None,
     unit: str | None = None,
 ) -> CostModel:
-    """Build a :class:`CostModel` from the selector's ``costs`` and ``panels`` arguments.
-
-    Parameters
-    ----------
-    feature_names : list of str
-        Column names, in order.
-    costs : None, mapping, array-like or CostModel
-        ``None``: every feature outside a panel costs 1. A mapping gives the price of
-        each feature outside a panel. An array gives one price per column; entries of
-        panel members must be 0 or NaN (they are paid through their panel). A
-        :class:`CostModel` is used as is (its features must be the columns).
-    panels : mapping, optional
-        ``{name: {"cost": price, "features": [names]}}`` or ``{name: (price, [names])}``.
-    unit : str, optional
-        Cost unit; default "features" when ``costs`` is None, else "cost units".
-
-    Returns
-    -------
-    CostModel
+    """Build a :class:`CostModel` from the selector's ``costs`` (see :func:`make_cost_model`).
 
     Examples
     --------
-    >>> cm = build_cost_model(["a", "b", "c"], [2.0, 0.0, 0.0],
-    ...                       panels={"kit": {"cost": 5.0, "features": ["b", "c"]}})
+    >>> cm = build_cost_model(["a", "b", "c"], {"features": {"a": 2.0},
+    ...                       "panels": {"kit": {"cost": 5.0, "features": ["b", "c"]}}})
     >>> cm.cost(["a", "b", "c"])
     7.0
     """
-    names = [str(n) for n in feature_names]
-    if isinstance(costs, CostModel):
-        if panels:
-            raise InputError("give panels inside the CostModel, not also as 'panels'",
-                             key="panels")
-        if list(costs.feature_names) != names:
-            raise InputError("the CostModel's features must be the columns of X, in order",
-                             key="costs")
-        return costs
-    panel_map = {str(k): _panel_spec(str(k), v) for k, v in dict(panels or {}).items()}
-    in_panel = {m for _, members in panel_map.values() for m in members}
-    if costs is None:
-        prices: dict[str, Any] = {n: 1.0 for n in names if n not in in_panel}
-        default_unit = "features"
-    elif isinstance(costs, Mapping):
-        prices = {str(k): v for k, v in costs.items()}
-        default_unit = "cost units"
-    else:
-        values = np.asarray(costs, dtype=object).ravel()
-        if values.shape[0] != len(names):
-            raise InputError(
-                f"{values.shape[0]} costs given for {len(names)} columns of X", key="costs"
-            )
-        prices = {}
-        for n, v in zip(names, values):
-            if n in in_panel:
-                blank = isinstance(v, (int, float, np.number)) and (
-                    math.isnan(float(v)) or float(v) == 0.0
-                )
-                if not blank:
-                    raise InputError(
-                        f"'{n}' is paid through its panel; its entry must be 0 or NaN, got {v!r}",
-                        key=f"costs[{names.index(n)}]",
-                    )
-                continue
-            prices[n] = v.item() if isinstance(v, np.generic) else v
-        default_unit = "cost units"
-    return CostModel(names, prices, panels=panel_map, unit=unit or default_unit)
+    return make_cost_model(feature_names, costs, panels, unit)
 
 
 class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
@@ -152,20 +73,17 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
     estimator : scikit-learn estimator
         Model (or pipeline) cross-validated on each candidate subset.
     costs : None, dict, array-like or CostModel, default=None
-        Price per sample of each measurement: a dict ``{name: price}`` (features in a
-        panel are omitted), an array aligned with the columns (panel members 0 or NaN),
-        or a :class:`~featuresift.CostModel`. None: every feature costs 1.
-    panels : dict, optional
-        Groups bought together for one price:
-        ``{name: {"cost": price, "features": [names]}}``.
-    cost_unit : str, optional
-        Unit of the costs, carried into the result.
+        Price per sample of each measurement, as YAML's ``costs`` section:
+        ``{"features": {name: price}, "panels": {name: {"cost": price, "features":
+        [names]}}, "unit": "EUR"}``. Also accepted: a flat dict ``{name: price}``
+        (features in a panel omitted), an array aligned with the columns (panel
+        members 0 or NaN), or a :class:`~featuresift.CostModel`. None: every feature
+        costs 1.
     budget : float, optional
         Largest acquisition cost per sample of the chosen subset (None: unlimited).
     strategy : str, dict or SearchStrategy, default="forward"
-        Search strategy (a registered name such as "forward" or "backward").
-    strategy_options : dict, optional
-        Options for the strategy (for example ``{"n_features": 3}``).
+        Search strategy: a registered name such as "forward", or as in YAML
+        ``{"name": "forward", "options": {"n_features": 3}}``.
     objective : str, dict or BaseObjective, optional
         How subsets are valued (default "score": mean CV score within the budget).
     cv : int, splitter or iterable, default=5
@@ -178,10 +96,16 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         Measurements always taken / not available.
     pick : {"best", "one_se"}, default="best"
         Final pick rule (see :func:`featuresift.run_search`).
-    random_state : int, optional, default=0
-        Seed for stochastic strategies.
+    seed : int, optional, default=0
+        Seed of stochastic strategies (recorded in ``result_.seed``).
     n_jobs : int, optional
         Parallel model fits (joblib).
+    verbose : int, default=0
+        0: silent; 1: a progress bar in a notebook or on a terminal, a one-line-per-step
+        log when output is piped; 2: always a bar.
+    panels, cost_unit, strategy_options, random_state : deprecated
+        Old spellings: give panels and unit inside ``costs``, options inside
+        ``strategy``, and ``seed``. They still work, with a DeprecationWarning.
 
     Attributes
     ----------
@@ -228,11 +152,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         estimator: Any,
         *,
         costs: Any = None,
-        panels: Mapping[str, Any] | None = None,
-        cost_unit: str | None = None,
         budget: float | None = None,
         strategy: Any = "forward",
-        strategy_options: Mapping[str, Any] | None = None,
         objective: Any = None,
         cv: Any = 5,
         scoring: Any = None,
@@ -240,8 +161,13 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         must_include: Iterable[int | str] = (),
         never_include: Iterable[int | str] = (),
         pick: str = "best",
-        random_state: int | None = 0,
+        seed: int | None = 0,
         n_jobs: int | None = None,
+        verbose: int = 0,
+        panels: Mapping[str, Any] | None = None,
+        cost_unit: str | None = None,
+        strategy_options: Mapping[str, Any] | None = None,
+        random_state: int | None = None,
     ) -> None:
         self.estimator = estimator
         self.costs = costs
@@ -257,8 +183,10 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         self.must_include = must_include
         self.never_include = never_include
         self.pick = pick
-        self.random_state = random_state
+        self.seed = seed
         self.n_jobs = n_jobs
+        self.verbose = verbose
+        self.random_state = random_state
 
     def fit(self, X: Any, y: Any, groups: Any = None) -> MeasurementSelector:
         """Search for the best affordable subset of the columns of ``X``.
@@ -291,7 +219,16 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
             if hasattr(self, "feature_names_in_")
             else [f"x{i}" for i in range(X.shape[1])]
         )
-        cost_model = build_cost_model(names, self.costs, self.panels, self.cost_unit)
+        for old, new in (("panels", "costs['panels']"), ("cost_unit", "costs['unit']"),
+                         ("strategy_options", "strategy={'name': ..., 'options': {...}}")):
+            if getattr(self, old) is not None:
+                warnings.warn(f"MeasurementSelector: '{old}' is deprecated; use {new}",
+                              DeprecationWarning, stacklevel=2)
+        seed = self.seed
+        if self.random_state is not None:
+            warn_renamed("MeasurementSelector", "random_state", "seed", stacklevel=2)
+            seed = self.random_state
+        cost_model = make_cost_model(names, self.costs, self.panels, self.cost_unit)
         if groups is not None:
             groups = np.asarray(groups)
             if groups.ndim != 1 or groups.shape[0] != X.shape[0]:
@@ -299,7 +236,7 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
                     f"groups must have one label per row of X ({X.shape[0]}), "
                     f"got shape {groups.shape}", key="groups")
         problem = SelectionProblem(
-            X, y, self.estimator, cost_model=cost_model, cv=self.cv, scoring=self.scoring,
+            X, y, self.estimator, costs=cost_model, cv=self.cv, scoring=self.scoring,
             groups=groups, feature_names=names,
         )
         options = dict(self.strategy_options or {})
@@ -312,8 +249,9 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
             must_include=list(self.must_include),
             never_include=list(self.never_include),
             pick=self.pick,
-            random_state=self.random_state,
+            seed=seed,
             n_jobs=self.n_jobs,
+            verbose=self.verbose,
             **options,
         )
         support = np.zeros(X.shape[1], dtype=bool)

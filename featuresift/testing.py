@@ -15,7 +15,7 @@ The contract
     Every evaluated subset contains ``must_include`` and avoids ``never_include``.
 ``limits``
     ``max_features`` holds for the chosen subset; ``max_evaluations`` is never
-    exceeded; ``max_time=0`` stops the search cleanly (``success`` is False).
+    exceeded; ``max_time_s=0`` stops the search cleanly (``success`` is False).
 ``seeds``
     The same seed gives the same answer, path and number of evaluations.
 ``history``
@@ -117,7 +117,7 @@ def _run(spec: StrategySpec, **kwargs: Any) -> tuple[SearchResult, CriterionEval
     evaluator = CriterionEvaluator(counted, costs.n_features, list(costs.feature_names))
     evaluator.contract_calls = calls  # type: ignore[attr-defined]
     strategy = make_strategy(spec) if not isinstance(spec, SearchStrategy) else spec
-    result = run_search(evaluator, strategy, cost_model=costs, **kwargs)
+    result = run_search(evaluator, strategy, costs=costs, **kwargs)
     return result, evaluator
 
 
@@ -149,7 +149,7 @@ def check_budget(spec: StrategySpec) -> None:
     """
     _, costs = contract_problem()
     for budget in (1.0, 3.0, 5.5, 9.0, None):
-        result, _ = _run(spec, budget=budget, random_state=0)
+        result, _ = _run(spec, budget=budget, seed=0)
         where = f"strategy {_label(spec)!r}, budget {budget}"
         assert result.selected, f"{where}: nothing selected ({result.stop_reason})"
         assert math.isclose(result.cost, costs.cost(result.support)), f"{where}: wrong cost"
@@ -176,7 +176,7 @@ def check_must_never(spec: StrategySpec) -> None:
     """
     must, never = {1}, {0, 6}
     result, evaluator = _run(
-        spec, budget=7.0, must_include=["f1"], never_include=["f0", "f6"], random_state=1
+        spec, budget=7.0, must_include=["f1"], never_include=["f0", "f6"], seed=1
     )
     where = f"strategy {_label(spec)!r}"
     assert must <= set(result.support), f"{where}: must_include missing from the answer"
@@ -186,7 +186,7 @@ def check_must_never(spec: StrategySpec) -> None:
 
 
 def check_limits(spec: StrategySpec) -> None:
-    """max_features, max_evaluations and max_time are honoured.
+    """max_features, max_evaluations and max_time_s are honoured.
 
     Examples
     --------
@@ -202,14 +202,14 @@ def check_limits(spec: StrategySpec) -> None:
     AssertionError: strategy 'triple-doc-example': max_features=2 gave []
     """
     where = f"strategy {_label(spec)!r}"
-    result, _ = _run(spec, max_features=2, random_state=0)
+    result, _ = _run(spec, max_features=2, seed=0)
     assert 0 < len(result.support) <= 2, f"{where}: max_features=2 gave {result.selected}"
-    result, evaluator = _run(spec, max_evaluations=5, random_state=0)
+    result, evaluator = _run(spec, max_evaluations=5, seed=0)
     assert result.n_evaluations <= 5 and evaluator.n_evaluations <= 5, (
         f"{where}: max_evaluations=5 but {evaluator.n_evaluations} subsets evaluated"
     )
-    result, _ = _run(spec, max_time=0.0, random_state=0)
-    assert not result.success, f"{where}: max_time=0 did not stop the search"
+    result, _ = _run(spec, max_time_s=0.0, seed=0)
+    assert not result.success, f"{where}: max_time_s=0 did not stop the search"
 
 
 def check_seeds(spec: StrategySpec) -> None:
@@ -231,7 +231,7 @@ def check_seeds(spec: StrategySpec) -> None:
     AssertionError: strategy 'drifting-doc-example': same seed, answers ['f1'] vs ['f2']
     """
     where = f"strategy {_label(spec)!r}"
-    runs = [_run(spec, budget=6.0, random_state=7)[0] for _ in range(2)]
+    runs = [_run(spec, budget=6.0, seed=7)[0] for _ in range(2)]
     a, b = runs
     assert a.selected == b.selected, f"{where}: same seed, answers {a.selected} vs {b.selected}"
     assert [r.features for r in a.path] == [r.features for r in b.path], (
@@ -257,7 +257,7 @@ def check_history(spec: StrategySpec) -> None:
     AssertionError: strategy 'silent-doc-example': no path recorded
     """
     where = f"strategy {_label(spec)!r}"
-    result, evaluator = _run(spec, budget=6.0, random_state=0)
+    result, evaluator = _run(spec, budget=6.0, seed=0)
     assert result.path, f"{where}: no path recorded"
     names = evaluator.feature_names
     for row in result.path:

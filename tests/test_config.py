@@ -326,7 +326,7 @@ def test_good_config_is_parsed(tmp_path):
     problem, kwargs = build_run(cfg)
     assert problem.feature_names == cfg.candidates
     assert len(problem.splits) == 3 and problem.scoring == "roc_auc"
-    assert kwargs["budget"] == 10.0 and kwargs["random_state"] == 0
+    assert kwargs["budget"] == 10.0 and kwargs["seed"] == 0
     assert kwargs["strategy"] == {"name": "forward", "options": {"n_features": 3}}
     names = [n for n, _ in problem.estimator.steps]
     assert names == ["impute_median", "scale", "model"]

@@ -129,7 +129,7 @@ def test_small_search_stays_within_budget(grain_small):
     )
     problem = SelectionProblem(
         grain_small[measured], grain_small[GRAIN_TARGET], model,
-        cost_model=_cost_model(measured),
+        costs=_cost_model(measured),
         cv=StratifiedKFold(3, shuffle=True, random_state=0), scoring="roc_auc",
     )
     result = run_search(problem, "forward", budget=8.0, max_features=3)

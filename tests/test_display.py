@@ -31,10 +31,10 @@ def objects():
     cm = CostModel(NAMES, {"sl": 1.0, "sw": 0.0}, panels={"petal": (3.0, ["pl", "pw"])},
                    unit="EUR")
     groups = np.arange(150) % 6
-    problem = SelectionProblem(X, y, GaussianNB(), cost_model=cm, cv=3, groups=groups)
+    problem = SelectionProblem(X, y, GaussianNB(), costs=cm, cv=3, groups=groups)
     result = run_search(problem, "forward", budget=4.0)
     frontier = budget_sweep(problem, [1.0, 3.0, None])
-    nested = nested_evaluation(X, y, GaussianNB(), cost_model=cm, outer_cv=3, inner_cv=3,
+    nested = nested_evaluation(X, y, GaussianNB(), costs=cm, outer_cv=3, inner_cv=3,
                                budget=3.0)
     return {"problem": problem, "result": result, "frontier": frontier, "nested": nested,
             "costs": cm}

@@ -20,10 +20,10 @@ def test_gain_per_cost_trap_returns_the_item_worth_ten():
     # a = (value 0.2, cost 0.1), b = (value 10, cost 10). Ratio-greedy alone gets 0.2.
     cm = CostModel(["a", "b"], {"a": 0.1, "b": 10.0})
     X = np.zeros((4, 2))
-    sel = budgeted_greedy(X, cost_model=cm, budget=10.0, relevance=[0.2, 10.0])
+    sel = budgeted_greedy(X, costs=cm, budget=10.0, relevance=[0.2, 10.0])
     assert sel.selected == ["b"] and sel.value == 10.0 and sel.rule == "gain"
     assert sel.runs["ratio"]["order"] == ["a"] and sel.runs["ratio"]["value"] == 0.2
-    ratio_only = budgeted_greedy(X, cost_model=cm, budget=10.0, relevance=[0.2, 10.0],
+    ratio_only = budgeted_greedy(X, costs=cm, budget=10.0, relevance=[0.2, 10.0],
                                  cost_rule="ratio")
     assert ratio_only.selected == ["a"]
 
@@ -31,7 +31,7 @@ def test_gain_per_cost_trap_returns_the_item_worth_ten():
 def test_per_cost_run_wins_when_cheap_items_add_up():
     # Budget 10: c alone (9, cost 10) vs a + b (6 + 6, cost 5 + 5).
     cm = CostModel(["a", "b", "c"], {"a": 5.0, "b": 5.0, "c": 10.0})
-    sel = budgeted_greedy(np.zeros((4, 3)), cost_model=cm, budget=10.0,
+    sel = budgeted_greedy(np.zeros((4, 3)), costs=cm, budget=10.0,
                           relevance=[6.0, 6.0, 9.0])
     assert sel.rule == "ratio" and sorted(sel.selected) == ["a", "b"] and sel.value == 12.0
     assert sel.runs["gain"]["order"] == ["c"]
@@ -80,7 +80,7 @@ def test_panel_members_become_free_and_budget_holds():
     cm = CostModel(names, {"solo": 4.0, "cheap": 1.0}, panels={"lab": (5.0, ["p1", "p2", "p3"])})
     rel = np.array([3.0, 2.0, 1.5, 3.5, 0.5])
     X = np.random.default_rng(0).normal(size=(50, 5))
-    sel = budgeted_greedy(X, cost_model=cm, budget=9.0, relevance=rel, weight=0.0)
+    sel = budgeted_greedy(X, costs=cm, budget=9.0, relevance=rel, weight=0.0)
     assert sel.cost == cm.cost(sel.order) <= 9.0
     assert {"p1", "p2", "p3"} <= set(sel.selected)
     assert [s.marginal_cost for s in sel.steps if s.feature in ("p2", "p3")] == [0.0, 0.0]
@@ -171,15 +171,15 @@ def test_filter_order_strategy_evaluates_prefixes_in_one_batch():
     X, y = _informative(n=200, seed=5)
     sel = mrmr(X, y, 4)
     prob = SelectionProblem(X, y, LogisticRegression(), cv=3)
-    res = run_search(prob, "filter_order", order=sel.selected)
+    res = run_search(prob, "filter-order", order=sel.selected)
     assert res.n_evaluations == 4
     assert set(res.selected) <= set(sel.selected)
     assert [r.feature for r in res.path] == sel.selected
     # Budget-aware: a feature that no longer fits is skipped.
     cm = CostModel(prob.feature_names, {n: (5.0 if n == sel.selected[1] else 1.0)
                                         for n in prob.feature_names})
-    prob2 = SelectionProblem(X, y, LogisticRegression(), cost_model=cm, cv=3)
-    res2 = run_search(prob2, "filter_order", order=sel.selected, budget=3.0)
+    prob2 = SelectionProblem(X, y, LogisticRegression(), costs=cm, cv=3)
+    res2 = run_search(prob2, "filter-order", order=sel.selected, budget=3.0)
     assert sel.selected[1] not in [r.feature for r in res2.path]
     assert res2.cost <= 3.0
     with pytest.raises(InputError, match="non-empty list"):

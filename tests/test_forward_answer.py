@@ -9,12 +9,12 @@ def test_tolerance_rejected_candidate_is_not_the_answer():
     # was evaluated and scores higher.
     weights = {0: 0.5, 1: 0.3, 2: 0.001}
     ev = CriterionEvaluator(lambda s: sum(weights[i] for i in s), 3, ["a", "b", "c"])
-    res = run_search(ev, "forward", cost_model=CostModel.uniform(["a", "b", "c"]), tol=0.002)
+    res = run_search(ev, "forward", costs=CostModel.uniform(["a", "b", "c"]), tol=0.002)
     assert res.selected == ["a", "b"]
     assert res.path[-1].features == ("a", "b")
     assert ev.lookup([0, 1, 2]) is not None  # the better-scoring candidate was seen
     assert "0.002" in res.stop_reason
     # With tol=0 the small gain counts and c is bought.
     ev0 = CriterionEvaluator(lambda s: sum(weights[i] for i in s), 3, ["a", "b", "c"])
-    res0 = run_search(ev0, "forward", cost_model=CostModel.uniform(["a", "b", "c"]), tol=0.0)
+    res0 = run_search(ev0, "forward", costs=CostModel.uniform(["a", "b", "c"]), tol=0.0)
     assert res0.selected == ["a", "b", "c"]

@@ -17,7 +17,7 @@ def wine_problem():
     names = [f"m{i}" for i in range(X.shape[1])]
     costs = {n: float(1 + i % 4) for i, n in enumerate(names) if i not in (10, 11, 12)}
     cm = CostModel(names, costs, panels={"panel": (6.0, ["m10", "m11", "m12"])}, unit="EUR")
-    return SelectionProblem(X, y, GaussianNB(), cost_model=cm, cv=3, feature_names=names)
+    return SelectionProblem(X, y, GaussianNB(), costs=cm, cv=3, feature_names=names)
 
 
 def test_sweep_respects_budgets_and_shares_fits(wine_problem, tmp_path):
@@ -127,5 +127,5 @@ def test_sweep_on_criterion_evaluator_is_exact():
     cm = CostModel(["a", "b", "c", "d"], {"a": 3, "b": 1, "c": 1, "d": 1})
     from featuresift.search import run_search
 
-    r = run_search(ev, "forward", cost_model=cm, budget=2.0)
+    r = run_search(ev, "forward", costs=cm, budget=2.0)
     assert r.selected == ["b", "c"]

@@ -130,7 +130,7 @@ def test_python_and_cli_give_identical_answers_for_a_grouped_config(tmp_path, gr
                       ("scale", StandardScaler()),
                       ("model", LogisticRegression(max_iter=500))])
     problem = SelectionProblem(frame[names], frame["grade"], model,
-                               cost_model=CostModel(names, prices, unit="EUR"), cv=4,
+                               costs=CostModel(names, prices, unit="EUR"), cv=4,
                                scoring="roc_auc", groups=frame["farm"])
     py = run_search(problem, "forward", budget=6.0)
     assert cli["selected"] == py.selected

@@ -56,7 +56,7 @@ HELPER = textwrap.dedent(
 
     def search(journal, racing=None):
         ev = CrossValidationEvaluator(problem(), journal=journal, racing=racing)
-        res = run_search(ev, "forward", n_features=4, cost_model=ev.problem.cost_model)
+        res = run_search(ev, "forward", n_features=4, costs=ev.problem.cost_model)
         return res, ev
     '''
 )
@@ -84,7 +84,8 @@ def _rows(path):
 
 
 def _kill_mid_run(tmp_path, journal, stall_width, min_rows, racing="None"):
-    env = dict(os.environ, STALL_AT_WIDTH=str(stall_width), PYTHONPATH=str(tmp_path))
+    env = dict(os.environ, STALL_AT_WIDTH=str(stall_width), PYTHONPATH=os.pathsep.join(
+        p for p in (str(tmp_path), os.environ.get("PYTHONPATH")) if p))
     code = f"import fs_resume_helper as h; h.search({str(journal)!r}, racing={racing})"
     proc = subprocess.Popen([sys.executable, "-c", code], env=env, cwd=tmp_path)
     try:

@@ -90,7 +90,7 @@ def _two_tests_problem():
     costs = CostModel(["cheap", "expensive"], {"cheap": 0.01, "expensive": 1.0})
     cv = StratifiedKFold(5)
     return SelectionProblem(X, y, DecisionTreeClassifier(max_depth=1, random_state=0),
-                            cost_model=costs, cv=cv, feature_names=["cheap", "expensive"]), cv
+                            costs=costs, cv=cv, feature_names=["cheap", "expensive"]), cv
 
 
 def test_expected_total_cost_picks_the_cheap_test():

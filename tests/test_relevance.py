@@ -323,13 +323,13 @@ def test_mi_knn_matches_sklearn_and_is_seeded():
     rng = np.random.default_rng(8)
     X = rng.normal(size=(150, 3))
     y = (X[:, 0] > 0).astype(int)
-    s, p = mutual_info(X, y, random_state=3)
+    s, p = mutual_info(X, y, seed=3)
     np.testing.assert_allclose(s, mutual_info_classif(X, y, random_state=3), rtol=1e-12)
     assert p is None
     t = X[:, 1] ** 2 + 0.1 * rng.normal(size=150)
-    s2, _ = mutual_info(X, t, random_state=3)
+    s2, _ = mutual_info(X, t, seed=3)
     np.testing.assert_allclose(s2, mutual_info_regression(X, t, random_state=3), rtol=1e-12)
-    assert np.array_equal(s2, mutual_info(X, t, random_state=3)[0])
+    assert np.array_equal(s2, mutual_info(X, t, seed=3)[0])
     assert int(np.argmax(s2)) == 1
 
 
@@ -347,10 +347,10 @@ def test_permutation_relevance_finds_informative_columns():
     rng = np.random.default_rng(9)
     X = rng.normal(size=(120, 4))
     y = (X[:, 1] - X[:, 3] > 0).astype(int)
-    s, p = permutation_relevance(X, y, cv=3, n_repeats=3, random_state=0)
+    s, p = permutation_relevance(X, y, cv=3, n_repeats=3, seed=0)
     assert p is None
     assert set(np.argsort(s)[-2:]) == {1, 3}
-    assert np.array_equal(s, permutation_relevance(X, y, cv=3, n_repeats=3, random_state=0)[0])
+    assert np.array_equal(s, permutation_relevance(X, y, cv=3, n_repeats=3, seed=0)[0])
 
 
 # ------------------------------------------------------------------ registry

@@ -13,7 +13,7 @@ def test_report_contains_result_sweep_and_caution(tmp_path):
     names = ["sepal_l", "sepal_w", "petal_l", "petal_w"]
     cm = CostModel(names, {"sepal_l": 1, "sepal_w": 0}, panels={"petal": (4.0, names[2:])},
                    unit="EUR")
-    p = SelectionProblem(X, y, GaussianNB(), cost_model=cm, cv=3, feature_names=names)
+    p = SelectionProblem(X, y, GaussianNB(), costs=cm, cv=3, feature_names=names)
     res = run_search(p, "forward", budget=4.0)
     fr = budget_sweep(p, [1.0, None])
     path = write_report(tmp_path, res, frontier=fr, source="x.yaml")

@@ -57,7 +57,7 @@ def test_selector_matches_run_search_on_the_same_problem(iris_frame):
     # The facade must add nothing: the same problem through run_search picks the same.
     X, y = iris_frame
     sel = MeasurementSelector(GaussianNB(), costs=IRIS_PRICES, budget=6.0, cv=3).fit(X, y)
-    problem = SelectionProblem(X, y, GaussianNB(), cost_model=sel.cost_model_, cv=3)
+    problem = SelectionProblem(X, y, GaussianNB(), costs=sel.cost_model_, cv=3)
     direct = run_search(problem, "forward", budget=6.0)
     assert sel.selected_features_ == direct.selected
     assert sel.score_ == direct.score_mean
@@ -71,8 +71,9 @@ def test_array_input_with_array_costs_and_a_panel():
     # x2 and x3 come from one panel (price 3); their own entries must be 0 or NaN.
     costs = [1.0, 2.0, 0.0, np.nan, 0.5, 1.5]
     sel = MeasurementSelector(
-        GaussianNB(), costs=costs, panels={"kit": {"cost": 3.0, "features": ["x2", "x3"]}},
-        cost_unit="EUR", budget=4.0, cv=3,
+        GaussianNB(), costs={"features": costs, "unit": "EUR",
+                             "panels": {"kit": {"cost": 3.0, "features": ["x2", "x3"]}}},
+        budget=4.0, cv=3,
     ).fit(X, y)
     assert sel.n_features_in_ == 6
     assert not hasattr(sel, "feature_names_in_")
@@ -92,7 +93,7 @@ def test_no_costs_means_one_per_feature(iris_frame):
 def test_strategy_options_and_must_never_include(iris_frame):
     X, y = iris_frame
     sel = MeasurementSelector(
-        GaussianNB(), strategy="forward", strategy_options={"n_features": 3}, cv=3,
+        GaussianNB(), strategy={"name": "forward", "options": {"n_features": 3}}, cv=3,
         must_include=["sepal width (cm)"], never_include=["petal length (cm)"],
     ).fit(X, y)
     assert len(sel.selected_features_) == 3
@@ -138,10 +139,11 @@ def test_missing_values_follow_the_estimator():
         ({"budget": 0.5}, r"budget: budget 0.5 features is below the cheapest"),
         ({"costs": [1.0, 2.0]}, r"costs: 2 costs given for 4 columns"),
         ({"costs": {"x0": -1.0, "x1": 1, "x2": 1, "x3": 1}}, r"costs\.features\.x0"),
-        ({"panels": {"kit": {"cost": 2.0}}}, r"panels\.kit: a panel is"),
-        ({"panels": {"kit": (2.0, "x1")}}, r"panels\.kit\.features"),
-        ({"costs": [1.0, 1.0, 1.0, 1.0], "panels": {"kit": (2.0, ["x3"])}},
+        ({"costs": {"panels": {"kit": {"cost": 2.0}}}}, r"panels\.kit: a panel is"),
+        ({"costs": {"panels": {"kit": (2.0, "x1")}}}, r"panels\.kit\.features"),
+        ({"costs": {"features": [1.0, 1.0, 1.0, 1.0], "panels": {"kit": (2.0, ["x3"])}}},
          r"costs\[3\]: 'x3' is paid through its panel"),
+        ({"costs": {"features": {}, "colour": "red"}}, r"costs: unknown key\(s\) colour"),
         ({"must_include": ["nope"]}, r"must_include: unknown feature 'nope'"),
         ({"strategy": "no-such-strategy"}, r"unknown strategy 'no-such-strategy'"),
     ],
@@ -157,3 +159,19 @@ def test_cost_model_instance_must_match_the_columns():
     X, y = make_classification(n_samples=40, n_features=4, random_state=0)
     with pytest.raises(InputError, match="features must be the columns"):
         MeasurementSelector(GaussianNB(), costs=cm, cv=2).fit(X, y)
+
+
+def test_old_argument_names_still_work_with_a_deprecation_warning(iris_frame):
+    X, y = iris_frame
+    new = MeasurementSelector(
+        GaussianNB(), costs={"features": IRIS_PRICES, "unit": "EUR"}, budget=5.0, cv=3,
+        strategy={"name": "forward", "options": {"n_features": 1}}, seed=0,
+    ).fit(X, y)
+    with pytest.warns(DeprecationWarning, match="'cost_unit' is deprecated"):
+        old = MeasurementSelector(
+            GaussianNB(), costs=IRIS_PRICES, cost_unit="EUR", budget=5.0, cv=3,
+            strategy="forward", strategy_options={"n_features": 1}, random_state=0,
+        ).fit(X, y)
+    assert old.selected_features_ == new.selected_features_
+    assert old.result_.to_dict()["path"] == new.result_.to_dict()["path"]
+    assert new.result_.seed == 0 and new.result_.cost_unit == "EUR"

@@ -72,7 +72,7 @@ def test_forward_never_adds_a_feature_whose_marginal_cost_breaks_the_budget():
     names = ["a", "b", "c", "d", "e"]
     cm = CostModel(names, {"a": 1.0, "d": 3.0, "e": 0.0}, panels={"P": (5.0, ["b", "c"])})
     ev = CriterionEvaluator(_additive({0: 1.0, 1: 5.0, 2: 4.0, 3: 3.5, 4: 0.5}), 5, names)
-    result = run_search(ev, "forward", cost_model=cm, budget=6.0)
+    result = run_search(ev, "forward", costs=cm, budget=6.0)
     assert [row.feature for row in result.path] == ["b", "c", "a", "e"]
     assert result.selected == ["a", "b", "c", "e"]
     assert result.cost == 6.0
@@ -96,7 +96,7 @@ def test_backward_removes_until_feasible_then_stops_when_the_score_drops():
         return 3.0 * bool({0, 1, 2} & set(subset)) + 2.0 * (3 in subset) + 1.0 * (4 in subset)
 
     ev = CriterionEvaluator(criterion, 5, names)
-    result = run_search(ev, "backward", cost_model=cm, budget=10.0)
+    result = run_search(ev, "backward", costs=cm, budget=10.0)
     assert [(row.action, row.feature, row.cost) for row in result.path] == [
         ("start", None, 14.0),
         ("remove", "p", 10.0),
@@ -112,11 +112,11 @@ def test_forward_tie_goes_to_the_cheaper_feature_then_to_the_first_column():
     names = ["a", "b", "c"]
     flat = CriterionEvaluator(lambda s: float(len(s)), 3, names)
     cheaper_last = CostModel(names, {"a": 2.0, "b": 2.0, "c": 1.0})
-    res = run_search(flat, "forward", cost_model=cheaper_last, n_features=1)
+    res = run_search(flat, "forward", costs=cheaper_last, n_features=1)
     assert res.selected == ["c"]  # equal score: the cheaper one wins over column order
     equal = CostModel.uniform(names)
     res = run_search(CriterionEvaluator(lambda s: float(len(s)), 3, names), "forward",
-                     cost_model=equal, n_features=1)
+                     costs=equal, n_features=1)
     assert res.selected == ["a"]  # equal score and cost: the first column
 
 
@@ -160,7 +160,7 @@ def _budget_problems(draw):
 def test_returned_subset_never_exceeds_the_budget(problem, strategy):
     names, cm, weights, budget = problem
     ev = CriterionEvaluator(_additive(dict(enumerate(weights))), len(names), names)
-    result = run_search(ev, strategy, cost_model=cm, budget=budget)
+    result = run_search(ev, strategy, costs=cm, budget=budget)
     assert result.success
     assert cm.is_feasible(result.selected, budget)
     assert result.cost <= budget + 1e-9

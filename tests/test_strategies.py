@@ -30,7 +30,7 @@ from featuresift.strategies.genetic import marginal_estimates, repair_by_value
 
 FAST = {
     "annealing": {"n_steps": 10, "n_neighbours": 4, "n_restarts": 1},
-    "genetic": {"n_individuals": 8, "generation_limit": 6, "stall_limit": 3},
+    "genetic": {"n_individuals": 8, "n_generations": 6, "patience": 3},
 }
 ALLOWED_ONLY = ("forward", "floating-forward", "annealing", "genetic", "exhaustive")
 
@@ -65,7 +65,7 @@ def test_budget_never_exceeded_by_any_strategy(prices, panel_price, budget_frac,
                         "annealing", "genetic", "exhaustive"):
             continue
         ev = CriterionEvaluator(crit, 6, names)
-        res = run_search(ev, name, cost_model=costs, budget=budget, random_state=seed,
+        res = run_search(ev, name, costs=costs, budget=budget, seed=seed,
                          **FAST.get(name, {}))
         assert costs.is_feasible(res.support, budget), (name, res.selected, res.cost, budget)
         if name in ALLOWED_ONLY:
@@ -77,7 +77,7 @@ def test_budget_never_exceeded_by_any_strategy(prices, panel_price, budget_frac,
 def test_stochastic_strategies_reproduce_exactly(name):
     def run(seed):
         ev = CriterionEvaluator(_table_criterion(8, 1), 8, _names(8))
-        res = run_search(ev, name, budget=5, random_state=seed)
+        res = run_search(ev, name, budget=5, seed=seed)
         return res.selected, [(r.action, r.features) for r in res.path], res.n_evaluations
 
     assert run(4) == run(4)
@@ -86,10 +86,10 @@ def test_stochastic_strategies_reproduce_exactly(name):
 def test_same_answer_whatever_n_jobs():
     X, y = load_iris(return_X_y=True)
     problem = SelectionProblem(X, y, GaussianNB(), cv=3)
-    a = run_search(problem, "annealing", n_jobs=1, random_state=2, n_steps=6, n_restarts=0)
+    a = run_search(problem, "annealing", n_jobs=1, seed=2, n_steps=6, n_restarts=0)
     # Threads keep the test fast (no worker start-up); the batches are split the same way.
     with parallel_config(backend="threading"):
-        b = run_search(problem, "annealing", n_jobs=2, random_state=2, n_steps=6, n_restarts=0)
+        b = run_search(problem, "annealing", n_jobs=2, seed=2, n_steps=6, n_restarts=0)
     assert a.selected == b.selected
     assert [r.features for r in a.path] == [r.features for r in b.path]
     assert a.fold_scores == b.fold_scores
@@ -104,11 +104,11 @@ def test_cheap_pair_beats_expensive_test_where_forward_fails():
         s = set(s)
         return 1.0 * (0 in s) + 1.2 * ({1, 2} <= s) + 0.01 * (3 in s) - 0.001 * len(s)
 
-    fwd = run_search(CriterionEvaluator(crit, 5, names), "forward", cost_model=costs, budget=10)
+    fwd = run_search(CriterionEvaluator(crit, 5, names), "forward", costs=costs, budget=10)
     assert fwd.selected == ["E"]
     for name in ("annealing", "genetic", "exhaustive", "floating-backward"):
-        res = run_search(CriterionEvaluator(crit, 5, names), name, cost_model=costs,
-                         budget=10, random_state=0)
+        res = run_search(CriterionEvaluator(crit, 5, names), name, costs=costs,
+                         budget=10, seed=0)
         assert set(res.selected) >= {"c1", "c2"} and "E" not in res.selected, name
 
 
@@ -118,7 +118,7 @@ def test_exhaustive_equals_brute_force():
                       panels={"p": (2.5, names[4:])})
     crit = _table_criterion(7, 5)
     ev = CriterionEvaluator(crit, 7, names)
-    res = run_search(ev, "exhaustive", cost_model=costs, budget=6, max_features=4,
+    res = run_search(ev, "exhaustive", costs=costs, budget=6, max_features=4,
                      must_include=["x2"], never_include=["x0"], batch_size=7)
     brute = [
         s for k in range(1, 8) for s in combinations(range(7), k)
@@ -151,7 +151,7 @@ def test_neighbours_are_distinct_allowed_single_moves():
     names = _names(8)
     costs = CostModel(names, {n: 1.0 for n in names[:5]}, panels={"p": (2.0, names[5:])})
     space = SearchSpace(CriterionEvaluator(len, 8, names), costs, budget=4,
-                        must_include=[0], never_include=[7], random_state=3)
+                        must_include=[0], never_include=[7], seed=3)
     current = (0, 1, 5)
     for _ in range(20):
         moves = neighbours(space, current, 6)
@@ -201,7 +201,7 @@ def test_marginal_estimates_match_group_means():
 
 def test_genetic_stops_on_stagnation_or_evaluation_limit():
     ev = CriterionEvaluator(_table_criterion(8, 9), 8, _names(8))
-    res = run_search(ev, "genetic", stall_limit=2, generation_limit=50, random_state=1)
+    res = run_search(ev, "genetic", patience=2, n_generations=50, seed=1)
     assert res.stop_reason == "no improvement in 2 generations" and res.success
     generations = [r for r in res.path if r.action == "generation"]
     assert 2 <= len(generations) < 50
@@ -233,9 +233,9 @@ def test_one_standard_error_pick():
         (0, 1, 2): (0.86, 0.85, 0.88, 0.87, 0.84),
     }
     costs = CostModel(["a", "b", "c"], {"a": 5.0, "b": 1.0, "c": 2.0})
-    best = run_search(_FoldTable(folds), "exhaustive", cost_model=costs)
+    best = run_search(_FoldTable(folds), "exhaustive", costs=costs)
     assert best.selected == ["a", "c"]
-    picked = run_search(_FoldTable(folds), "exhaustive", cost_model=costs, pick="one_se")
+    picked = run_search(_FoldTable(folds), "exhaustive", costs=costs, pick="one_se")
     # Threshold: mean - standard error of the best (scipy.stats.sem, ddof=1).
     threshold = np.mean(folds[(0, 2)]) - stats.sem(folds[(0, 2)])
     close = [s for s, f in folds.items() if np.mean(f) >= threshold]
@@ -250,7 +250,7 @@ def test_time_limit_stops_between_batches(name):
         time.sleep(0.002)
         return float(len(s))
 
-    res = run_search(CriterionEvaluator(slow, 12, _names(12)), name, max_time=0.05,
-                     random_state=0)
+    res = run_search(CriterionEvaluator(slow, 12, _names(12)), name, max_time_s=0.05,
+                     seed=0)
     assert not res.success and "time limit" in res.stop_reason
     assert res.wall_time < 2.0

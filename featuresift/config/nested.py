@@ -122,7 +122,7 @@ def nested_from_config(cfg: RunConfig, outer_folds: int | None = None,
     if budget != "config":
         opts["budget"] = budget
     return nested_evaluation(
-        problem.X, problem.y, problem.estimator, cost_model=problem.cost_model,
+        problem.X, problem.y, problem.estimator, costs=problem.cost_model,
         outer_cv=outer, n_repeats=spec["repeats"], confidence=spec["confidence"],
         inner_cv=_splitter(cfg), scoring=problem.scoring, groups=problem.groups,
         feature_names=problem.feature_names, strategy=strategy, **opts,

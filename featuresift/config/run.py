@@ -7,14 +7,6 @@ from collections.abc import Callable
 from typing import Any
 
 import numpy as np
-from sklearn.model_selection import (
-    GroupKFold,
-    KFold,
-    RepeatedKFold,
-    RepeatedStratifiedKFold,
-    StratifiedGroupKFold,
-    StratifiedKFold,
-)
 
 from featuresift.config.checks import _check_scoring
 from featuresift.config.context import _Context
@@ -24,7 +16,7 @@ from featuresift.config.schema import RunConfig
 from featuresift.config.sections import SECTIONS
 from featuresift.config.yamlfile import _plain
 from featuresift.errors import InputError
-from featuresift.problem import SelectionProblem
+from featuresift.problem import SelectionProblem, make_splitter
 from featuresift.result import SearchResult
 from featuresift.search import run_search
 
@@ -33,17 +25,9 @@ __all__ = ["build_run", "run_from_config"]
 
 def _splitter(cfg: RunConfig) -> Any:
     cv = cfg.cv
-    stratified = cfg.stratified
-    seed = cv.seed if cv.shuffle else None
-    if cv.group_column is not None:
-        if stratified:
-            return StratifiedGroupKFold(cv.folds, shuffle=cv.shuffle, random_state=seed)
-        return GroupKFold(cv.folds, shuffle=cv.shuffle, random_state=seed)
-    if cv.repeats > 1:
-        cls = RepeatedStratifiedKFold if stratified else RepeatedKFold
-        return cls(n_splits=cv.folds, n_repeats=cv.repeats, random_state=cv.seed)
-    cls = StratifiedKFold if stratified else KFold
-    return cls(cv.folds, shuffle=cv.shuffle, random_state=seed)
+    return make_splitter(cv.folds, classification=cfg.classification,
+                         grouped=cv.group_column is not None, repeats=cv.repeats,
+                         stratified=cfg.stratified, shuffle=cv.shuffle, seed=cv.seed)
 
 
 def build_run(cfg: RunConfig) -> tuple[SelectionProblem, dict[str, Any]]:
@@ -61,7 +45,7 @@ def build_run(cfg: RunConfig) -> tuple[SelectionProblem, dict[str, Any]]:
     problem : SelectionProblem
     kwargs : dict
         Keyword arguments for :func:`featuresift.run_search` (strategy, budget,
-        objective, limits, must/never include, pick, random_state, n_jobs).
+        objective, limits, must/never include, pick, seed, n_jobs).
 
     Examples
     --------
@@ -81,12 +65,14 @@ def build_run(cfg: RunConfig) -> tuple[SelectionProblem, dict[str, Any]]:
     groups = None if cfg.cv.group_column is None else frame[cfg.cv.group_column].to_numpy()
     try:
         problem = SelectionProblem(
-            X, y, cfg.model.build(), cost_model=cfg.cost_model, cv=_splitter(cfg),
+            X, y, cfg.model.build(), costs=cfg.cost_model, cv=_splitter(cfg),
             scoring=_check_scoring(cfg, ctx), groups=groups, feature_names=cfg.candidates,
         )
     except InputError as exc:
+        if exc.key == "cv":  # the splitter rejects the data (too few rows per class, ...)
+            raise ctx.error(exc.message, "cv.folds") from None
         raise ctx.rekey(exc, "data") from None
-    except ValueError as exc:  # the splitter rejects the data (too few rows per class, ...)
+    except ValueError as exc:
         raise ctx.error(f"cannot make the CV folds: {exc}", "cv.folds") from None
     kwargs: dict[str, Any] = {
         "strategy": {"name": cfg.strategy["name"], "options": dict(cfg.strategy["options"])},
@@ -94,11 +80,11 @@ def build_run(cfg: RunConfig) -> tuple[SelectionProblem, dict[str, Any]]:
         "objective": dict(cfg.objective),
         "max_features": cfg.limits.max_features,
         "max_evaluations": cfg.limits.max_evaluations,
-        "max_time": cfg.limits.max_time_s,
+        "max_time_s": cfg.limits.max_time_s,
         "must_include": list(cfg.must_include),
         "never_include": list(cfg.never_include),
         "pick": cfg.pick,
-        "random_state": cfg.seed,
+        "seed": cfg.seed,
         "n_jobs": cfg.n_jobs,
     }
     for name, value in cfg.extra.items():

@@ -29,6 +29,7 @@ from featuresift.objectives import make_objective
 from featuresift.problem import SelectionProblem
 from featuresift.search import PICK_RULES
 from featuresift.strategies import STRATEGIES, make_strategy
+from featuresift.strategies.base import resolve_strategy_name
 
 __all__ = ["Section", "SECTIONS", "register_section"]
 
@@ -203,7 +204,7 @@ def _parse_strategy(value: Any, ctx: _Context) -> dict:
     s = {"name": value} if isinstance(value, str) else ctx.mapping(
         value, "strategy", ["name", "options"]
     )
-    name = ctx.string(s.get("name", "forward"), "strategy.name")
+    name = resolve_strategy_name(ctx.string(s.get("name", "forward"), "strategy.name"))
     if name not in STRATEGIES:
         raise ctx.error(
             f"unknown strategy '{name}'{_suggest(name, STRATEGIES)}; known: "
@@ -318,7 +319,8 @@ SECTIONS: dict[str, Section] = {
     "must_include": Section(lambda v, ctx: ctx.strings(v, "must_include")),
     "never_include": Section(lambda v, ctx: ctx.strings(v, "never_include")),
     "pick": Section(_parse_pick),
-    "seed": Section(lambda v, ctx: ctx.integer(v, "seed", minimum=0, optional=True)),
+    # The one seed, default 0 (also when written as null), recorded in result.json.
+    "seed": Section(lambda v, ctx: 0 if v is None else ctx.integer(v, "seed", minimum=0)),
     "n_jobs": Section(_parse_n_jobs),
     "output": Section(_parse_output),
 }

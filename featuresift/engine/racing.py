@@ -29,9 +29,9 @@ Three published rules are available:
     drops only candidates behind by more than about 1.5, i.e. never. It is useful
     with many folds (repeated CV) or narrow score ranges.
 ``"t-race"`` (:class:`TRace`)
-    The paired t-test race of iterated racing (Birattari's 2004 thesis on tuning
-    metaheuristics; the "t-test" elimination of the irace package, López-Ibáñez et
-    al. 2016, Operations Research Perspectives 3 — MEMORY for the details). Each
+    The racing method of Birattari, Stützle, Paquete & Varrentrapp (2002, "A racing
+    algorithm for configuring metaheuristics", GECCO) with the paired t-test (Student
+    1908) in place of the Friedman test as the elimination rule (from memory). Each
     candidate's fold-by-fold differences to the leader give a one-sided Student t
     upper confidence bound of the mean difference; the candidate is dropped when
     the bound is below ``indifference`` (default 0: significantly behind). Works on
@@ -387,11 +387,9 @@ class TRace(BaseRace):
     ``c`` is dropped when ``U < indifference``.
 
     * ``indifference = 0`` (default): ``c`` is dropped only when it is significantly
-      behind the leader by a one-sided paired t-test at level ``alpha`` — the t-test
-      race of iterated racing (Birattari 2004, thesis on tuning metaheuristics; the
-      "t-test" elimination of irace, López-Ibáñez et al. 2016, Operations Research
-      Perspectives 3; MEMORY for their details, e.g. irace's optional Bonferroni or
-      Holm corrections, which are not applied here).
+      behind the leader by a one-sided paired t-test at level ``alpha`` — the race of
+      Birattari et al. (2002) with the paired t-test as its elimination test (no
+      correction for multiple comparisons is applied here).
     * ``indifference = delta > 0``: ``c`` is dropped when we are confident it is not
       better than the leader by more than ``delta`` — indifference-zone selection
       (Bechhofer 1954, Annals of Mathematical Statistics 25, "A single-sample

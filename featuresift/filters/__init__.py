@@ -17,7 +17,8 @@ outer training fold (nested CV), or put the screen inside the model with
 label information.
 
 Importing this package registers the ``redundancy_penalized`` objective, the
-``l1_order`` relevance scorer and the ``filter_order`` strategy.
+``l1_order`` relevance scorer (the ``filter-order`` strategy is registered with the
+other strategies).
 """
 
 from featuresift.filters.greedy import FilterSelection, FilterStep, budgeted_greedy, mrmr

@@ -12,7 +12,7 @@ from typing import Any
 
 import numpy as np
 
-from featuresift.costs import CostModel
+from featuresift.costs import CostModel, make_cost_model
 from featuresift.errors import InputError
 from featuresift.problem import _as_2d_float
 
@@ -233,10 +233,12 @@ def unit_costs(cost_model: CostModel, basis: str) -> np.ndarray:
     raise InputError(f"cost_basis must be one of {COST_BASES}, got {basis!r}")
 
 
-def resolve_cost_model(cost_model: CostModel | None, names: Sequence[str]) -> CostModel:
-    """The given cost model (checked against the columns) or uniform cost 1."""
+def resolve_cost_model(cost_model: Any, names: Sequence[str]) -> CostModel:
+    """The given costs as a cost model (checked against the columns); None: uniform cost 1."""
     if cost_model is None:
         return CostModel.uniform(list(names))
+    if not isinstance(cost_model, CostModel):
+        return make_cost_model(list(names), cost_model)
     if list(cost_model.feature_names) != list(names):
         if len(cost_model.feature_names) != len(names):
             raise InputError(

@@ -55,7 +55,8 @@ from typing import Any
 
 import numpy as np
 
-from featuresift.costs import CostModel
+from featuresift._compat import renamed_keywords
+from featuresift.costs import CostModel  # noqa: F401 - the docstring examples use it
 from featuresift.errors import InputError
 from featuresift.filters._common import check_xy, cost_arrays, resolve_cost_model
 from featuresift.filters.redundancy import BasePenalty, RunningRedundancy, make_penalty
@@ -90,7 +91,7 @@ class FilterStep:
     Examples
     --------
     >>> cm = CostModel(["a", "b"], {"a": 0.1, "b": 10.0})
-    >>> sel = budgeted_greedy(np.zeros((3, 2)), cost_model=cm, budget=10.0,
+    >>> sel = budgeted_greedy(np.zeros((3, 2)), costs=cm, budget=10.0,
     ...                       relevance=np.array([0.2, 10.0]))
     >>> step = sel.steps[0]
     >>> step.feature, step.column, step.relevance, step.marginal_cost, step.total_cost
@@ -202,7 +203,7 @@ class FilterSelection:
         -------
         dict
             For :func:`featuresift.run_search`, e.g. ``run_search(problem, "forward",
-            **sel.search_options())``. For the order itself use the ``"filter_order"``
+            **sel.search_options())``. For the order itself use the ``"filter-order"``
             strategy (:class:`featuresift.filters.strategy.FilterOrderSearch`).
         """
         chosen = self.selected if top is None else self.selected[:top]
@@ -318,10 +319,11 @@ def _run(
     return order, records, stop, gains_log
 
 
+@renamed_keywords(cost_model="costs")
 def budgeted_greedy(
     X: Any,
     y: Any = None,
-    cost_model: CostModel | None = None,
+    costs: Any = None,
     budget: float | None = None,
     *,
     relevance: Any = "mutual_info",
@@ -344,7 +346,7 @@ def budgeted_greedy(
     X : array-like or DataFrame of shape (n_samples, n_features)
     y : array-like of shape (n_samples,), optional
         Target; not needed when ``relevance`` is an array of precomputed scores.
-    cost_model : CostModel, optional
+    costs : CostModel or mapping, optional
         Panel-aware prices (default: every feature costs 1).
     budget : float, optional
         Largest total cost (None: unlimited).
@@ -380,14 +382,14 @@ def budgeted_greedy(
     The gain-per-cost trap (budget 10; a: value 0.2, cost 0.1; b: value 10, cost 10):
 
     >>> cm = CostModel(["a", "b"], {"a": 0.1, "b": 10.0})
-    >>> sel = budgeted_greedy(np.zeros((3, 2)), cost_model=cm, budget=10.0,
+    >>> sel = budgeted_greedy(np.zeros((3, 2)), costs=cm, budget=10.0,
     ...                       relevance=np.array([0.2, 10.0]))
     >>> sel.selected, sel.rule, sel.runs["ratio"]["value"]
     (['b'], 'gain', 0.2)
     """
     Xa, ya, names = check_xy(X, np.zeros(np.shape(X)[0]) if y is None else y)
     y_used = None if y is None else ya
-    cm = resolve_cost_model(cost_model, names)
+    cm = resolve_cost_model(costs, names)
     names = list(cm.feature_names)
     p = Xa.shape[1]
     if form not in FORMS:

@@ -27,6 +27,7 @@ from typing import Any
 
 import numpy as np
 
+from featuresift._compat import renamed_keywords
 from featuresift.costs import CostModel
 from featuresift.errors import InputError
 from featuresift.filters._common import (
@@ -129,10 +130,11 @@ def _entry(coefs: np.ndarray, penalties: np.ndarray) -> tuple[list[int], np.ndar
     return order, step, strength
 
 
+@renamed_keywords(cost_model="costs")
 def cost_weighted_l1_path(
     X: Any,
     y: Any,
-    cost_model: CostModel | None = None,
+    costs: Any = None,
     *,
     task: str | None = None,
     n_steps: int = 50,
@@ -146,7 +148,7 @@ def cost_weighted_l1_path(
     X : array-like or DataFrame of shape (n_samples, n_features)
         No missing values.
     y : array-like of shape (n_samples,)
-    cost_model : CostModel, optional
+    costs : CostModel or mapping, optional
         Default: equal costs (the ordinary L1 path).
     task : {"classification", "regression"}, optional
     n_steps : int, default=50
@@ -173,7 +175,7 @@ def cost_weighted_l1_path(
     [1, 0]
     """
     Xa, ya, names = check_xy(X, y, allow_nan=False)
-    cm = resolve_cost_model(cost_model, names)
+    cm = resolve_cost_model(costs, names)
     task = infer_task(ya, task)
     n_steps = check_positive_int(n_steps, "n_steps", 2)
     if not (isinstance(eps, (int, float)) and 0 < eps < 1):

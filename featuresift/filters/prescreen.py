@@ -39,6 +39,7 @@ from sklearn.base import BaseEstimator, MetaEstimatorMixin, clone
 from sklearn.utils.metaestimators import available_if
 from sklearn.utils.validation import check_is_fitted
 
+from featuresift._compat import renamed_keywords, warn_renamed
 from featuresift.costs import CostModel
 from featuresift.errors import InputError
 from featuresift.filters._common import (
@@ -134,10 +135,11 @@ def _rank(values: np.ndarray) -> np.ndarray:
     return np.lexsort((np.arange(values.size), -values))
 
 
+@renamed_keywords(cost_model="costs")
 def prescreen(
     X: Any,
     y: Any,
-    cost_model: CostModel | None = None,
+    costs: Any = None,
     *,
     relevance: Any = "anova_f",
     relevance_options: dict | None = None,
@@ -153,7 +155,7 @@ def prescreen(
     ----------
     X : array-like or DataFrame of shape (n_samples, n_features)
     y : array-like of shape (n_samples,)
-    cost_model : CostModel, optional
+    costs : CostModel or mapping, optional
         Default: every feature costs 1.
     relevance : str, dict or callable, default="anova_f"
         Relevance scorer (see :mod:`featuresift.filters.relevance`).
@@ -180,7 +182,7 @@ def prescreen(
     ([2, 3], 'dropped: rank 3 > keep 2 by relevance')
     """
     Xa, ya, names = check_xy(X, y)
-    cm = resolve_cost_model(cost_model, names)
+    cm = resolve_cost_model(costs, names)
     names = list(cm.feature_names)
     if rule not in SCREEN_RULES:
         raise InputError(f"screen rule must be one of {SCREEN_RULES}, got {rule!r}")
@@ -253,7 +255,10 @@ class ScreenedEstimator(MetaEstimatorMixin, BaseEstimator):
         Fitted on the kept columns.
     relevance, relevance_options, rule, keep, alpha, cost_basis, task
         As in :func:`prescreen`.
-    cost_model : CostModel, optional
+    costs : CostModel or mapping, optional
+        As in :func:`prescreen`.
+    cost_model : deprecated
+        Old name of ``costs``.
 
     Attributes
     ----------
@@ -279,14 +284,15 @@ class ScreenedEstimator(MetaEstimatorMixin, BaseEstimator):
     def __init__(self, estimator: Any, *, relevance: Any = "anova_f",
                  relevance_options: dict | None = None, rule: str = "top_per_cost",
                  keep: int | None = None, alpha: float = 0.05,
-                 cost_model: CostModel | None = None, cost_basis: str = "standalone",
-                 task: str | None = None) -> None:
+                 costs: Any = None, cost_basis: str = "standalone",
+                 task: str | None = None, cost_model: CostModel | None = None) -> None:
         self.estimator = estimator
         self.relevance = relevance
         self.relevance_options = relevance_options
         self.rule = rule
         self.keep = keep
         self.alpha = alpha
+        self.costs = costs
         self.cost_model = cost_model
         self.cost_basis = cost_basis
         self.task = task
@@ -315,8 +321,12 @@ class ScreenedEstimator(MetaEstimatorMixin, BaseEstimator):
             task = "classification" if is_classifier(self.estimator) else "regression"
         if task == "classification":
             check_classification_targets(ya)
+        costs = self.costs
+        if self.cost_model is not None:
+            warn_renamed("ScreenedEstimator", "cost_model", "costs")
+            costs = self.cost_model
         self.screen_ = prescreen(
-            Xa, ya, self.cost_model, relevance=self.relevance,
+            Xa, ya, costs, relevance=self.relevance,
             relevance_options=self.relevance_options, rule=self.rule, keep=self.keep,
             alpha=self.alpha, cost_basis=self.cost_basis, task=task,
         )

@@ -29,7 +29,7 @@ Built in
     cases use scikit-learn's k-nearest-neighbour estimators
     (:func:`~sklearn.feature_selection.mutual_info_classif`,
     :func:`~sklearn.feature_selection.mutual_info_regression`, seeded by
-    ``random_state``). ``estimator="plugin"`` bins every column (and a
+    ``seed``). ``estimator="plugin"`` bins every column (and a
     continuous target) and uses the plug-in estimator throughout. A p-value (the G
     test, G = 2 N I with dof (levels - 1)(classes - 1)) is given for plug-in columns.
 ``pearson``, ``spearman`` (regression, or two classes coded 0/1)
@@ -76,6 +76,7 @@ from typing import Any
 import numpy as np
 from scipy import special, stats
 
+from featuresift._compat import renamed_keywords
 from featuresift.errors import InputError
 from featuresift.filters._common import (
     DEFAULT_MAX_LEVELS,
@@ -326,6 +327,7 @@ def plugin_mutual_info(a: np.ndarray, b: np.ndarray) -> float:
     return max(float(terms.sum() / n), 0.0)
 
 
+@renamed_keywords(random_state="seed")
 def mutual_info(
     X: Any,
     y: Any,
@@ -334,7 +336,7 @@ def mutual_info(
     n_bins: int = 5,
     max_levels: int = DEFAULT_MAX_LEVELS,
     n_neighbors: int = 3,
-    random_state: int | None = 0,
+    seed: int | None = 0,
 ) -> tuple[np.ndarray, np.ndarray | None]:
     """Mutual information (nats) between each column and the target.
 
@@ -352,7 +354,7 @@ def mutual_info(
         Discretisation for the plug-in estimator (see :func:`chi_square`).
     n_neighbors : int, default=3
         Neighbours of the kNN estimators.
-    random_state : int, optional
+    seed : int, optional
         Seed of the small noise scikit-learn adds to continuous columns.
 
     Returns
@@ -415,13 +417,13 @@ def mutual_info(
     if clean:
         cols = np.asarray(clean)
         scores[cols] = func(X[:, cols], target, discrete_features=discrete[cols],
-                            n_neighbors=n_neighbors, random_state=random_state)
+                            n_neighbors=n_neighbors, random_state=seed)
     for j in dirty:
         ok = ~np.isnan(X[:, j])
         if ok.sum() <= n_neighbors:
             continue
         scores[j] = func(X[ok, j:j + 1], target[ok], discrete_features=discrete[j:j + 1],
-                         n_neighbors=n_neighbors, random_state=random_state)[0]
+                         n_neighbors=n_neighbors, random_state=seed)[0]
     return scores, (pvals if use_plugin.any() else None)
 
 
@@ -517,6 +519,7 @@ def _default_model(task: str):
     return make_pipeline(SimpleImputer(strategy="median"), StandardScaler(), last)
 
 
+@renamed_keywords(random_state="seed")
 def permutation_relevance(
     X: Any,
     y: Any,
@@ -525,7 +528,7 @@ def permutation_relevance(
     cv: Any = 5,
     n_repeats: int = 5,
     scoring: Any = None,
-    random_state: int | None = 0,
+    seed: int | None = 0,
 ) -> tuple[np.ndarray, None]:
     """Permutation importance averaged over CV folds (model-based relevance).
 
@@ -544,7 +547,7 @@ def permutation_relevance(
     cv : int or CV splitter, default=5
     n_repeats : int, default=5
     scoring : str or callable, optional
-    random_state : int, optional
+    seed : int, optional
         Seed of the permutations (and of a shuffled splitter when ``cv`` is an int: it
         is not shuffled).
 
@@ -575,9 +578,9 @@ def permutation_relevance(
     n_folds = 0
     for k, (tr, te) in enumerate(splitter.split(X, y)):
         fitted = clone(model).fit(X[tr], y[tr])
-        seed = None if random_state is None else int(random_state) + k
+        fold_seed = None if seed is None else int(seed) + k
         res = permutation_importance(fitted, X[te], y[te], scoring=scoring,
-                                     n_repeats=n_repeats, random_state=seed)
+                                     n_repeats=n_repeats, random_state=fold_seed)
         total += res.importances_mean
         n_folds += 1
     return total / n_folds, None

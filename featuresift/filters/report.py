@@ -23,7 +23,7 @@ from typing import Any
 
 import numpy as np
 
-from featuresift.costs import CostModel
+from featuresift._compat import renamed_keywords
 from featuresift.errors import InputError
 from featuresift.filters._common import check_xy, per_cost, resolve_cost_model, unit_costs
 from featuresift.filters.prescreen import benjamini_hochberg
@@ -66,10 +66,11 @@ def redundancy_partners(X: np.ndarray, block: int = 512) -> tuple[np.ndarray, np
     return partner, best
 
 
+@renamed_keywords(cost_model="costs")
 def feature_report(
     X: Any,
     y: Any,
-    cost_model: CostModel | None = None,
+    costs: Any = None,
     relevance: Any = "anova_f",
     task: str | None = None,
     *,
@@ -83,7 +84,7 @@ def feature_report(
     ----------
     X : DataFrame or array-like of shape (n_samples, n_features)
     y : array-like of shape (n_samples,)
-    cost_model : CostModel, optional
+    costs : CostModel or mapping, optional
         Default: every feature costs 1.
     relevance : str, dict or callable, default="anova_f"
         Relevance scorer (see :mod:`featuresift.filters.relevance`); use a regression
@@ -114,7 +115,7 @@ def feature_report(
     ('petal length (cm)', 'petal width (cm)')
     """
     Xa, ya, names = check_xy(X, y)
-    cm = resolve_cost_model(cost_model, names)
+    cm = resolve_cost_model(costs, names)
     names = list(cm.feature_names)
     rel = relevance_scores(Xa, ya, relevance, task=task, **(relevance_options or {}))
     costs = unit_costs(cm, cost_basis)

@@ -1,7 +1,8 @@
 """Search strategies, pluggable by name (see :mod:`featuresift.strategies.base`).
 
 Registered names: ``forward``, ``backward`` (sequential), ``floating-forward``,
-``floating-backward`` (SFFS, SBFS), ``annealing``, ``genetic``, ``exhaustive``.
+``floating-backward`` (SFFS, SBFS), ``annealing``, ``genetic``, ``exhaustive``,
+``filter-order`` (prefixes of an order of measurements).
 """
 
 from featuresift.strategies.annealing import SimulatedAnnealing
@@ -16,6 +17,7 @@ from featuresift.strategies.base import (
     register_strategy,
 )
 from featuresift.strategies.exhaustive import ExhaustiveSearch
+from featuresift.strategies.filter_order import FilterOrderSearch
 from featuresift.strategies.floating import FloatingBackwardSearch, FloatingForwardSearch
 from featuresift.strategies.genetic import GeneticSearch
 from featuresift.strategies.sequential import BackwardSelection, ForwardSelection
@@ -36,4 +38,5 @@ __all__ = [
     "SimulatedAnnealing",
     "GeneticSearch",
     "ExhaustiveSearch",
+    "FilterOrderSearch",
 ]

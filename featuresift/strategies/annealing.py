@@ -141,7 +141,7 @@ class SimulatedAnnealing(SearchStrategy):
     >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 4}) - 0.1 * len(s), 6)
-    >>> space = SearchSpace(ev, CostModel.uniform("abcdef"), random_state=0)
+    >>> space = SearchSpace(ev, CostModel.uniform("abcdef"), seed=0)
     >>> SimulatedAnnealing(n_steps=20, n_restarts=1).run(space)
     >>> space.best_of(space.visited.values()).subset
     (1, 4)

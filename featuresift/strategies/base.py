@@ -18,7 +18,7 @@ receives a :class:`SearchSpace`. Through the space it
   :attr:`SearchResult.extras <featuresift.result.SearchResult.extras>`;
 * draws random numbers only from ``space.rng`` (seeded), so runs reproduce.
 
-The limits (``max_evaluations``, ``max_time``, the callback) are enforced by the space:
+The limits (``max_evaluations``, ``max_time_s``, the callback) are enforced by the space:
 :meth:`SearchSpace.evaluate` raises :class:`StopSearch`, which the driver catches, so a
 strategy needs no code for them. Subsets evaluated earlier in the run are free (cached).
 
@@ -60,7 +60,7 @@ Add measurements cheapest first while the objective keeps improving::
     costs = CostModel(["a", "b", "c"], {"a": 1.0, "b": 2.0, "c": 5.0})
     table = {(0,): 0.6, (0, 1): 0.8, (0, 1, 2): 0.81}
     ev = CriterionEvaluator(lambda s: table.get(s, 0.0), n_features=3)
-    result = run_search(ev, "cheapest-first", cost_model=costs, budget=4, min_gain=0.05)
+    result = run_search(ev, "cheapest-first", costs=costs, budget=4, min_gain=0.05)
     print(result.selected)  # ['a', 'b']
 
 In YAML the same strategy is ``strategy: {name: cheapest-first, options: {min_gain: 0.05}}``
@@ -81,6 +81,7 @@ from typing import Any, ClassVar
 
 import numpy as np
 
+from featuresift._compat import renamed_keywords, warn_renamed
 from featuresift.costs import AllowedSubsets, CostModel
 from featuresift.engine.evaluator import BaseEvaluator, normalise_subset
 from featuresift.engine.records import COMPLETE, Evaluation
@@ -96,6 +97,8 @@ __all__ = [
     "STRATEGIES",
     "register_strategy",
     "make_strategy",
+    "resolve_strategy_name",
+    "STRATEGY_ALIASES",
 ]
 
 
@@ -218,8 +221,9 @@ class SearchSpace:
     ----------
     evaluator : BaseEvaluator
         Scores batches of subsets.
-    cost_model : CostModel
-        Acquisition costs (panel-aware); every budget check asks it.
+    costs : CostModel
+        Acquisition costs (panel-aware); every budget check asks it (attribute
+        ``cost_model``).
     budget : float, optional
         Maximum cost per sample of a chosen subset (None: unlimited).
     objective : BaseObjective, optional
@@ -228,11 +232,11 @@ class SearchSpace:
         Largest subset size allowed.
     max_evaluations : int, optional
         Largest number of distinct subsets this search may evaluate.
-    max_time : float, optional
+    max_time_s : float, optional
         Seconds after which the search stops (checked between batches).
     must_include, never_include : iterables of int
         Columns always in every subset / never in any.
-    random_state : int, optional
+    seed : int, optional, default=0
         Seed of ``rng``.
     callback : callable, optional
         Called as ``callback(step)`` after each recorded :class:`PathStep`; returning
@@ -252,20 +256,24 @@ class SearchSpace:
     [1.0, 2.0]
     """
 
+    @renamed_keywords(cost_model="costs", max_time="max_time_s", random_state="seed")
     def __init__(
         self,
         evaluator: BaseEvaluator,
-        cost_model: CostModel,
+        costs: CostModel | None = None,
         budget: float | None = None,
         objective: BaseObjective | None = None,
         max_features: int | None = None,
         max_evaluations: int | None = None,
-        max_time: float | None = None,
+        max_time_s: float | None = None,
         must_include: Iterable[int] = (),
         never_include: Iterable[int] = (),
-        random_state: int | None = 0,
+        seed: int | None = 0,
         callback: Callable[[PathStep], Any] | None = None,
     ) -> None:
+        if costs is None:
+            raise TypeError("SearchSpace needs costs (a CostModel)")
+        cost_model = costs
         self.evaluator = evaluator
         self.cost_model = cost_model
         self.n_features = evaluator.n_features
@@ -274,7 +282,7 @@ class SearchSpace:
         self.objective = objective or ScoreObjective()
         self.max_features = self.n_features if max_features is None else int(max_features)
         self.max_evaluations = max_evaluations
-        self.max_time = max_time
+        self.max_time_s = max_time_s
         self.must_include = normalise_subset(must_include, self.n_features)
         self.never_include = frozenset(normalise_subset(never_include, self.n_features))
         clash = set(self.must_include) & self.never_include
@@ -291,8 +299,8 @@ class SearchSpace:
                 f"the must_include features cost {cost_model.cost(self.must_include):g} "
                 f"{cost_model.unit}, above the budget {self.budget:g}"
             )
-        self.rng = np.random.default_rng(random_state)
-        self.random_state = random_state
+        self.rng = np.random.default_rng(seed)
+        self.seed = seed
         self.callback = callback
         self.path: list[PathStep] = []
         self.visited: dict[tuple[int, ...], Scored] = {}
@@ -401,7 +409,7 @@ class SearchSpace:
         >>> from featuresift.engine.evaluator import CriterionEvaluator
         >>> from featuresift.costs import AllowedSubsets, CostModel
         >>> space = SearchSpace(CriterionEvaluator(len, 4), CostModel.uniform("abcd"),
-        ...                     budget=2, random_state=1)
+        ...                     budget=2, seed=1)
         >>> s = space.sample_allowed(0.9)
         >>> 1 <= len(s) <= 2 and space.is_allowed(s)
         True
@@ -420,8 +428,8 @@ class SearchSpace:
 
     # -------------------------------------------------------------- evaluation
     def _check_time(self) -> None:
-        if self.max_time is not None and time.perf_counter() - self._start > self.max_time:
-            self.stop_reason = f"time limit of {self.max_time:g} s reached"
+        if self.max_time_s is not None and time.perf_counter() - self._start > self.max_time_s:
+            self.stop_reason = f"time limit of {self.max_time_s:g} s reached"
             raise StopSearch(self.stop_reason)
 
     def evaluate(self, subsets: Sequence[Iterable[int]]) -> list[Scored]:
@@ -521,6 +529,8 @@ class SearchStrategy(ABC):
     """
 
     name: ClassVar[str] = ""
+    renamed_options: ClassVar[dict[str, str]] = {}
+    """Old option name -> new name; the old one still works, with a DeprecationWarning."""
 
     @abstractmethod
     def run(self, space: SearchSpace) -> None:
@@ -537,6 +547,32 @@ class SearchStrategy(ABC):
 
 STRATEGIES: dict[str, type[SearchStrategy]] = {}
 """Registry of strategies by name; YAML's ``strategy.name`` looks here."""
+
+STRATEGY_ALIASES: dict[str, str] = {}
+"""Old spellings of strategy names (``filter_order``) -> the name; deprecated."""
+
+
+def resolve_strategy_name(name: Any) -> Any:
+    """The registered name for ``name``: itself, or the name an old spelling stands for.
+
+    Names use hyphens; an underscore spelling of a registered name (``filter_order``,
+    ``floating_forward``) still works, with a DeprecationWarning.
+
+    Examples
+    --------
+    >>> import warnings
+    >>> with warnings.catch_warnings():
+    ...     warnings.simplefilter("ignore")
+    ...     resolve_strategy_name("floating_forward")
+    'floating-forward'
+    """
+    if not isinstance(name, str) or name in STRATEGIES:
+        return name
+    new = STRATEGY_ALIASES.get(name, name.replace("_", "-"))
+    if new in STRATEGIES:
+        warn_renamed("strategy", name, new, stacklevel=4)
+        return new
+    return name
 
 
 def register_strategy(cls: type[SearchStrategy]) -> type[SearchStrategy]:
@@ -585,12 +621,20 @@ def make_strategy(spec: str | dict | SearchStrategy, **options: Any) -> SearchSt
         opts.update(options)
     else:
         name, opts = spec, dict(options)
+    name = resolve_strategy_name(name)
     if name not in STRATEGIES:
         raise InputError(
             f"unknown strategy '{name}'; known: {', '.join(sorted(STRATEGIES))}",
             key="strategy.name",
         )
     cls = STRATEGIES[name]
+    for old, new in cls.renamed_options.items():
+        if old in opts:
+            if new in opts:
+                raise InputError(f"give '{new}' only (its old name '{old}' was given too)",
+                                 key=f"strategy.options.{new}")
+            warn_renamed(f"strategy '{name}'", old, new, stacklevel=3)
+            opts[new] = opts.pop(old)
     params = inspect.signature(cls.__init__).parameters
     accepts_any = any(p.kind is inspect.Parameter.VAR_KEYWORD for p in params.values())
     if not accepts_any:

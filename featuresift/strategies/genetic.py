@@ -25,8 +25,8 @@ subsets that contain the feature minus the mean over those that do not (0 when e
 group is empty). It costs no evaluation; it is recomputed once per generation from
 every complete evaluation of the run.
 
-Stopping: after ``generation_limit`` generations, or when the best subset has not
-improved for ``stall_limit`` generations, or at the space's evaluation or time limit.
+Stopping: after ``n_generations`` generations, or when the best subset has not
+improved for ``patience`` generations, or at the space's evaluation or time limit.
 The answer is the best allowed subset evaluated.
 """
 
@@ -129,9 +129,9 @@ class GeneticSearch(SearchStrategy):
     ----------
     n_individuals : int, default=24
         Individuals per generation.
-    generation_limit : int, default=40
+    n_generations : int, default=40
         Generations after the initial population.
-    stall_limit : int, default=8
+    patience : int, default=8
         Stop after this many generations without a better best subset.
     contestants : int, default=3
         Individuals compared to pick each parent.
@@ -149,19 +149,20 @@ class GeneticSearch(SearchStrategy):
     >>> from featuresift.engine.evaluator import CriterionEvaluator
     >>> from featuresift.costs import CostModel
     >>> ev = CriterionEvaluator(lambda s: len(set(s) & {1, 4}) - 0.1 * len(s), 6)
-    >>> space = SearchSpace(ev, CostModel.uniform("abcdef"), random_state=0)
+    >>> space = SearchSpace(ev, CostModel.uniform("abcdef"), seed=0)
     >>> GeneticSearch(n_individuals=10).run(space)
     >>> space.best_of(space.visited.values()).subset
     (1, 4)
     """
 
     name = "genetic"
+    renamed_options = {"generation_limit": "n_generations", "stall_limit": "patience"}
 
     def __init__(
         self,
         n_individuals: int = 24,
-        generation_limit: int = 40,
-        stall_limit: int = 8,
+        n_generations: int = 40,
+        patience: int = 8,
         contestants: int = 3,
         crossover_chance: float = 0.9,
         flip_chance: float | None = None,
@@ -169,8 +170,8 @@ class GeneticSearch(SearchStrategy):
         start_density: float = 0.3,
     ) -> None:
         self.n_individuals = check_int(n_individuals, "n_individuals", minimum=2)
-        self.generation_limit = check_int(generation_limit, "generation_limit")
-        self.stall_limit = check_int(stall_limit, "stall_limit")
+        self.n_generations = check_int(n_generations, "n_generations")
+        self.patience = check_int(patience, "patience")
         self.contestants = check_int(contestants, "contestants")
         self.crossover_chance = check_fraction(
             crossover_chance, "crossover_chance", open_low=False, open_high=False)
@@ -217,7 +218,7 @@ class GeneticSearch(SearchStrategy):
         best = space.best_of(pop)
         space.record("start", best.subset)
         stale = 0
-        for _ in range(self.generation_limit):
+        for _ in range(self.n_generations):
             estimate = marginal_estimates(space)
             ranked = sorted(pop, key=space.rank_key, reverse=True)
             elite = [s.subset for s in ranked[: self.n_kept]]
@@ -235,7 +236,7 @@ class GeneticSearch(SearchStrategy):
             else:
                 stale += 1
             space.record("generation", best.subset)
-            if stale >= self.stall_limit:
-                space.stop_reason = f"no improvement in {self.stall_limit} generations"
+            if stale >= self.patience:
+                space.stop_reason = f"no improvement in {self.patience} generations"
                 return
-        space.stop_reason = f"{self.generation_limit} generations done"
+        space.stop_reason = f"{self.n_generations} generations done"
