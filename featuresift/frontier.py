@@ -42,7 +42,9 @@ import numpy as np
 
 from featuresift.costs import CostModel
 from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
+from featuresift.engine.journal import reuse_message
 from featuresift.errors import InputError
+from featuresift.outputs import PLOTS_HINT, RunFolder, plots_available, write_files
 from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult, score_label
 from featuresift.search import prepare_for_objective, run_search
@@ -425,8 +427,12 @@ class Frontier:
                          f"optimism of the in-search estimate {ne.optimism:+.4f}")
         return lines
 
-    def to_markdown(self) -> list[str]:
-        """Lines of the report section on the sweep."""
+    def to_markdown(self, plot: str | None = "frontier.png") -> list[str]:
+        """Lines of the report section on the sweep.
+
+        ``plot`` is the file name of the plot beside the report, or None when none was
+        drawn (the section then says how to get plots instead of linking a missing image).
+        """
         u = self.cost_unit
         frame = self.to_frame()
 
@@ -463,9 +469,11 @@ class Frontier:
         lines += [
             "",
             f"The sweep used {self.n_fits} model fits; without sharing evaluations between "
-            f"budgets it would have needed {self.n_fits_without_cache}.",
+            f"budgets it would have needed {self.n_fits_without_cache}."
+            + (f" {reused}" if self.results and (reused := reuse_message(
+                self.results[-1].extras.get("engine"))) else ""),
             "",
-            "![accuracy against cost](frontier.png)",
+            f"![accuracy against cost]({plot})" if plot else f"No plot was drawn: {PLOTS_HINT}.",
         ]
         return lines
 
@@ -514,34 +522,41 @@ class Frontier:
         ax.legend(loc="lower right", fontsize=7)
         return ax
 
-    def write(self, folder: str | os.PathLike, plot: bool = True) -> list[Path]:
-        """Write ``frontier.csv``, ``frontier_choices.csv``, ``frontier.json`` and (if
-        matplotlib) ``frontier.png``."""
-        out = Path(folder)
-        out.mkdir(parents=True, exist_ok=True)
-        written = []
-        csv_path = out / "frontier.csv"
-        self.to_frame().to_csv(csv_path, index=False)
-        written.append(csv_path)
-        choices_path = out / "frontier_choices.csv"
-        self.choice_frequency().to_csv(choices_path, index=False)
-        written.append(choices_path)
-        json_path = out / "frontier.json"
-        json_path.write_text(json.dumps(self.to_dict(), indent=2) + "\n", encoding="utf-8")
-        written.append(json_path)
-        if plot:
-            try:
-                from matplotlib.figure import Figure
-            except ImportError:
-                return written
-            # A figure without pyplot: drawn to the file, whatever the session's backend.
+    def output_files(self, plot: bool = True) -> dict[str, str | bytes]:
+        """Content of ``frontier.csv``, ``frontier_choices.csv``, ``frontier.json`` and
+        ``frontier.png`` by file name.
+
+        The plot is left out when ``plot`` is False or matplotlib is not installed
+        (:func:`featuresift.outputs.plots_available`).
+        """
+        files: dict[str, str | bytes] = {
+            "frontier.csv": self.to_frame().to_csv(index=False),
+            "frontier_choices.csv": self.choice_frequency().to_csv(index=False),
+            "frontier.json": json.dumps(self.to_dict(), indent=2) + "\n",
+        }
+        if plot and plots_available():
+            import io
+
+            from matplotlib.figure import Figure
+
+            # A bare Figure needs no pyplot and leaves the user's backend alone.
             fig = Figure(figsize=(7, 4.5))
-            self.plot(fig.subplots())
-            png = out / "frontier.png"
+            self.plot(ax=fig.subplots())
             fig.tight_layout()
-            fig.savefig(png, dpi=120)
-            written.append(png)
-        return written
+            buf = io.BytesIO()
+            fig.savefig(buf, format="png", dpi=120)
+            files["frontier.png"] = buf.getvalue()
+        return files
+
+    def write(self, folder: str | os.PathLike | RunFolder, plot: bool = True) -> list[Path]:
+        """Write ``frontier.csv``, ``frontier_choices.csv``, ``frontier.json`` and (if
+        matplotlib) ``frontier.png``.
+
+        Files are written atomically, never through a symbolic link
+        (:func:`featuresift.outputs.write_files`). Returns only the paths written: without
+        matplotlib there is no ``frontier.png`` (``pip install "featuresift[plots]"``).
+        """
+        return write_files(folder, self.output_files(plot=plot))
 
 
 def budget_sweep(
@@ -608,6 +623,7 @@ def budget_sweep(
         raise InputError(f"nested needs at least 2 outer folds, got {nested!r}")
     engine = {k: search_options.pop(k) for k in _ENGINE_OPTIONS if k in search_options}
     original, objective_spec = problem, search_options.get("objective")
+    owned = evaluator is None
     if evaluator is None:
         # An objective with its own scorer (expected cost) must score the sweep too.
         problem, search_options["objective"] = prepare_for_objective(
@@ -619,12 +635,16 @@ def budget_sweep(
     results = []
     without_cache = 0
     point_options = _without_guard(search_options)
-    for b in budgets:
-        res = run_search(
-            shared, strategy, costs=problem.cost_model, budget=b, **point_options
-        )
-        without_cache += res.n_evaluations * n_folds
-        results.append(res)
+    try:
+        for b in budgets:
+            res = run_search(
+                shared, strategy, costs=problem.cost_model, budget=b, **point_options
+            )
+            without_cache += res.n_evaluations * n_folds
+            results.append(res)
+    finally:
+        if owned and isinstance(shared, CrossValidationEvaluator):
+            shared.close()  # closes a journal opened here
     scoring = problem.scoring if isinstance(problem.scoring, str) else "score"
     for r in results:
         r.scoring = scoring

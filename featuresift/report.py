@@ -13,6 +13,8 @@ import os
 from pathlib import Path
 from typing import Any
 
+from featuresift.engine.journal import reuse_message
+from featuresift.outputs import PLOTS_HINT, RunFolder, write_files
 from featuresift.result import SearchResult
 
 __all__ = ["CAUTION", "render_report", "write_report"]
@@ -50,6 +52,7 @@ def render_report(
     feature_table: Any = None,
     source: str | None = None,
     chosen_heading: str = "Chosen measurements",
+    frontier_plot: str | None = "frontier.png",
 ) -> str:
     """Markdown text of the report.
 
@@ -70,6 +73,9 @@ def render_report(
         Where the run came from (config path), shown under the title.
     chosen_heading : str
         Heading of the section describing ``result``.
+    frontier_plot : str or None, default="frontier.png"
+        File name of the sweep's plot beside the report; None when no plot was drawn
+        (the report then says how to get one instead of linking a missing image).
 
     Examples
     --------
@@ -107,6 +113,7 @@ def render_report(
         "",
         f"{result.n_evaluations} subsets evaluated with {result.n_fits} model fits in "
         f"{result.wall_time:.1f} s. Stopped: {result.stop_reason}.",
+        *(["", reused] if (reused := reuse_message(result.extras.get("engine"))) else []),
         "",
         "## Search path",
         "",
@@ -119,7 +126,7 @@ def render_report(
     if nested is not None:
         lines += ["", *nested.to_markdown()]
     if frontier is not None:
-        lines += ["", *frontier.to_markdown()]
+        lines += ["", *frontier.to_markdown(plot=frontier_plot)]
     if feature_table is not None:
         lines += ["", "## Per-measurement screening table", ""]
         cols = [str(c) for c in feature_table.columns]
@@ -131,8 +138,12 @@ def render_report(
     return "\n".join(lines) + "\n"
 
 
-def write_report(folder: str | os.PathLike, result: SearchResult, **kwargs: Any) -> Path:
+def write_report(folder: str | os.PathLike | RunFolder, result: SearchResult,
+                 **kwargs: Any) -> Path:
     """Write ``report.md`` into ``folder`` (see :func:`render_report` for options).
+
+    Written atomically, never through a symbolic link
+    (:func:`featuresift.outputs.write_files`).
 
     Examples
     --------
@@ -148,10 +159,4 @@ def write_report(folder: str | os.PathLike, result: SearchResult, **kwargs: Any)
     >>> path.name, first_line
     ('report.md', '# Iris check')
     """
-    out = Path(folder)
-    out.mkdir(parents=True, exist_ok=True)
-    path = out / "report.md"
-    tmp = out / ".report.md.tmp"
-    tmp.write_text(render_report(result, **kwargs), encoding="utf-8")
-    os.replace(tmp, path)
-    return path
+    return write_files(folder, {"report.md": render_report(result, **kwargs)})[0]

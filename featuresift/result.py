@@ -11,6 +11,7 @@ from pathlib import Path
 from typing import Any
 
 from featuresift.costs import CostLine
+from featuresift.outputs import RunFolder, write_files
 
 __all__ = ["SearchResult", "PathRow", "EvaluatedSubset", "SCORE_KINDS", "score_label"]
 
@@ -418,14 +419,8 @@ class SearchResult:
 
         return result_html(self)
 
-    def write(self, folder: str | os.PathLike) -> list[Path]:
-        """Write ``result.json``, ``selected.csv`` and ``path.csv`` into ``folder``.
-
-        Files are written to temporary names first and renamed at the end, so a
-        failure never leaves half a result. Returns the paths written.
-        """
-        out = Path(folder)
-        out.mkdir(parents=True, exist_ok=True)
+    def output_files(self) -> dict[str, str]:
+        """The content of ``result.json``, ``selected.csv`` and ``path.csv`` by file name."""
         files: dict[str, str] = {"result.json": self.to_json() + "\n"}
         files["selected.csv"] = _csv(
             ["feature", "column", "paid_by", "line_cost", "cost_unit"],
@@ -444,21 +439,17 @@ class SearchResult:
                 for r in self.path
             ],
         )
-        written = []
-        tmp_paths = []
-        try:
-            for name, text in files.items():
-                tmp = out / f".{name}.tmp"
-                tmp.write_text(text, encoding="utf-8")
-                tmp_paths.append((tmp, out / name))
-            for tmp, final in tmp_paths:
-                os.replace(tmp, final)
-                written.append(final)
-        finally:
-            for tmp, _ in tmp_paths:
-                if tmp.exists():
-                    tmp.unlink()
-        return written
+        return files
+
+    def write(self, folder: str | os.PathLike | RunFolder) -> list[Path]:
+        """Write ``result.json``, ``selected.csv`` and ``path.csv`` into ``folder``.
+
+        Each file is written under a temporary name and renamed over the final one
+        (:func:`featuresift.outputs.write_files`), so a failure never leaves half a
+        result, and a symbolic link in place of the folder or a file is refused
+        (:class:`~featuresift.errors.InputError`). Returns the paths written.
+        """
+        return write_files(folder, self.output_files())
 
     def _paid_by(self, name: str) -> tuple[str, str]:
         for line in self.cost_breakdown:

@@ -357,6 +357,11 @@ class CrossValidationEvaluator(BaseEvaluator):
         Candidates dropped by racing (counted once per batch they were dropped in).
     n_journal_hits : int
         Subsets served from the journal without any fit.
+    n_journal_rejected : int
+        Journal rows of this problem that did not verify (edited, corrupted or written by
+        another version); they are never served.
+    n_journal_refitted : int
+        Of those, the subsets this evaluator was asked for and fitted again.
 
     Examples
     --------
@@ -428,11 +433,25 @@ class CrossValidationEvaluator(BaseEvaluator):
         )
         self._checked = False
         self._from_journal: set[tuple[int, ...]] = set()
+        self._rejected: set[tuple[int, ...]] = set()
+        self._refitted: set[tuple[int, ...]] = set()
         if self.journal is not None:
-            for key, table in self.journal.load(self.fingerprint).items():
+            tables, rejected = self.journal.read(self.fingerprint)
+            self._rejected.update(rejected)
+            for key, table in tables.items():
                 if table.n_folds == self.n_folds:
                     self._tables[key] = table
                     self._from_journal.add(key)
+
+    @property
+    def n_journal_rejected(self) -> int:
+        """Journal rows of this problem that did not verify (never served)."""
+        return len(self._rejected)
+
+    @property
+    def n_journal_refitted(self) -> int:
+        """Subsets whose journal row did not verify and that were fitted again."""
+        return len(self._refitted)
 
     # ----------------------------------------------------------------- public
     def stats(self) -> dict[str, Any]:
@@ -453,6 +472,8 @@ class CrossValidationEvaluator(BaseEvaluator):
             "n_failed_fits": self.n_failed_fits,
             "n_dropped": self.n_dropped,
             "n_journal_hits": self.n_journal_hits,
+            "n_journal_rejected": self.n_journal_rejected,
+            "n_journal_refitted": self.n_journal_refitted,
             "racing": None if self.race is None else self.race.describe(),
             "shared_preprocessing_steps": self.plan.n_shared_steps,
             "fast_path": None if self.fast_path is None else self.fast_path.describe(),
@@ -536,6 +557,8 @@ class CrossValidationEvaluator(BaseEvaluator):
             self._tables[k].set(f, score, seconds, error)
             touched.add(k)
             fitted.add(k)
+            if k in self._rejected:
+                self._refitted.add(k)
             if error is not None:
                 self.n_failed_fits += 1
         self.n_fits += len(work)

@@ -29,6 +29,7 @@ from featuresift.filters._common import check_xy, per_cost, resolve_cost_model, 
 from featuresift.filters.prescreen import benjamini_hochberg
 from featuresift.filters.redundancy import standardize_columns
 from featuresift.filters.relevance import relevance_scores
+from featuresift.outputs import RunFolder, write_files
 
 __all__ = ["feature_report", "write_feature_report", "REPORT_COLUMNS", "redundancy_partners"]
 
@@ -147,8 +148,11 @@ def feature_report(
     return frame
 
 
-def write_feature_report(frame: Any, path: str | os.PathLike) -> Path:
+def write_feature_report(frame: Any, path: str | os.PathLike | RunFolder) -> Path:
     """Write a report from :func:`feature_report` to CSV (written atomically).
+
+    ``path`` is the CSV file, or a :class:`~featuresift.outputs.RunFolder` (which gets
+    ``features.csv``); symbolic links are refused (:func:`featuresift.outputs.write_files`).
 
     Floats are written with full precision; empty cells mean "none" (no p-value, no
     panel, no partner).
@@ -166,13 +170,8 @@ def write_feature_report(frame: Any, path: str | os.PathLike) -> Path:
     missing = [c for c in REPORT_COLUMNS if c not in getattr(frame, "columns", [])]
     if missing:
         raise InputError(f"not a feature report: missing column(s) {', '.join(missing)}")
+    text = frame.to_csv(index=False, float_format="%.17g")
+    if isinstance(path, RunFolder):
+        return path.write_files({"features.csv": text})[0]
     out = Path(path)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = out.with_name(f".{out.name}.tmp")
-    try:
-        frame.to_csv(tmp, index=False, float_format="%.17g")
-        os.replace(tmp, out)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
-    return out
+    return write_files(out.parent, {out.name: text})[0]
