@@ -15,13 +15,10 @@ featuresift ...
 from __future__ import annotations
 
 import argparse
-import json
 import math
-import shutil
 import sys
 import traceback
 from collections.abc import Sequence
-from contextlib import contextmanager
 from pathlib import Path
 from typing import TextIO
 
@@ -33,11 +30,14 @@ from featuresift.config import (
     nested_from_config,
     run_from_config,
     sweep_from_config,
+    write_run_files,
+    write_sweep_files,
 )
 from featuresift.config.nested import nested_spec
+from featuresift.engine.journal import reuse_message
 from featuresift.engine.racing import RACES
 from featuresift.errors import FitFailedError, InputError
-from featuresift.report import write_report
+from featuresift.outputs import LATEST_NAME, PLOTS_HINT, RunFolder, open_run_folder
 from featuresift.result import score_label
 from featuresift.strategies import STRATEGIES
 
@@ -94,27 +94,6 @@ def _step_printer(stream: TextIO):
 
 
 # ------------------------------------------------------------------ subcommands
-@contextmanager
-def _clean_on_error(folder: Path):
-    """Remove ``folder`` if it did not exist before and the block fails on bad input.
-
-    An interrupted run (Ctrl-C) keeps its folder: the journal in it lets the same command
-    resume without refitting finished evaluations.
-    """
-    # The highest folder on the way to ``folder`` that does not exist yet.
-    created = None
-    for candidate in [folder, *folder.parents]:
-        if candidate.exists():
-            break
-        created = candidate
-    try:
-        yield
-    except (InputError, FitFailedError):
-        if created is not None and created.is_dir():
-            shutil.rmtree(created, ignore_errors=True)
-        raise
-
-
 def _engine_overrides(cfg, args: argparse.Namespace) -> None:
     engine = cfg.extra["engine"]
     if getattr(args, "no_journal", False):
@@ -143,28 +122,37 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
         out.write("\n")
     callback = _step_printer(sys.stderr) if args.verbose else None
     nested = None
-    with _clean_on_error(cfg.output):
+    with open_run_folder(cfg, "run") as folder:
         if nested_spec(cfg, args.nested, args.nested_repeats) is not None:
             # Run the honest estimate first, so that nothing is written when it fails; it
             # re-runs the whole search in each outer fold.
             nested = nested_from_config(cfg, args.nested, args.nested_repeats)
-        result = run_from_config(cfg, write=True, callback=callback)
-        write_report(cfg.output, result, nested=nested, source=str(cfg.path))
-    files = "result.json, selected.csv, path.csv, report.md"
-    if cfg.extra["engine"]["journal"]:
-        files += f", {cfg.extra['engine']['journal']} (evaluation journal)"
-    if nested is not None:
-        (cfg.output / "nested.json").write_text(
-            json.dumps(nested.to_dict(), indent=2) + "\n", encoding="utf-8")
-        files += ", nested.json"
+        result = run_from_config(cfg, callback=callback)
+        written = write_run_files(folder, cfg, result, nested=nested)
+        final = folder.commit()
     out.write(result.summary() + "\n\n")
     if nested is not None:
         out.write(nested.summary() + "\n\n")
     else:
         out.write("The CV score of a searched subset is optimistic for new data: the search "
                   "chose it on these folds (use --nested K for an honest estimate).\n")
-    out.write(f"Results written to {cfg.output} ({files})\n")
+    _write_footer(out, folder, final, written, result.extras.get("engine"))
     return 0
+
+
+def _write_footer(out: TextIO, folder: RunFolder, final: Path, written: list[Path],
+                  engine: dict | None) -> None:
+    """Journal reuse, the files actually written, where the journal and latest.json are."""
+    note = reuse_message(engine)
+    if note:
+        out.write(note + "\n")
+    names = [p.name for p in written]
+    out.write(f"Results written to {final} ({', '.join(names)})\n")
+    extra = []
+    if folder.journal_path is not None:
+        extra.append(f"evaluation journal {folder.journal_path}")
+    extra.append(f"latest run named in {folder.root / LATEST_NAME}")
+    out.write("  " + "; ".join(extra) + "\n")
 
 
 def _budget_list(text: str) -> list[float | None]:
@@ -190,10 +178,12 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
                   f"{res.cost:g}, {score_label('in-search', res.scoring)} "
                   f"{res.score_mean:.4f}\n")
 
-    with _clean_on_error(cfg.output):
-        frontier = sweep_from_config(cfg, args.budgets, write=True, callback=show,
+    with open_run_folder(cfg, "sweep") as folder:
+        frontier = sweep_from_config(cfg, args.budgets, callback=show,
                                      nested_folds=args.nested,
                                      nested_repeats=args.nested_repeats)
+        written = write_sweep_files(folder, cfg, frontier)
+        final = folder.commit()
     frame = frontier.to_frame()
     table = frame[["budget", "n_selected", "cost", "score_mean", "score_sem", "efficient"]]
     table = table.assign(pick=["headline" if h else ("best (any budget)" if b else "")
@@ -214,8 +204,10 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
     out.write(f"\n{frontier.n_fits} model fits for the sweep "
               f"({frontier.n_fits_without_cache} without sharing evaluations between "
               "budgets).\n")
-    out.write(f"Results written to {cfg.output} (frontier.csv, frontier_choices.csv, "
-              "frontier.json, frontier.png, report.md)\n")
+    if not any(p.name == "frontier.png" for p in written):
+        out.write(f"No frontier.png: {PLOTS_HINT}.\n")
+    engine = frontier.results[-1].extras.get("engine") if frontier.results else None
+    _write_footer(out, folder, final, written, engine)
     return 0
 
 
@@ -233,8 +225,9 @@ def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:
         X, problem.y, problem.cost_model, relevance=relevance,
         task="classification" if cfg.classification else "regression",
     )
-    cfg.output.mkdir(parents=True, exist_ok=True)
-    path = write_feature_report(table, cfg.output / "features.csv")
+    with open_run_folder(cfg, "screen") as folder:
+        write_feature_report(table, folder)
+        path = folder.commit() / "features.csv"
     shown = table.drop(columns=["cost_unit"], errors="ignore")
     out.write(f"Cost in {problem.cost_model.unit}.\n")
     out.write(shown.to_string(index=False, float_format=lambda v: f"{v:.4g}") + "\n\n")

@@ -68,6 +68,7 @@ __all__ = [
     "PLOTS_HINT",
     "RunFolder",
     "latest_run",
+    "open_run_folder",
     "plots_available",
     "refuse_symlink",
     "write_files",
@@ -382,6 +383,7 @@ class RunFolder:
         self._lock_fd: int | None = None
         self._stage_fd: int | None = None
         self._stage = ""
+        self._journal_present: set[str] | None = None
 
     # ------------------------------------------------------------- entering
     def _make_root(self) -> None:
@@ -410,11 +412,15 @@ class RunFolder:
             self._lock_fd = _acquire_lock(self._root_fd, self.root)
             if self.journal is not None:
                 _check_name(self.journal)
+                present = set()
                 for suffix in JOURNAL_SUFFIXES:
                     st = _lstat_at(self.journal + suffix, self._root_fd)
                     if st is not None and stat.S_ISLNK(st.st_mode):
                         raise _symlink_error(self.root / (self.journal + suffix))
-                self.journal_existed = _lstat_at(self.journal, self._root_fd) is not None
+                    if st is not None:
+                        present.add(self.journal + suffix)
+                self._journal_present = present
+                self.journal_existed = self.journal in present
             st = _lstat_at(LATEST_NAME, self._root_fd)
             if st is not None and stat.S_ISLNK(st.st_mode):
                 raise _symlink_error(self.root / LATEST_NAME)
@@ -434,7 +440,12 @@ class RunFolder:
         """Write files into the run folder (atomically); returns their paths."""
         if self._stage_fd is None or self.committed:
             raise RuntimeError("RunFolder is not open for writing")
-        paths = _write_at(self._stage_fd, self.folder, files)
+        try:
+            paths = _write_at(self._stage_fd, self.folder, files)
+        except OSError as exc:  # disk full, permissions...: bad output place, exit 2
+            raise InputError(
+                f"cannot write the results to {self.root}: {exc.strerror or exc}"
+            ) from None
         self.written.extend(p for p in paths if p not in self.written)
         return paths
 
@@ -478,14 +489,18 @@ class RunFolder:
         try:
             if root_fd is not None and not self.committed and self._stage:
                 self._remove_stage(root_fd)
+            # A journal this run created goes too (only after it was checked for links
+            # under the lock: _journal_present is None before that).
             if (failed and not interrupted and root_fd is not None
                     and self.journal is not None and not self.journal_existed
-                    and self._lock_fd is not None):
+                    and self._journal_present is not None):
                 for suffix in JOURNAL_SUFFIXES:
-                    try:
-                        os.unlink(self.journal + suffix, dir_fd=root_fd)
-                    except FileNotFoundError:
-                        pass
+                    name = self.journal + suffix
+                    st = _lstat_at(name, root_fd)
+                    if name in self._journal_present or st is None or stat.S_ISLNK(
+                            st.st_mode):
+                        continue
+                    os.unlink(name, dir_fd=root_fd)
         finally:
             if self._lock_fd is not None and root_fd is not None:
                 _release_lock(self._lock_fd, root_fd)
@@ -552,3 +567,24 @@ def latest_run(root: str | os.PathLike, command: str | None = None) -> Path:
         raise InputError(f"no finished {command or 'run'} in {root}")
     return root / name
 
+
+
+def open_run_folder(cfg: Any, command: str) -> RunFolder:
+    """The :class:`RunFolder` of a run configuration (its output folder and journal).
+
+    ``cfg`` is a :class:`featuresift.config.RunConfig`; use the result as a context
+    manager.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from featuresift.config import load_config
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     folder = open_run_folder(load_config(write_demo(d, n_lots=60)[1]), "run")
+    >>> folder.command, folder.journal, folder.root.name
+    ('run', 'journal.sqlite', 'grain_lab')
+    """
+    engine = cfg.extra.get("engine") or {}
+    journal = engine.get("journal") if command != "screen" else None
+    return RunFolder(cfg.output, command, journal=journal)

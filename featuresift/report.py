@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from featuresift.engine.journal import reuse_message
-from featuresift.outputs import PLOTS_HINT, RunFolder, write_files
+from featuresift.outputs import RunFolder, write_files
 from featuresift.result import SearchResult
 
 __all__ = ["CAUTION", "render_report", "write_report"]
@@ -113,7 +113,9 @@ def render_report(
         "",
         f"{result.n_evaluations} subsets evaluated with {result.n_fits} model fits in "
         f"{result.wall_time:.1f} s. Stopped: {result.stop_reason}.",
-        *(["", reused] if (reused := reuse_message(result.extras.get("engine"))) else []),
+        # A sweep's journal note covers the whole sweep: it goes with the sweep's table.
+        *(["", reused] if frontier is None
+          and (reused := reuse_message(result.extras.get("engine"))) else []),
         "",
         "## Search path",
         "",

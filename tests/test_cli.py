@@ -19,6 +19,7 @@ import yaml
 import featuresift.config
 from featuresift.cli import build_parser, main
 from featuresift.costs import CostModel
+from featuresift.outputs import latest_run
 
 # The bad-input table and case writers live in test_config.py (loaded by path, so this
 # works whatever the import mode of the test run).
@@ -98,11 +99,14 @@ def test_run_end_to_end_writes_three_consistent_files(tmp_path, capsys):
     path = cases.write_case(tmp_path / "lab")
     assert main(["run", str(path)]) == 0
     out = capsys.readouterr().out
-    folder = tmp_path / "lab" / "results" / "case"
-    # journal.sqlite: the evaluation journal kept by default so that a run can resume.
-    assert sorted(p.name for p in folder.iterdir()) == ["journal.sqlite", "path.csv",
-                                                        "report.md", "result.json",
-                                                        "selected.csv"]
+    root = tmp_path / "lab" / "results" / "case"
+    # journal.sqlite: the evaluation journal kept by default so that a run can resume; the
+    # files of the run in their own run folder, named by latest.json.
+    assert sorted(p.name for p in root.iterdir()) == ["001-run", "journal.sqlite",
+                                                      "latest.json"]
+    folder = latest_run(root)
+    assert sorted(p.name for p in folder.iterdir()) == ["path.csv", "report.md",
+                                                        "result.json", "selected.csv"]
     result = json.loads((folder / "result.json").read_text())
     costs = yaml.safe_load(cases.BASE_YAML)["costs"]
     # Recompute the cost from the YAML price list with an independent CostModel.
@@ -144,20 +148,21 @@ def test_quiet_verbose_and_output_override(tmp_path, capsys):
     assert main(["run", str(path), "-q", "--output", str(elsewhere), "--n-jobs", "1"]) == 0
     captured = capsys.readouterr()
     assert captured.out == "" and captured.err == ""
-    assert (elsewhere / "result.json").is_file()
+    assert (latest_run(elsewhere) / "result.json").is_file()
     assert not (tmp_path / "lab" / "results").exists()
     assert main(["run", str(path), "--verbose", "--output", str(elsewhere)]) == 0
     captured = capsys.readouterr()
     assert captured.out.startswith("Config: ")  # the plan first
     assert "step 0: add " in captured.err  # then each step as it happens
-    result = json.loads((elsewhere / "result.json").read_text())
+    result = json.loads((latest_run(elsewhere) / "result.json").read_text())
     assert result["extras"]["overrides"] == {"output": str(elsewhere)}
 
 
 def test_budget_and_seed_overrides_reach_the_result(tmp_path, capsys):
     path = cases.write_case(tmp_path / "lab")
     assert main(["run", str(path), "-q", "--budget", "2.5", "--seed", "3"]) == 0
-    result = json.loads((tmp_path / "lab" / "results" / "case" / "result.json").read_text())
+    result = json.loads((latest_run(tmp_path / "lab" / "results" / "case") / "result.json")
+                        .read_text())
     assert result["budget"] == 2.5 and result["cost"] <= 2.5
     assert result["extras"]["overrides"] == {"budget": 2.5, "seed": 3}
 

@@ -10,6 +10,7 @@ import yaml
 
 from featuresift.cli import main
 from featuresift.demo import GRAIN_CONFIG, GRAIN_TARGET, make_grain_lots
+from featuresift.outputs import latest_run
 
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
 
@@ -38,10 +39,10 @@ def test_second_run_resumes_from_the_journal_without_fitting(tmp_path):
     assert main(["run", str(path), "-q"]) == 0
     out = tmp_path / "out"
     assert (out / "journal.sqlite").is_file()
-    first = json.loads((out / "result.json").read_text())
+    first = json.loads((latest_run(out) / "result.json").read_text())
     assert first["n_fits"] > 0
     assert main(["run", str(path), "-q"]) == 0
-    second = json.loads((out / "result.json").read_text())
+    second = json.loads((latest_run(out) / "result.json").read_text())
     assert second["n_fits"] == 0  # every evaluation came from the journal
     assert second["selected"] == first["selected"]
     assert second["score"] == first["score"]
@@ -56,14 +57,14 @@ def test_no_journal_flag_and_changed_config_refit(tmp_path):
     # A different seed of the CV folds changes the fingerprint: nothing stale is reused.
     path = _write(tmp_path, cv={"folds": 3, "seed": 1})
     assert main(["run", str(path), "-q"]) == 0
-    res = json.loads((tmp_path / "out" / "result.json").read_text())
+    res = json.loads((latest_run(tmp_path / "out") / "result.json").read_text())
     assert res["n_fits"] == res["n_evaluations"] * 3
 
 
 def test_racing_flag_records_the_rule(tmp_path):
     path = _write(tmp_path)
     assert main(["run", str(path), "-q", "--racing", "f-race", "--no-journal"]) == 0
-    res = json.loads((tmp_path / "out" / "result.json").read_text())
+    res = json.loads((latest_run(tmp_path / "out") / "result.json").read_text())
     assert res["extras"]["engine"]["racing"]["name"] == "f-race"
     assert res["n_fits"] <= res["n_evaluations"] * 3
 
@@ -91,11 +92,11 @@ def test_shared_preprocessing_is_on_by_default_and_changes_no_choice(tmp_path):
     # The demo pipeline starts with median imputation and scaling: both are column-wise.
     path = _write(tmp_path, engine={"journal": False})
     assert main(["run", str(path), "-q"]) == 0
-    shared = json.loads((tmp_path / "out" / "result.json").read_text())
+    shared = json.loads((latest_run(tmp_path / "out") / "result.json").read_text())
     assert shared["extras"]["engine"]["shared_preprocessing_steps"] == 2
     path = _write(tmp_path, engine={"journal": False, "share_preprocessing": False})
     assert main(["run", str(path), "-q"]) == 0
-    plain = json.loads((tmp_path / "out" / "result.json").read_text())
+    plain = json.loads((latest_run(tmp_path / "out") / "result.json").read_text())
     assert plain["extras"]["engine"]["shared_preprocessing_steps"] == 0
     assert plain["selected"] == shared["selected"]
     assert plain["score"]["folds"] == pytest.approx(shared["score"]["folds"], abs=1e-12)

@@ -14,6 +14,7 @@ from scipy import stats
 from featuresift.cli import main
 from featuresift.costs import CostModel
 from featuresift.demo import GRAIN_CONFIG, GRAIN_TARGET, make_grain_lots
+from featuresift.outputs import latest_run
 
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
 
@@ -50,7 +51,7 @@ def _cost_model(cfg):
 def test_sweep_writes_frontier_within_each_budget(small_config, capsys):
     path, cfg = small_config
     assert main(["sweep", str(path), "--budgets", "0.5,10,none"]) == 0
-    out_dir = path.parent / "out"
+    out_dir = latest_run(path.parent / "out", "sweep")
     frame = pd.read_csv(out_dir / "frontier.csv")
     assert len(frame) == 3
     cm = _cost_model(cfg)
@@ -89,7 +90,7 @@ def test_sweep_section_typo_is_named(small_config, capsys):
 def test_screen_table_matches_scipy_anova(small_config):
     path, _ = small_config
     assert main(["screen", str(path), "-q"]) == 0
-    table = pd.read_csv(path.parent / "out" / "features.csv").set_index("feature")
+    table = pd.read_csv(latest_run(path.parent / "out") / "features.csv").set_index("feature")
     frame = pd.read_csv(path.parent / "lots.csv")
     # Reference: scipy.stats.f_oneway on the complete cases of one column.
     col = frame[["protein_nir_pct", GRAIN_TARGET]].dropna()
@@ -109,7 +110,7 @@ def test_run_nested_writes_honest_estimate(small_config, capsys):
     cfg["nested"] = {"folds": 3, "repeats": 2}  # the command line overrides the folds
     path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
     assert main(["run", str(path), "--nested", "2"]) == 0
-    out_dir = path.parent / "out"
+    out_dir = latest_run(path.parent / "out")
     nested = json.loads((out_dir / "nested.json").read_text())
     assert len(nested["outer_scores"]) == 4 and nested["repeats"] == [0, 0, 1, 1]
     assert all(len(s) == 3 for s in nested["selected"])

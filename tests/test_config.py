@@ -29,6 +29,7 @@ from featuresift.config import (
 from featuresift.costs import CostModel
 from featuresift.demo import GRAIN_CONFIG, make_grain_lots
 from featuresift.errors import InputError
+from featuresift.outputs import latest_run
 
 # Many tiny model fits: one BLAS thread is several times faster on a busy 2-core box.
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
@@ -470,10 +471,14 @@ def test_run_matches_plain_sklearn_cross_validation(tmp_path):
     """The chosen subset's fold scores equal cross_val_score with the same pipeline."""
     path = write_case(tmp_path)
     result = run_from_config(path, write=True)
-    out = tmp_path / "results" / "case"
-    # journal.sqlite: the evaluation journal, kept by default so that a run can resume.
-    assert sorted(p.name for p in out.iterdir()) == ["journal.sqlite", "path.csv",
-                                                     "result.json", "selected.csv"]
+    root = tmp_path / "results" / "case"
+    # journal.sqlite: the evaluation journal, kept by default so that a run can resume; the
+    # run's own files in a new run folder.
+    assert sorted(p.name for p in root.iterdir()) == ["001-run", "journal.sqlite",
+                                                      "latest.json"]
+    out = latest_run(root)
+    assert sorted(p.name for p in out.iterdir()) == ["path.csv", "report.md", "result.json",
+                                                     "selected.csv"]
     assert 0 < result.cost <= 10.0 and len(result.selected) <= 3
     frame = small_frame()
     model = Pipeline([("i", SimpleImputer(strategy="median")), ("s", StandardScaler()),

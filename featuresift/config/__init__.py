@@ -108,9 +108,9 @@ from featuresift.config.schema import (
 )
 from featuresift.config.sections import SECTIONS, Section, register_section
 from featuresift.config.load import load_config
-from featuresift.config.run import build_run, run_from_config
+from featuresift.config.run import build_run, run_from_config, write_run_files
 from featuresift.config.plan import describe_plan
-from featuresift.config.sweep import sweep_from_config
+from featuresift.config.sweep import sweep_from_config, write_sweep_files
 from featuresift.config.nested import nested_from_config
 from featuresift.config import engine as _engine  # noqa: F401
 # isort: on
@@ -133,4 +133,6 @@ __all__ = [
     "describe_plan",
     "sweep_from_config",
     "nested_from_config",
+    "write_run_files",
+    "write_sweep_files",
 ]

@@ -85,10 +85,17 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
         raw["strategy"] = dict(old) if same else {"name": given["strategy"]}
     parsed = {name: sec.parse(raw.get(name), ctx) for name, sec in SECTIONS.items()}
     output = parsed.pop("output")
+    # Made absolute without resolving links: a link in place of the output folder is
+    # refused when writing (featuresift.outputs), never silently followed.
     if "output" in given:
-        output = Path(os.path.expanduser(str(given["output"]))).absolute().resolve()
+        output = Path(os.path.abspath(os.path.expanduser(str(given["output"]))))
     elif output is None:
-        output = (path.parent / "results" / path.stem).resolve()
+        output = Path(os.path.abspath(path.parent.resolve() / "results" / path.stem))
+        if output.resolve() != output:
+            raise ctx.error(f"the default output folder {output} goes through a symbolic "
+                            f"link (it leads to {output.resolve()}); featuresift never writes "
+                            "through links: set output.folder or pass --output DIR",
+                            "output.folder")
     if output.exists() and not output.is_dir():
         if "output" in given:
             raise InputError(f"--output {output}: exists and is not a folder")

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 from collections.abc import Callable
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -16,11 +17,12 @@ from featuresift.config.schema import RunConfig
 from featuresift.config.sections import SECTIONS
 from featuresift.config.yamlfile import _plain
 from featuresift.errors import InputError
+from featuresift.outputs import RunFolder, open_run_folder
 from featuresift.problem import SelectionProblem, make_splitter
 from featuresift.result import SearchResult
 from featuresift.search import run_search
 
-__all__ = ["build_run", "run_from_config"]
+__all__ = ["build_run", "run_from_config", "write_run_files"]
 
 
 def _splitter(cfg: RunConfig) -> Any:
@@ -113,6 +115,25 @@ def _provenance(cfg: RunConfig, problem: SelectionProblem) -> dict:
 
 
 
+def write_run_files(out: RunFolder, cfg: RunConfig, result: SearchResult,
+                    nested: Any = None) -> list[Path]:
+    """Write the files of one ``run`` into an open :class:`~featuresift.outputs.RunFolder`.
+
+    ``result.json``, ``selected.csv``, ``path.csv``, ``report.md`` and, with a nested
+    estimate, ``nested.json``. Returns the paths written (the caller commits ``out``).
+    """
+    import json
+
+    from featuresift.report import write_report
+
+    written = result.write(out)
+    written.append(write_report(out, result, nested=nested, source=str(cfg.path)))
+    if nested is not None:
+        written += out.write_files(
+            {"nested.json": json.dumps(nested.to_dict(), indent=2) + "\n"})
+    return written
+
+
 def run_from_config(
     config: str | os.PathLike | RunConfig,
     *,
@@ -127,7 +148,9 @@ def run_from_config(
     config : path-like or RunConfig
         A YAML file, or a configuration from :func:`load_config`.
     write : bool, default=False
-        Write ``result.json``, ``selected.csv`` and ``path.csv`` into the output folder.
+        Write ``result.json``, ``selected.csv``, ``path.csv`` and ``report.md`` into a
+        new run folder (``NNN-run``) of the output folder, which is locked for the
+        whole run (see :mod:`featuresift.outputs`).
     callback : callable, optional
         Passed to :func:`run_search` (called after each search step).
     **overrides
@@ -153,15 +176,17 @@ def run_from_config(
         cfg = config
     else:
         cfg = load_config(config, **overrides)
+    if not write:
+        return _run(cfg, callback)
+    with open_run_folder(cfg, "run") as out:
+        result = _run(cfg, callback)
+        write_run_files(out, cfg, result)
+        out.commit()
+    return result
+
+
+def _run(cfg: RunConfig, callback: Callable | None) -> SearchResult:
     problem, kwargs = build_run(cfg)
     result = run_search(problem, callback=callback, **kwargs)
     result.extras.update(_provenance(cfg, problem))
-    if write:
-        try:
-            result.write(cfg.output)
-        except OSError as exc:
-            raise InputError(
-                f"cannot write the results to {cfg.output}: {exc.strerror or exc}",
-                key="output.folder", line=cfg.lines.get("output.folder"),
-            ) from None
     return result

@@ -263,6 +263,13 @@ def _parse_output(value: Any, ctx: _Context) -> Path | None:
             "use a folder below it, or pass --output DIR on the command line",
             "output.folder",
         )
+    lexical = Path(os.path.normpath(base / os.path.expanduser(folder)))
+    if lexical != target:  # a symbolic link on the way below the config's folder
+        raise ctx.error(
+            f"'{folder}' goes through a symbolic link ({lexical} leads to {target}); "
+            "featuresift never writes through links: use a real folder",
+            "output.folder",
+        )
     return target
 
 

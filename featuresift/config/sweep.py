@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
+from pathlib import Path
 from typing import Any
 
 from featuresift.config.context import _Context, _show
@@ -10,8 +11,9 @@ from featuresift.config.run import build_run
 from featuresift.config.schema import RunConfig
 from featuresift.config.sections import Section, register_section
 from featuresift.errors import InputError
+from featuresift.outputs import RunFolder, open_run_folder
 
-__all__ = ["sweep_from_config"]
+__all__ = ["sweep_from_config", "write_sweep_files"]
 
 
 def _parse_sweep(value: Any, ctx: _Context) -> dict:
@@ -72,7 +74,9 @@ def sweep_from_config(
         budgets (:func:`~featuresift.frontier.default_budgets`) plus the run's budget.
     write : bool, default=False
         Write ``frontier.csv``, ``frontier_choices.csv``, ``frontier.json``,
-        ``frontier.png`` and ``report.md`` into the output folder.
+        ``frontier.png`` (with matplotlib) and ``report.md`` into a new run folder
+        (``NNN-sweep``) of the output folder, locked for the whole sweep (see
+        :mod:`featuresift.outputs`).
     callback : callable, optional
         Called with each finished :class:`~featuresift.result.SearchResult`.
     nested_folds, nested_repeats : int, optional
@@ -99,7 +103,6 @@ def sweep_from_config(
     """
     from featuresift.config.nested import nested_from_config, nested_spec
     from featuresift.frontier import budget_sweep, default_budgets
-    from featuresift.report import write_report
 
     problem, kwargs = build_run(cfg)
     spec = cfg.extra.get("sweep") or {"budgets": None, "n_budgets": 8}
@@ -119,28 +122,48 @@ def sweep_from_config(
                 f"({cheapest:g} {cfg.cost_model.unit})",
                 key="sweep.budgets", line=cfg.lines.get("sweep.budgets"),
             )
-    frontier = budget_sweep(problem, list(budgets), budget=cfg.budget,
-                            **_search_options(kwargs))
-    if callback is not None:
-        for r in frontier.results:
-            callback(r)
-    head = frontier.headline
-    if nested is not None and head is not None:
-        frontier.nested = nested_from_config(cfg, nested["folds"], nested["repeats"],
-                                             budget=head.budget)
-    if write:
-        shown = head if head is not None else frontier.results[frontier.best_index or 0]
-        budget = "unlimited" if shown.budget is None else f"{shown.budget:g}"
-        heading = (f"Headline pick (rule {frontier.pick}, budget {budget})" if head is not None
-                   else f"No point fits the run's budget; highest-scoring (budget {budget})")
-        try:
-            frontier.write(cfg.output)
-            write_report(cfg.output, shown, frontier=frontier, nested=frontier.nested,
-                         source=str(cfg.path), title="featuresift budget sweep",
-                         chosen_heading=heading)
-        except OSError as exc:
-            raise InputError(
-                f"cannot write the results to {cfg.output}: {exc.strerror or exc}",
-                key="output.folder", line=cfg.lines.get("output.folder"),
-            ) from None
+
+    def sweep() -> Any:
+        frontier = budget_sweep(problem, list(budgets), budget=cfg.budget,
+                                **_search_options(kwargs))
+        if callback is not None:
+            for r in frontier.results:
+                callback(r)
+        head = frontier.headline
+        if nested is not None and head is not None:
+            frontier.nested = nested_from_config(cfg, nested["folds"], nested["repeats"],
+                                                 budget=head.budget)
+        return frontier
+
+    if not write:
+        return sweep()
+    with open_run_folder(cfg, "sweep") as out:
+        frontier = sweep()
+        write_sweep_files(out, cfg, frontier)
+        out.commit()
     return frontier
+
+
+def write_sweep_files(out: RunFolder, cfg: RunConfig, frontier: Any) -> list[Path]:
+    """Write the files of one ``sweep`` into an open :class:`~featuresift.outputs.RunFolder`.
+
+    ``frontier.csv``, ``frontier_choices.csv``, ``frontier.json``, ``frontier.png``
+    (only when matplotlib is installed; the report then says how to get it instead of
+    linking a missing image) and ``report.md``. Returns the paths written (the caller
+    commits ``out``).
+    """
+    from featuresift.report import write_report
+
+    head = frontier.headline
+    shown = head if head is not None else frontier.results[frontier.best_index or 0]
+    budget = "unlimited" if shown.budget is None else f"{shown.budget:g}"
+    heading = (f"Headline pick (rule {frontier.pick}, budget {budget})" if head is not None
+               else f"No point fits the run's budget; highest-scoring (budget {budget})")
+    written = frontier.write(out)
+    plotted = any(p.name == "frontier.png" for p in written)
+    written.append(write_report(
+        out, shown, frontier=frontier, nested=frontier.nested, source=str(cfg.path),
+        title="featuresift budget sweep", chosen_heading=heading,
+        frontier_plot="frontier.png" if plotted else None,
+    ))
+    return written
