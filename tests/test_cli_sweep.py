@@ -139,7 +139,7 @@ def test_sweep_headline_within_config_budget_and_nested_at_pick(small_config, ca
     cfg["pick"] = "best"
     path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
     assert main(["sweep", str(path), "--budgets", "6,10,none", "--nested", "2"]) == 0
-    out_dir = path.parent / "out"
+    out_dir = latest_run(path.parent / "out", "sweep")
     data = json.loads((out_dir / "frontier.json").read_text())
     head, best = data["points"][data["headline"]], data["points"][data["best"]]
     assert data["budget"] == 10.0 and head["cost"] <= 10.0

@@ -210,7 +210,8 @@ def test_run_sweep_run_with_budget_each_write_a_complete_consistent_set(tmp_path
     assert sorted(p.name for p in (root / "001-run").iterdir()) == run_files
     assert sorted(p.name for p in (root / "003-run").iterdir()) == run_files
     sweep_files = sorted(p.name for p in (root / "002-sweep").iterdir())
-    assert sweep_files == ["frontier.csv", "frontier.json", "frontier.png", "report.md"]
+    assert sweep_files == ["frontier.csv", "frontier.json", "frontier.png",
+                           "frontier_choices.csv", "report.md"]
     # Each set agrees with itself: report and result of 003 are both the budget-3 run.
     third = json.loads((root / "003-run" / "result.json").read_text())
     report = (root / "003-run" / "report.md").read_text()
@@ -239,7 +240,7 @@ def test_sweep_without_matplotlib_lists_no_plot_and_links_none(tmp_path, capsys,
     out = capsys.readouterr().out
     folder = latest_run(tmp_path / "out", "sweep")
     assert sorted(p.name for p in folder.iterdir()) == ["frontier.csv", "frontier.json",
-                                                        "report.md"]
+                                                        "frontier_choices.csv", "report.md"]
     assert 'pip install "featuresift[plots]"' in out
     written = out.split("Results written to ")[1].splitlines()[0]
     assert "frontier.png" not in written
