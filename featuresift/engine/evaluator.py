@@ -48,6 +48,7 @@ from sklearn.utils.parallel import Parallel, delayed
 from featuresift.engine.fitplan import make_fit_plan
 from featuresift.engine.journal import Journal, open_journal
 from featuresift.engine.linear import make_linear_path
+from featuresift.engine.pool import POOL_MODES, PoolPolicy
 from featuresift.engine.progress import make_progress
 from featuresift.engine.racing import BaseRace, make_race
 from featuresift.engine.records import DROPPED, Evaluation, FoldTable
@@ -340,6 +341,12 @@ class CrossValidationEvaluator(BaseEvaluator):
         Score OLS, ridge and LDA models (optionally behind column-wise scalers) from
         per-fold sufficient statistics instead of refitting, where that is exact
         (:mod:`featuresift.engine.linear`); other models are unaffected.
+    pool : {"auto", "always", "never"}, default="auto"
+        Where fits run when ``n_jobs`` allows several workers: ``"auto"`` fits small
+        work in this process and starts the worker pool (in the background) only
+        when a batch is worth it (:mod:`featuresift.engine.pool`); ``"always"`` sends
+        every batch to joblib; ``"never"`` fits everything here. Results do not
+        depend on it.
     share_preprocessing : bool, default=True
         Fit the leading column-wise steps of a pipeline (scalers, per-column
         imputation) once per fold for a whole group of fits instead of once per
@@ -388,6 +395,7 @@ class CrossValidationEvaluator(BaseEvaluator):
         inner_threads: int | None = 1,
         share_preprocessing: bool = True,
         fast_path: bool = True,
+        pool: str = "auto",
         verbose: int = 0,
     ) -> None:
         super().__init__(problem.n_features, problem.feature_names)
@@ -417,6 +425,10 @@ class CrossValidationEvaluator(BaseEvaluator):
         self.inner_threads = inner_threads
         self.plan = make_fit_plan(problem, share_preprocessing=bool(share_preprocessing))
         self.fast_path = make_linear_path(problem) if fast_path else None
+        if pool not in POOL_MODES:
+            raise InputError(f"pool must be one of {', '.join(POOL_MODES)}, got {pool!r}",
+                             key="pool")
+        self.pool = PoolPolicy(pool, warm_with=(problem.estimator,))
         self.verbose = int(verbose)
         self.n_failed_fits = 0
         self.n_dropped = 0
@@ -477,6 +489,7 @@ class CrossValidationEvaluator(BaseEvaluator):
             "racing": None if self.race is None else self.race.describe(),
             "shared_preprocessing_steps": self.plan.n_shared_steps,
             "fast_path": None if self.fast_path is None else self.fast_path.describe(),
+            "pool": self.pool.describe(),
             "journal": None if self.journal is None else str(self.journal.path),
         }
 
@@ -591,20 +604,30 @@ class CrossValidationEvaluator(BaseEvaluator):
         return np.ascontiguousarray(X[:, used]), used
 
     def _dispatch(self, work: list[tuple[tuple[int, ...], int]]) -> list[tuple]:
-        """Run the fits of ``work`` in one joblib call; results in ``work`` order."""
+        """Fit ``work`` in-process or in one joblib call (see :mod:`featuresift.engine.pool`);
+        results in ``work`` order."""
         p = self.problem
         chunks = self._chunks(work)
         bar = make_progress(len(work), self.verbose, "featuresift fits")
         results: list[tuple] = []
+
+        def args(chunk):
+            return (self.plan, *self._columns(chunk), p.y, p.splits, chunk,
+                    self.on_fit_error, self.inner_threads, self._checked)
+
         try:
-            tasks = (
-                delayed(_fit_chunk)(
-                    self.plan, *self._columns(chunk), p.y, p.splits, chunk,
-                    self.on_fit_error, self.inner_threads, self._checked,
-                )
-                for chunk in chunks
-            )
-            for part in Parallel(n_jobs=self.n_jobs, return_as="generator")(tasks):
+            for i, chunk in enumerate(chunks):
+                if self.pool.use_pool(len(work) - len(results), self.n_jobs, first=i == 0):
+                    t0, n0 = time.perf_counter(), len(results)
+                    tasks = (delayed(_fit_chunk)(*args(c)) for c in chunks[i:])
+                    for part in Parallel(n_jobs=self.n_jobs, return_as="generator")(tasks):
+                        results.extend(part)
+                        bar.update(len(part))
+                    self.pool.observe_pool(len(results) - n0, time.perf_counter() - t0)
+                    break
+                t0 = time.perf_counter()
+                part = _fit_chunk(*args(chunk))
+                self.pool.observe(len(part), time.perf_counter() - t0)
                 results.extend(part)
                 bar.update(len(part))
         finally:

@@ -94,7 +94,6 @@ from typing import Any
 
 import numpy as np
 from scipy.special import expit
-from scipy.stats import rankdata
 from sklearn.base import BaseEstimator, ClassifierMixin, RegressorMixin
 from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
 from sklearn.linear_model import LinearRegression, Ridge
@@ -491,6 +490,8 @@ def _direct_rows(name: str, y: np.ndarray, pred: np.ndarray) -> np.ndarray:
 def _roc_auc(positive: np.ndarray, score: np.ndarray) -> float:
     """Binary ROC AUC by the rank-sum formula with average ranks for ties (equal to the
     area under the ROC curve with ties as diagonal segments, as scikit-learn computes it)."""
+    from scipy.stats import rankdata
+
     ranks = rankdata(score)
     n1 = int(positive.sum())
     n0 = len(positive) - n1

@@ -1,0 +1,166 @@
+"""When to use worker processes: small work runs in-process, the pool starts when it pays.
+
+Starting joblib's worker processes costs a second or two on a small machine (each
+worker starts Python and imports NumPy, SciPy and scikit-learn), and every parallel
+call costs some milliseconds more. A forward selection on a few hundred samples does
+a few seconds of fitting in all, so paying that start-up can make ``n_jobs=2`` slower
+than ``n_jobs=1``. :class:`PoolPolicy` decides, before each part of a batch, whether to
+fit in this process (one BLAS thread, no joblib call) or in the pool:
+
+* with one effective worker, always in-process;
+* the first part of every batch (one joblib task's worth) runs in-process, which
+  measures the current in-process time per fit;
+* the pool is used for the rest of a batch when that work (fits left x measured fit
+  time) is at least :data:`MIN_POOL_SECONDS`, the pool is running, and the pool's own
+  measured wall time per fit is lower than in-process (on a machine whose cores are
+  busy with other jobs it may not be; the pool is tried again now and then);
+* with joblib's default process backend (loky), a pool that is not running yet is
+  started **in the background** the first time a batch is worth it, while this process
+  goes on fitting: the workers' start-up then overlaps with useful work instead of
+  adding to it, and a batch switches to the pool as soon as it is up. The pool is
+  joblib's reusable executor: it lives on for the next batches, searches and
+  evaluators of the session;
+* with another backend chosen by the user (``joblib.parallel_config``: threads, dask...)
+  work worth :data:`MIN_POOL_SECONDS` goes to that backend, the rest stays in-process.
+
+The decision never changes a result: the same function fits the same (subset, fold)
+items with the same inputs wherever it runs, and results are put back in order.
+``mode="always"`` sends every batch to joblib (the behaviour before this policy);
+``mode="never"`` keeps everything in-process.
+
+Examples
+--------
+>>> policy = PoolPolicy("auto")
+>>> policy.use_pool(n_items=100, n_jobs=1)       # one worker: in-process
+False
+>>> policy.use_pool(n_items=100, n_jobs=2)       # no fit time measured yet: in-process
+False
+>>> PoolPolicy("always").use_pool(n_items=1, n_jobs=2)
+True
+"""
+
+from __future__ import annotations
+
+import threading
+from typing import Any
+
+from joblib import effective_n_jobs
+
+__all__ = ["MIN_POOL_SECONDS", "POOL_MODES", "PoolPolicy"]
+
+POOL_MODES = ("auto", "always", "never")
+
+MIN_POOL_SECONDS = 0.25
+"""Smallest estimated in-process work (seconds) worth a parallel call on a running pool."""
+
+_LOCK = threading.Lock()
+_WARM: dict[int, threading.Event] = {}
+"""Background start-ups of loky pools in this process, by number of workers."""
+
+
+def _touch(*_: Any) -> None:
+    """Task run by each worker at start-up: importing this module's package warms the
+    worker (the arguments' classes are unpickled, which imports their modules)."""
+    import featuresift.engine.evaluator  # noqa: F401
+
+
+def _start_pool(n_workers: int, warm_with: tuple) -> None:
+    from sklearn.utils.parallel import Parallel, delayed
+
+    try:
+        Parallel(n_jobs=n_workers, backend="loky")(
+            delayed(_touch)(*warm_with) for _ in range(2 * n_workers))
+    except Exception:  # noqa: BLE001 - the main thread's own call will report problems
+        pass
+    finally:
+        _WARM[n_workers].set()
+
+
+def _default_backend() -> bool:
+    """Whether joblib would use its default process backend (loky) here."""
+    try:
+        from joblib.parallel import get_active_backend
+
+        backend, _ = get_active_backend()
+    except Exception:  # noqa: BLE001
+        return False
+    return type(backend).__name__ == "LokyBackend"
+
+
+class PoolPolicy:
+    """Per-evaluator decision between in-process fits and the worker pool.
+
+    Parameters
+    ----------
+    mode : {"auto", "always", "never"}, default="auto"
+    warm_with : tuple, optional
+        Objects sent to each worker when a pool is started in the background (their
+        classes' modules are imported there), e.g. the estimator.
+
+    Attributes
+    ----------
+    fit_seconds : float or None
+        Running estimate of the time of one fit in this process.
+    pool_seconds : float or None
+        Running estimate of the pool's wall time per fit.
+    n_in_process, n_in_pool : int
+        Fits run in each place so far.
+    """
+
+    def __init__(self, mode: str = "auto", warm_with: tuple = ()) -> None:
+        if mode not in POOL_MODES:
+            raise ValueError(f"pool must be one of {POOL_MODES}, got {mode!r}")
+        self.mode = mode
+        self.warm_with = warm_with
+        self.fit_seconds: float | None = None
+        self.pool_seconds: float | None = None
+        self._declined = 0
+        self.n_in_process = 0
+        self.n_in_pool = 0
+
+    def observe(self, n_items: int, seconds: float) -> None:
+        """Record ``n_items`` fits that took ``seconds`` in this process."""
+        if n_items <= 0:
+            return
+        per = seconds / n_items
+        self.fit_seconds = per if self.fit_seconds is None else 0.5 * (self.fit_seconds + per)
+        self.n_in_process += n_items
+
+    def observe_pool(self, n_items: int, seconds: float) -> None:
+        """Record ``n_items`` fits that took ``seconds`` of wall time in the pool."""
+        if n_items <= 0:
+            return
+        per = seconds / n_items
+        self.pool_seconds = per if self.pool_seconds is None else 0.5 * (self.pool_seconds + per)
+        self.n_in_pool += n_items
+
+    def use_pool(self, n_items: int, n_jobs: int | None, first: bool = False) -> bool:
+        """Whether the next ``n_items`` fits should go to joblib.
+
+        ``first`` marks the first part of a batch, which runs in-process in "auto" mode.
+        """
+        if self.mode != "auto":
+            return self.mode == "always"
+        workers = effective_n_jobs(n_jobs)
+        if first or workers <= 1 or self.fit_seconds is None:
+            return False
+        if n_items * self.fit_seconds < MIN_POOL_SECONDS:
+            return False
+        if self.pool_seconds is not None and self.pool_seconds >= 0.95 * self.fit_seconds:
+            self._declined += 1
+            if self._declined % 8:
+                return False  # the pool has not been faster; try it again now and then
+        if not _default_backend():
+            return True
+        with _LOCK:
+            event = _WARM.get(workers)
+            if event is None:
+                event = _WARM[workers] = threading.Event()
+                threading.Thread(target=_start_pool, args=(workers, self.warm_with),
+                                 name="featuresift-pool-start", daemon=True).start()
+        return event.is_set()
+
+    def describe(self) -> dict[str, Any]:
+        """Counters for ``stats()``."""
+        return {"mode": self.mode, "fits_in_process": self.n_in_process,
+                "fits_in_pool": self.n_in_pool}

@@ -1,0 +1,76 @@
+"""Where fits run (featuresift/engine/pool.py): in-process or in the worker pool.
+
+The decision must never change a result: fold scores are compared for exact equality
+between all-in-process, all-in-pool and the automatic split (computed expectation: the
+same function fits the same items; nothing else may differ).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from sklearn.datasets import load_breast_cancer
+from sklearn.linear_model import LogisticRegression
+from sklearn.model_selection import StratifiedKFold
+from sklearn.pipeline import make_pipeline
+from sklearn.preprocessing import StandardScaler
+
+from featuresift import CrossValidationEvaluator, SelectionProblem, run_search
+from featuresift.engine import pool as pool_module
+from featuresift.errors import InputError
+
+pytestmark = pytest.mark.usefixtures("single_blas_thread")
+
+
+def _problem():
+    X, y = load_breast_cancer(return_X_y=True)
+    return SelectionProblem(X[:, :8], y, make_pipeline(StandardScaler(), LogisticRegression()),
+                            cv=StratifiedKFold(3))
+
+
+def test_in_process_or_pool_gives_identical_scores(monkeypatch):
+    batch = [(0,), (1, 2), (0, 3, 5), (2, 4, 6, 7), (1, 5), (3,), (0, 1, 2, 3), (6, 7)]
+    scores = {}
+    for mode in ("never", "always", "auto"):
+        if mode == "auto":
+            # Make every part after the first worth a parallel call, on joblib directly.
+            monkeypatch.setattr(pool_module, "MIN_POOL_SECONDS", 0.0)
+            monkeypatch.setattr(pool_module, "_default_backend", lambda: False)
+        ev = CrossValidationEvaluator(_problem(), n_jobs=2, pool=mode)
+        scores[mode] = [e.fold_scores for e in ev.evaluate(batch)]
+        stats = ev.stats()["pool"]
+        if mode == "never":
+            assert stats["fits_in_process"] == 24 and stats["fits_in_pool"] == 0
+        if mode == "always":
+            assert stats["fits_in_pool"] == 24 and stats["fits_in_process"] == 0
+        if mode == "auto":  # the first part in-process, the rest in the pool
+            assert stats["fits_in_process"] > 0 and stats["fits_in_pool"] > 0
+    assert scores["never"] == scores["always"] == scores["auto"]
+
+
+def test_search_with_two_jobs_equals_one_job():
+    problem = _problem()
+    res = run_search(CrossValidationEvaluator(problem, n_jobs=2), "forward", n_features=2,
+                     cost_model=problem.cost_model)
+    ref = run_search(CrossValidationEvaluator(problem, n_jobs=1), "forward", n_features=2,
+                     cost_model=problem.cost_model)
+    assert res.support == ref.support
+    np.testing.assert_array_equal(res.fold_scores, ref.fold_scores)
+
+
+def test_decision_from_measured_fit_times(monkeypatch):
+    monkeypatch.setattr(pool_module, "_default_backend", lambda: False)
+    policy = pool_module.PoolPolicy()
+    policy.observe(10, 0.01)                   # 1 ms per fit in-process
+    assert not policy.use_pool(100, 2)         # 0.1 s of work: not worth a parallel call
+    assert policy.use_pool(1000, 2)            # 1 s of work
+    assert not policy.use_pool(1000, 2, first=True)   # a batch starts in-process
+    assert not policy.use_pool(1000, 1)        # one worker
+    policy.observe_pool(100, 0.2)              # the pool: 2 ms per fit, slower than here
+    tries = [policy.use_pool(1000, 2) for _ in range(16)]
+    assert sum(tries) == 2                     # retried one time in eight
+
+
+def test_unknown_pool_mode_is_refused():
+    with pytest.raises(InputError, match="pool must be one of auto, always, never"):
+        CrossValidationEvaluator(_problem(), pool="sometimes")
