@@ -51,7 +51,8 @@ measurements by cross-validated model score, under a cost budget, with panels
 of tests bought together for one price."""
 
 _RUN_EPILOG = """\
-exit codes: 0 done, 2 bad config or data (nothing written), 1 internal error.
+exit codes: 0 done, 2 bad config or data, output folder in use or a symbolic link in
+the output folder (nothing written), 1 internal error.
 The YAML schema is documented in `python -m pydoc featuresift.config`;
 `featuresift demo` writes a complete example."""
 
@@ -292,7 +293,9 @@ def build_parser() -> argparse.ArgumentParser:
         "run", parents=[common], help="run the search described by a YAML config",
         description="Load the data, search measurement subsets under the budget, print the\n"
         "chosen measurements, their cost and CV score, and write result.json,\n"
-        "selected.csv and path.csv into the output folder.",
+        "selected.csv, path.csv and report.md into a new run folder (NNN-run) of the\n"
+        "output folder; latest.json there names it. The output folder is locked while\n"
+        "the run lasts: a second run into it exits 2 (use --output DIR).",
         epilog=_RUN_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     run.add_argument("config", metavar="CONFIG", help="YAML run configuration")
@@ -337,8 +340,9 @@ def build_parser() -> argparse.ArgumentParser:
     sweep = sub.add_parser(
         "sweep", parents=[common], help="search once per budget: accuracy against cost",
         description="Run the configured search for each budget (sharing every evaluation\n"
-        "between budgets) and write frontier.csv, frontier.json, frontier.png and\n"
-        "report.md into the output folder. Budgets come from --budgets, else the\n"
+        "between budgets) and write frontier.csv, frontier_choices.csv, frontier.json,\n"
+        "frontier.png (with matplotlib) and report.md into a new run folder (NNN-sweep)\n"
+        "of the output folder. Budgets come from --budgets, else the\n"
         "`sweep` section (budgets: [..] or n_budgets: N), else up to 8 round budgets\n"
         "(1-2-5 series) plus the config's budget. Scores are in-search estimates; the\n"
         "headline applies the pick rule within the config's budget.",
@@ -374,7 +378,8 @@ def build_parser() -> argparse.ArgumentParser:
         description="Score every candidate on its own (no model fits): relevance to the\n"
         "target, its p-value and Benjamini-Hochberg q-value, cost, relevance per cost,\n"
         "and the other candidate it "
-        "correlates with most. Writes features.csv into the output folder.",
+        "correlates with most. Writes features.csv into a new run folder (NNN-screen)\n"
+        "of the output folder.",
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     screen.add_argument("config", metavar="CONFIG", help="YAML run configuration")

@@ -306,13 +306,17 @@ def write_demo(folder: str | os.PathLike, n_lots: int = 1500, seed: int = 0) -> 
     ...     [p.name for p in write_demo(d, n_lots=50)]
     ['grain_lots.csv', 'grain_lab.yaml']
     """
+    from featuresift.outputs import refuse_symlink, write_files
+
     out = Path(folder)
-    out.mkdir(parents=True, exist_ok=True)
     data_path = out / "grain_lots.csv"
-    make_grain_lots(n_lots=n_lots, seed=seed).to_csv(data_path, index=False, lineterminator="\n")
     config_path = out / "grain_lab.yaml"
+    refuse_symlink(config_path)  # before reading it: a link is never followed
+    files = {"grain_lots.csv": make_grain_lots(n_lots=n_lots, seed=seed).to_csv(
+        index=False, lineterminator="\n")}
     if not _holds_config(config_path, GRAIN_CONFIG):
-        config_path.write_text(_dump_yaml(copy.deepcopy(GRAIN_CONFIG)), encoding="utf-8")
+        files["grain_lab.yaml"] = _dump_yaml(copy.deepcopy(GRAIN_CONFIG))
+    write_files(out, files)  # atomic, never through a symbolic link
     return [data_path, config_path]
 
 
