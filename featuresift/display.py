@@ -342,6 +342,8 @@ def nested_html(ne: Any) -> str:
 
 # ------------------------------------------------------------ SelectionProblem
 def _estimator_name(est: Any) -> str:
+    if getattr(est, "takes_columns", False):  # the user's model behind typed columns
+        est = est.estimator
     steps = getattr(est, "steps", None)
     if steps:
         return "Pipeline(" + " > ".join(type(s).__name__ for _, s in steps) + ")"

@@ -154,7 +154,10 @@ def _fit_score(estimator, scorer, X_train, y_train, X_test, y_test, support, cla
                  else DummyRegressor(strategy="mean"))
         fitted = model.fit(np.zeros((len(y_train), 1)), y_train)
         return float(scorer(fitted, np.zeros((len(y_test), 1)), y_test))
-    model = clone(estimator).fit(X_train[:, support], y_train)
+    model = clone(estimator)
+    if getattr(model, "takes_columns", False):  # typed columns (featuresift.columns)
+        model.set_params(columns=tuple(support))
+    model.fit(X_train[:, support], y_train)
     return float(scorer(model, X_test[:, support], y_test))
 
 
@@ -474,6 +477,7 @@ def nested_evaluation(
         # A repeated splitter given as outer_cv: repeats come one after another.
         n_splits = len(splits) // inner_repeats
         splits = [(tr, te, i // n_splits) for i, (tr, te, _) in enumerate(splits)]
+    estimator = full.estimator  # the user's columns rebuilt, for typed DataFrame columns
     scorer = check_scoring(estimator, scoring=scoring)
     outer_scores, inner_scores, selected, costs, results = [], [], [], [], []
     for train, test, _ in splits:

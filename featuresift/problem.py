@@ -29,16 +29,33 @@ from sklearn.model_selection import (
 )
 
 from featuresift._compat import renamed_keywords
+from featuresift.columns import ColumnSpec, TypedColumns, encode_frame, needs_frame
 from featuresift.costs import CostModel, make_cost_model
 from featuresift.errors import InputError
 
 __all__ = ["SelectionProblem", "make_splitter"]
 
 
+def _as_2d(X: Any) -> tuple[np.ndarray, list[str] | None, list[ColumnSpec] | None]:
+    """Numeric array, column names and column specs (None for a plain array).
+
+    A DataFrame's categorical and text columns become codes (see
+    :func:`featuresift.columns.encode_frame`); nullable dtypes with ``pd.NA`` become NaN.
+    """
+    if hasattr(X, "columns") and hasattr(X, "dtypes"):
+        names = [str(c) for c in X.columns]
+        arr, specs = encode_frame(X)
+        return np.ascontiguousarray(arr), names, specs
+    arr, names = _as_2d_float(X)
+    return arr, names, None
+
+
 def _as_2d_float(X: Any) -> tuple[np.ndarray, list[str] | None]:
     names = None
     if hasattr(X, "columns"):
         names = [str(c) for c in X.columns]
+        if hasattr(X, "dtypes"):
+            return np.ascontiguousarray(encode_frame(X)[0]), names
         X = X.to_numpy()
     try:
         arr = np.asarray(X, dtype=float)
@@ -151,8 +168,11 @@ class SelectionProblem:
     Parameters
     ----------
     X : array-like or DataFrame of shape (n_samples, n_features)
-        Candidate measurements. Missing values (NaN) are allowed if the estimator
-        (or its preprocessing) handles them.
+        Candidate measurements. Missing values (NaN, ``pd.NA``) are allowed if the
+        estimator (or its preprocessing) handles them. A DataFrame keeps its column
+        types: categorical and text columns reach the model as such (for a pipeline that
+        one-hot encodes them, or a model with native categories), see
+        :mod:`featuresift.columns`.
     y : array-like of shape (n_samples,)
         Target.
     estimator : scikit-learn estimator
@@ -201,7 +221,7 @@ class SelectionProblem:
         groups: Any = None,
         feature_names: Sequence[str] | None = None,
     ) -> None:
-        X_arr, df_names = _as_2d_float(X)
+        X_arr, df_names, specs = _as_2d(X)
         names = list(feature_names) if feature_names is not None else df_names
         if names is None and isinstance(costs, CostModel):
             # A plain array with a cost model: its columns are the cost model's features.
@@ -229,6 +249,11 @@ class SelectionProblem:
         self.y = y_arr
         self.groups = None if groups is None else np.asarray(groups)
         self.feature_names = [str(n) for n in names]
+        self.user_estimator = estimator
+        self.column_specs = specs
+        if specs is not None and needs_frame(estimator, specs):
+            # The model sees the user's columns (names, dtypes) rebuilt for each subset.
+            estimator = TypedColumns(estimator, tuple(self.feature_names), tuple(specs))
         self.estimator = estimator
         self.cost_model = make_cost_model(self.feature_names, costs)
         if isinstance(scoring, str) and scoring not in get_scorer_names():

@@ -21,12 +21,21 @@ from sklearn.utils import get_tags
 from sklearn.utils.validation import check_is_fitted, validate_data
 
 from featuresift._compat import warn_renamed
+from featuresift.columns import needs_frame
 from featuresift.costs import CostModel, make_cost_model
 from featuresift.errors import InputError
 from featuresift.problem import SelectionProblem
 from featuresift.search import run_search
 
 __all__ = ["MeasurementSelector", "build_cost_model"]
+
+
+def _typed_frame(X: Any) -> bool:
+    """A DataFrame with a column that is not plain numpy-numeric (category, text, Int64...)."""
+    dtypes = getattr(X, "dtypes", None)
+    if dtypes is None or not hasattr(X, "columns"):
+        return False
+    return any(not isinstance(d, np.dtype) or d.kind not in "biuf" for d in dtypes)
 
 
 def _accepts_nan(estimator: Any) -> bool:
@@ -209,7 +218,15 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         self : MeasurementSelector
         """
         allow_nan = self.__sklearn_tags__().input_tags.allow_nan
-        X, y = validate_data(self, X, y, ensure_all_finite=not allow_nan, dtype="numeric")
+        frame = X if _typed_frame(X) or (
+            hasattr(X, "columns") and needs_frame(self.estimator, None)) else None
+        if frame is not None:
+            # Categorical, text or nullable columns: the DataFrame goes to the problem as
+            # it is (its types reach the model); only names and shape are recorded here.
+            validate_data(self, X, skip_check_array=True)
+            y = np.asarray(y)
+        else:
+            X, y = validate_data(self, X, y, ensure_all_finite=not allow_nan, dtype="numeric")
         if X.shape[0] < 2:
             raise InputError(
                 f"cross-validation needs at least 2 samples, got n_samples={X.shape[0]}"
@@ -236,8 +253,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
                     f"groups must have one label per row of X ({X.shape[0]}), "
                     f"got shape {groups.shape}", key="groups")
         problem = SelectionProblem(
-            X, y, self.estimator, costs=cost_model, cv=self.cv, scoring=self.scoring,
-            groups=groups, feature_names=names,
+            X if frame is None else frame, y, self.estimator, costs=cost_model, cv=self.cv,
+            scoring=self.scoring, groups=groups, feature_names=names,
         )
         options = dict(self.strategy_options or {})
         result = run_search(

@@ -292,6 +292,8 @@ def _fit_chunk(plan, X, columns, y, splits, items, on_error, inner_threads, chec
                         cols_seen = cols
                     Xtr, Xte = Xs[train], Xs[test]
                     est = clone(plan.tail)
+                if cols and getattr(est, "takes_columns", False):
+                    est.set_params(columns=tuple(cols))  # featuresift.columns.TypedColumns
                 est.fit(Xtr, y[train])
                 score = plan.score(est, Xte, y[test])
             except Exception as exc:  # noqa: BLE001 - the failure policy decides

@@ -1,0 +1,101 @@
+"""Any column type: categorical, text and nullable columns reach the model as the user's."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from sklearn.compose import ColumnTransformer
+from sklearn.ensemble import HistGradientBoostingClassifier
+from sklearn.impute import SimpleImputer
+from sklearn.linear_model import LogisticRegression
+from sklearn.model_selection import StratifiedKFold, cross_val_score
+from sklearn.pipeline import make_pipeline
+from sklearn.preprocessing import OneHotEncoder, StandardScaler
+
+from featuresift import SelectionProblem, nested_evaluation, run_search
+from featuresift.engine.evaluator import CrossValidationEvaluator
+from featuresift.selector import MeasurementSelector
+
+pytestmark = pytest.mark.usefixtures("single_blas_thread")
+
+
+@pytest.fixture(scope="module")
+def lab():
+    rng = np.random.default_rng(1)
+    n = 240
+    grade = rng.choice(["A", "B", "C"], n)
+    ph = rng.normal(size=n)
+    count = pd.array(rng.integers(0, 6, n), dtype="Int64")
+    count[::7] = pd.NA
+    y = ((grade == "A") | (ph > 0.8)).astype(int)
+    frame = pd.DataFrame({
+        "ph": ph, "grade": pd.Categorical(grade), "site": rng.choice(["north", "south"], n),
+        "count": count, "noise": rng.normal(size=n),
+    })
+    return frame, y
+
+
+def _scores(problem, subset):
+    return list(CrossValidationEvaluator(problem).evaluate([subset])[0].fold_scores)
+
+
+def test_native_categories_score_as_scikit_learn_on_the_users_frame(lab):
+    frame, y = lab
+    X = frame[["ph", "grade", "noise"]]
+    model = HistGradientBoostingClassifier(categorical_features="from_dtype", max_iter=15,
+                                           random_state=0)
+    cv = StratifiedKFold(3, shuffle=True, random_state=0)
+    problem = SelectionProblem(X, y, model, cv=cv)
+    # Reference: scikit-learn's cross_val_score on the user's own columns and dtypes.
+    ref = cross_val_score(model, X[["ph", "grade"]], y, cv=cv)
+    assert _scores(problem, (0, 1)) == pytest.approx(list(ref), abs=0)
+    ref_grade = cross_val_score(model, X[["grade"]], y, cv=cv)
+    assert _scores(problem, (1,)) == pytest.approx(list(ref_grade), abs=0)
+
+
+def test_named_column_transformer_is_narrowed_to_each_subset(lab):
+    frame, y = lab
+    model = make_pipeline(
+        ColumnTransformer([
+            ("one_hot", OneHotEncoder(handle_unknown="ignore"), ["grade", "site"]),
+            ("numeric", make_pipeline(SimpleImputer(), StandardScaler()),
+             ["ph", "count", "noise"]),
+        ]),
+        LogisticRegression(max_iter=500),
+    )
+    problem = SelectionProblem(frame, y, model, cv=3)
+    # Reference: the same pipeline written for the two columns only.
+    small = make_pipeline(
+        ColumnTransformer([("one_hot", OneHotEncoder(handle_unknown="ignore"), ["site"]),
+                           ("numeric", make_pipeline(SimpleImputer(), StandardScaler()),
+                            ["count"])]),
+        LogisticRegression(max_iter=500),
+    )
+    ref = cross_val_score(small, frame[["site", "count"]], y, cv=problem.cv)
+    assert _scores(problem, (2, 3)) == pytest.approx(list(ref), abs=1e-12)
+    res = run_search(problem, "forward", n_features=2)
+    assert set(res.selected) == {"grade", "ph"}  # the two that decide y, by construction
+
+
+def test_nullable_dtypes_and_pd_na_work_in_run_search(lab):
+    frame, y = lab
+    model = make_pipeline(SimpleImputer(), LogisticRegression())
+    typed = SelectionProblem(frame[["ph", "count"]], y, model, cv=3)
+    plain = frame[["ph", "count"]].astype({"count": "float64"})  # pd.NA -> NaN by hand
+    assert np.isnan(typed.X[::7, 1]).all()
+    a = run_search(typed, "forward")
+    b = run_search(SelectionProblem(plain, y, model, cv=3), "forward")
+    assert a.selected == b.selected and a.fold_scores == b.fold_scores
+
+
+def test_selector_keeps_types_and_nested_refits_on_them(lab):
+    frame, y = lab
+    model = HistGradientBoostingClassifier(categorical_features="from_dtype", max_iter=10)
+    sel = MeasurementSelector(model, cv=3, budget=2).set_output(transform="pandas")
+    out = sel.fit(frame.drop(columns="site"), y).transform(frame.drop(columns="site"))
+    assert "grade" in sel.selected_features_
+    assert isinstance(out["grade"].dtype, pd.CategoricalDtype)
+    ne = nested_evaluation(frame[["ph", "grade"]], y, model, outer_cv=3, inner_cv=3,
+                           n_features=1)
+    assert len(ne.outer_scores) == 3 and all(s > 0.5 for s in ne.outer_scores)
