@@ -99,3 +99,42 @@ def test_selector_keeps_types_and_nested_refits_on_them(lab):
     ne = nested_evaluation(frame[["ph", "grade"]], y, model, outer_cv=3, inner_cv=3,
                            n_features=1)
     assert len(ne.outer_scores) == 3 and all(s > 0.5 for s in ne.outer_scores)
+
+
+def test_yaml_categorical_columns_with_one_hot_match_python(tmp_path, lab):
+    import json
+
+    import yaml
+
+    from featuresift.cli import main
+
+    frame, y = lab
+    table = frame.drop(columns="count").assign(outcome=y)
+    table.to_csv(tmp_path / "lab.csv", index=False)
+    config = {
+        "data": {"path": "lab.csv", "target": "outcome", "categorical": ["grade", "site"]},
+        "model": {"estimator": "sklearn.linear_model.LogisticRegression",
+                  "preprocessing": ["one_hot", "scale"]},
+        "cv": {"folds": 3},
+        "strategy": {"name": "forward", "options": {"n_features": 2}},
+        "output": {"folder": "out"},
+        "engine": {"journal": False, "progress": False},
+    }
+    (tmp_path / "lab.yaml").write_text(yaml.safe_dump(config), encoding="utf-8")
+    assert main(["run", str(tmp_path / "lab.yaml"), "--quiet"]) == 0
+    cli = json.loads(sorted((tmp_path / "out").rglob("result.json"))[-1].read_text("utf-8"))
+    assert set(cli["selected"]) == {"grade", "ph"}
+    # The same model written in Python (reference: scikit-learn's encoder on the columns).
+    X = table.drop(columns="outcome").astype({"grade": "category", "site": "category"})
+    model = make_pipeline(
+        ColumnTransformer([("numeric", StandardScaler(), ["ph"]),
+                           ("one_hot", OneHotEncoder(handle_unknown="ignore",
+                                                     sparse_output=False), ["grade"])]),
+        LogisticRegression())
+    cv = StratifiedKFold(3, shuffle=True, random_state=0)
+    ref = cross_val_score(model, X[["ph", "grade"]], y, cv=cv)
+    assert cli["score"]["folds"] == pytest.approx(list(ref), abs=1e-12)
+    # Without one_hot (and a model without native categories) validate says what to do.
+    config["model"]["preprocessing"] = ["scale"]
+    (tmp_path / "bad.yaml").write_text(yaml.safe_dump(config), encoding="utf-8")
+    assert main(["validate", str(tmp_path / "bad.yaml")]) == 2

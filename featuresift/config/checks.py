@@ -150,7 +150,8 @@ def _check_missing_values(cfg: RunConfig, ctx: _Context) -> None:
     """Missing candidate values need an imputer unless the estimator accepts NaN."""
     if any(s.startswith("impute_") for s in cfg.model.preprocessing):
         return
-    holes = [c for c in cfg.candidates if cfg.frame[c].isna().any()]
+    holes = [c for c in cfg.candidates
+             if c not in cfg.data.categorical and cfg.frame[c].isna().any()]
     if not holes:
         return
     try:

@@ -58,6 +58,34 @@ def _column_error(frame: pd.DataFrame, name: str, key: str, ctx: _Context, role:
     )
 
 
+def _check_categorical_model(cfg: RunConfig, ctx: _Context) -> None:
+    """Categorical columns need the one_hot step or a model that takes categories."""
+    if not cfg.data.categorical or "one_hot" in cfg.model.preprocessing:
+        return
+    native = cfg.model.params.get("categorical_features") == "from_dtype"
+    if not native:
+        raise ctx.error(
+            f"categorical column(s) {', '.join(cfg.data.categorical)} need the one_hot step "
+            "in model.preprocessing, or a model that takes categories (for example "
+            "HistGradientBoostingClassifier with params {categorical_features: from_dtype})",
+            "data.categorical",
+        )
+    if cfg.model.preprocessing:
+        raise ctx.error("with native categories (categorical_features: from_dtype) the "
+                        "preprocessing steps would meet text values; add one_hot or drop "
+                        "them", "model.preprocessing")
+
+
+def candidate_frame(cfg: RunConfig) -> pd.DataFrame:
+    """The candidate columns as the model sees them: numbers, and ``category`` columns."""
+    frame, name = cfg.frame, cfg.data.path.name
+    return pd.DataFrame({
+        c: frame[c].astype("category") if c in cfg.data.categorical
+        else _numeric_column(frame, c, name)
+        for c in cfg.candidates
+    })
+
+
 def _numeric_column(frame: pd.DataFrame, name: str, file_name: str) -> pd.Series:
     col = frame[name]
     if pd.api.types.is_bool_dtype(col):

@@ -17,7 +17,12 @@ from featuresift.config.checks import (
     _check_target,
 )
 from featuresift.config.context import _Context, _show
-from featuresift.config.data import _numeric_column, _read_frame, _select_candidates
+from featuresift.config.data import (
+    _check_categorical_model,
+    _numeric_column,
+    _read_frame,
+    _select_candidates,
+)
 from featuresift.config.schema import OVERRIDES, RunConfig
 from featuresift.config.sections import _CORE_FIELDS, SECTIONS
 from featuresift.config.yamlfile import _read_yaml
@@ -111,8 +116,13 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
         raise ctx.error("stratified folds need a classifier; set stratified: false",
                         "cv.stratified")
     cfg.candidates = _select_candidates(cfg, ctx)
+    for i, name in enumerate(cfg.data.categorical):
+        if name not in cfg.candidates:
+            raise ctx.error(f"'{name}' is not a candidate column", f"data.categorical[{i}]")
+    _check_categorical_model(cfg, ctx)
     for name in cfg.candidates:
-        _numeric_column(frame, name, cfg.data.path.name)
+        if name not in cfg.data.categorical:
+            _numeric_column(frame, name, cfg.data.path.name)
     _check_target(cfg, ctx)
     _check_folds(cfg, ctx)
     cfg.cost_model = _build_cost_model(cfg, ctx)

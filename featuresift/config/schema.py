@@ -28,6 +28,7 @@ PREPROCESSORS: dict[str, Callable[[], Any]] = {
     "scale": StandardScaler,
     "minmax": MinMaxScaler,
     "robust": RobustScaler,
+    "one_hot": None,  # built by ModelSpec.build around the other steps (categorical columns)
 }
 """Preprocessing step names accepted in ``model.preprocessing`` and their factories."""
 
@@ -43,6 +44,7 @@ class DataSpec:
     target: str
     features: tuple[str, ...] | None
     exclude: tuple[str, ...]
+    categorical: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -70,8 +72,21 @@ class ModelSpec:
         model = self.estimator_class(**self.params)
         if not self.preprocessing:
             return model
-        steps = [(name, PREPROCESSORS[name]()) for name in self.preprocessing]
-        return Pipeline([*steps, ("model", model)])
+        steps = [(name, PREPROCESSORS[name]()) for name in self.preprocessing
+                 if name != "one_hot"]
+        if "one_hot" not in self.preprocessing:
+            return Pipeline([*steps, ("model", model)])
+        # one_hot: categorical columns are one-hot encoded, the other steps treat the rest.
+        from sklearn.compose import ColumnTransformer, make_column_selector
+        from sklearn.preprocessing import OneHotEncoder
+
+        numeric = Pipeline(steps) if steps else "passthrough"
+        encode = ColumnTransformer([
+            ("numeric", numeric, make_column_selector(dtype_exclude="category")),
+            ("one_hot", OneHotEncoder(handle_unknown="ignore", sparse_output=False),
+             make_column_selector(dtype_include="category")),
+        ])
+        return Pipeline([("preprocessing", encode), ("model", model)])
 
 
 @dataclass(frozen=True)

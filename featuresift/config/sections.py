@@ -35,7 +35,7 @@ __all__ = ["Section", "SECTIONS", "register_section"]
 
 
 def _parse_data(value: Any, ctx: _Context) -> DataSpec:
-    d = ctx.section(value, "data", ["path", "target", "features", "exclude"],
+    d = ctx.section(value, "data", ["path", "target", "features", "exclude", "categorical"],
                     {"path": "the CSV or Parquet file", "target": "the column to predict"})
     path = Path(os.path.expanduser(ctx.string(d["path"], "data.path")))
     if not path.is_absolute():
@@ -50,6 +50,7 @@ def _parse_data(value: Any, ctx: _Context) -> DataSpec:
         target=ctx.string(d["target"], "data.target"),
         features=features,
         exclude=tuple(ctx.strings(d.get("exclude"), "data.exclude")),
+        categorical=tuple(ctx.strings(d.get("categorical"), "data.categorical")),
     )
 
 

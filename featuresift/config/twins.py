@@ -29,6 +29,7 @@ PYTHON_TWINS: dict[str, tuple[str, str]] = {
     "data.target": (_PROBLEM, "y"),
     "data.features": (_PROBLEM, "feature_names"),
     "data.exclude": (_PROBLEM, "X"),
+    "data.categorical": (_PROBLEM, "X"),
     "costs": (_PROBLEM, "costs"),
     "costs.unit": (_COSTS, "unit"),
     "costs.features": (_COSTS, "feature_costs"),
