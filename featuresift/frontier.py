@@ -143,6 +143,12 @@ def _default_pick() -> str:
     return inspect.signature(run_search).parameters["pick"].default
 
 
+def _guard_on(guard: Any) -> bool:
+    if guard is None or guard is False or guard == "off":
+        return False
+    return not (isinstance(guard, dict) and guard.get("name") == "off")
+
+
 def _without_guard(options: dict[str, Any]) -> dict[str, Any]:
     """Search options with the driver's noise guard off (it would re-run each search in
     outer folds: a sweep point or an outer fold of a nested estimate must not)."""
@@ -151,17 +157,27 @@ def _without_guard(options: dict[str, Any]) -> dict[str, Any]:
     return dict(options)
 
 
-def _pick_index(points: list[tuple[int, float, float, float, int]], rule: str) -> int | None:
-    """Index chosen by ``rule`` among (index, cost, mean, sem, size) points."""
-    ok = [p for p in points if math.isfinite(p[2])]
+def _value(r: SearchResult) -> float:
+    """The objective value of a point (its mean score under the plain score objective)."""
+    v = (r.objective or {}).get("value")
+    return float(v) if isinstance(v, (int, float)) and math.isfinite(v) else r.score_mean
+
+
+def _pick_key(cands: list[tuple[Any, float, float, float, int]], rule: str) -> Any:
+    """Key chosen by ``rule`` among (key, cost, value, sem, size) candidates.
+
+    Ties go to the earlier candidate (points in budget order come before references).
+    """
+    ok = [(pos, c) for pos, c in enumerate(cands) if math.isfinite(c[2])]
     if not ok:
         return None
-    best = max(ok, key=lambda p: (p[2], -p[1], -p[4], -p[0]))
+    best = max(ok, key=lambda pc: (pc[1][2], -pc[1][1], -pc[1][4], -pc[0]))[1]
     if rule == "best":
         return best[0]
-    # one-se (Breiman et al. 1984): cheapest point within one SE of the best.
-    close = [p for p in ok if p[2] >= best[2] - best[3]]
-    return min(close, key=lambda p: (round(p[1], 9), -p[2], p[4], p[0]))[0]
+    # one-se (Breiman et al. 1984): cheapest candidate within one SE of the best.
+    threshold = best[2] - best[3]
+    close = [(pos, c) for pos, c in ok if c[2] >= threshold - 1e-12 * max(1.0, abs(threshold))]
+    return min(close, key=lambda pc: (round(pc[1][1], 9), -pc[1][2], pc[1][4], pc[0]))[1][0]
 
 
 @dataclass
@@ -185,9 +201,14 @@ class Frontier:
     pick : str
         Pick rule of the headline: "best" (highest in-search score), otherwise the
         one-standard-error rule ("one-se", alias "one_se": the cheapest point whose score
-        is within one standard error of the best affordable point).
+        is within one standard error of the best affordable point). The references
+        (nothing, free only, everything) compete when the searches report them.
     nested : NestedEvaluation or None
         Nested estimate of the search at the headline's budget, when asked for.
+    guard : dict
+        The noise guard's record for the headline (empty when no guard ran): what
+        :func:`featuresift.run_search` reports, plus ``fallback`` (the reference the
+        headline became) when the guard replaced it.
 
     Examples
     --------
@@ -214,29 +235,91 @@ class Frontier:
     budget: float | None = None
     pick: str = "best"
     nested: Any = field(default=None, repr=False)
+    guard: dict[str, Any] = field(default_factory=dict)
 
     # -------------------------------------------------------------- the answer
-    def _points(self, within_budget: bool) -> list[tuple[int, float, float, float, int]]:
+    @property
+    def references(self) -> dict[str, dict[str, Any]]:
+        """The references ("nothing", "free only", "everything") evaluated by the searches.
+
+        Name -> ``features``, ``cost``, ``score_mean``, ``score_sem``, ``objective`` (the
+        same in every search of the sweep: same folds), and ``allowed``: whether some
+        search of the sweep could answer with it. Empty when the searches report none.
+        """
+        out: dict[str, dict[str, Any]] = {}
+        for r in self.results:
+            for name, ref in (getattr(r, "references", None) or {}).items():
+                if name not in out:
+                    out[name] = {**ref, "allowed": bool(ref.get("allowed", True))}
+                elif ref.get("allowed", True):
+                    out[name]["allowed"] = True
+        return out
+
+    def _fits(self, cost: float) -> bool:
         cap = self.budget
-        return [
-            (i, r.cost, r.score_mean, _sem(r), len(r.selected))
-            for i, r in enumerate(self.results)
-            if not within_budget or cap is None or r.cost <= cap + _COST_TOL * max(1.0, cap)
+        return cap is None or cost <= cap + _COST_TOL * max(1.0, cap)
+
+    def _candidates(self, within_budget: bool) -> list[tuple[Any, float, float, float, int]]:
+        cands: list[tuple[Any, float, float, float, int]] = [
+            (i, r.cost, _value(r), _sem(r), len(r.selected))
+            for i, r in enumerate(self.results) if not within_budget or self._fits(r.cost)
         ]
+        for name, ref in self.references.items():
+            value = ref.get("objective", ref.get("score_mean"))
+            if value is None or not ref["allowed"] or (within_budget
+                                                       and not self._fits(ref["cost"])):
+                continue
+            cands.append((name, float(ref["cost"]), float(value),
+                          float(ref.get("score_sem") or 0.0), len(ref["features"])))
+        return cands
+
+    def _point_of(self, key: Any) -> int | None:
+        if key is None or isinstance(key, int):
+            return key
+        features = set(self.references[key]["features"])
+        return next((i for i, r in enumerate(self.results) if set(r.selected) == features),
+                    None)
+
+    @property
+    def headline_key(self) -> int | str | None:
+        """The headline: a point index, or a reference name when a reference that no
+        point equals is the pick (or the noise guard fell back to it)."""
+        fallback = (self.guard or {}).get("fallback")
+        if fallback:
+            return fallback if self._point_of(fallback) is None else self._point_of(fallback)
+        key = _pick_key(self._candidates(True), self.pick)
+        point = self._point_of(key)
+        return key if point is None else point
 
     @property
     def headline_index(self) -> int | None:
-        """Index of the headline point: the pick rule within :attr:`budget`."""
-        return _pick_index(self._points(True), self.pick)
+        """Index of the headline point: the pick rule within :attr:`budget` (None when
+        the headline is a reference no point equals, or nothing fits the budget)."""
+        key = self.headline_key
+        return key if isinstance(key, int) else None
+
+    @property
+    def headline_reference(self) -> str | None:
+        """Name of the reference the headline is (its measurements), if any."""
+        key = self.headline_key
+        if isinstance(key, str):
+            return key
+        if key is None:
+            return None
+        chosen = set(self.results[key].selected)
+        return next((n for n, ref in self.references.items()
+                     if set(ref["features"]) == chosen), None)
 
     @property
     def best_index(self) -> int | None:
         """Index of the highest in-search score at any budget (ties: cheaper)."""
-        return _pick_index(self._points(False), "best")
+        cands = [c for c in self._candidates(False) if isinstance(c[0], int)]
+        return _pick_key(cands, "best")
 
     @property
     def headline(self) -> SearchResult | None:
-        """The headline :class:`SearchResult` (None when no point fits the budget)."""
+        """The headline :class:`SearchResult` (None when it is a reference no point
+        equals, or no point fits the budget)."""
         i = self.headline_index
         return None if i is None else self.results[i]
 
@@ -272,6 +355,25 @@ class Frontier:
                                  na_position="last", kind="stable").reset_index(drop=True)
 
     # -------------------------------------------------------------- tables
+    def reference_frame(self):
+        """One row per reference: ``reference``, ``n_selected``, ``selected``, ``cost``,
+        ``score_kind``, ``score_mean``, ``score_sem``, ``allowed`` (some search of the
+        sweep could answer with it), ``headline``."""
+        import pandas as pd
+
+        head = self.headline_reference
+        rows = [{
+            "reference": name, "n_selected": len(ref["features"]),
+            "selected": " + ".join(ref["features"]), "cost": float(ref["cost"]),
+            "score_kind": SCORE_KIND,
+            "score_mean": np.nan if ref.get("score_mean") is None else ref["score_mean"],
+            "score_sem": np.nan if ref.get("score_sem") is None else ref["score_sem"],
+            "allowed": ref["allowed"], "headline": name == head,
+        } for name, ref in self.references.items()]
+        return pd.DataFrame(rows, columns=["reference", "n_selected", "selected", "cost",
+                                           "score_kind", "score_mean", "score_sem",
+                                           "allowed", "headline"])
+
     def to_frame(self):
         """One row per budget: budget, chosen features, cost, in-search score, flags.
 
@@ -314,7 +416,10 @@ class Frontier:
             "budget": self.budget,
             "pick": self.pick,
             "headline": head,
+            "headline_reference": self.headline_reference,
             "best": best,
+            "references": self.references,
+            "guard": self.guard,
             "n_fits": self.n_fits,
             "n_fits_without_cache": self.n_fits_without_cache,
             "points": [
@@ -338,7 +443,7 @@ class Frontier:
                 for row in choices.itertuples()
             ],
             "nested": None if self.nested is None else {
-                "budget": self.results[head].budget if head is not None else None,
+                "budget": self.nested_budget,
                 **self.nested.to_dict(),
             },
             "results": [r.to_dict() for r in self.results],
@@ -368,6 +473,7 @@ class Frontier:
             budget=data.get("budget"),
             pick=data.get("pick", "best"),
             nested=None if nested is None else NestedEvaluation.from_dict(nested),
+            guard=dict(data.get("guard") or {}),
         )
 
     @classmethod
@@ -400,24 +506,50 @@ class Frontier:
 
         return frontier_html(self)
 
-    def _describe(self, i: int | None) -> str:
-        if i is None:
+    @property
+    def nested_budget(self) -> float | None:
+        """The budget of the search whose nested estimate :attr:`nested` holds."""
+        head = self.headline_index
+        return None if head is None else self.budgets[head]
+
+    def _describe(self, key: int | str | None) -> str:
+        label = score_label(SCORE_KIND, self.scoring)
+        if key is None:
             return "no point fits the budget"
-        r = self.results[i]
-        b = "unlimited" if self.budgets[i] is None else f"{self.budgets[i]:g}"
+        if isinstance(key, str):
+            ref = self.references[key]
+            what = " + ".join(ref["features"]) if ref["features"] else "no measurement"
+            mean, sem = ref.get("score_mean"), ref.get("score_sem") or 0.0
+            score = "—" if mean is None else f"{mean:.4f} ± {sem:.4f} (s.e.)"
+            return (f"reference '{key}': {what} — cost {float(ref['cost']):g} "
+                    f"{self.cost_unit}, {label} {score}")
+        r = self.results[key]
+        b = "unlimited" if self.budgets[key] is None else f"{self.budgets[key]:g}"
         what = " + ".join(r.selected) if r.selected else "no measurement"
-        return (f"budget {b}: {what} — cost {r.cost:g} {self.cost_unit}, "
-                f"{score_label(SCORE_KIND, self.scoring)} {r.score_mean:.4f} ± "
+        ref = self.headline_reference if key == self.headline_key else None
+        return (f"budget {b}: {what}{f' (reference {ref!r})' if ref else ''} — cost "
+                f"{r.cost:g} {self.cost_unit}, {label} {r.score_mean:.4f} ± "
                 f"{_sem(r):.4f} (s.e.)")
 
     def answer_lines(self) -> list[str]:
-        """Plain-text lines: the headline pick, the unconstrained best, the nested score."""
+        """Plain-text lines: the headline pick, the unconstrained best, the references,
+        the noise guard's verdict and the nested score."""
         cap = "unlimited" if self.budget is None else f"{self.budget:g} {self.cost_unit}"
+        head = self.headline_key
         lines = [f"Headline (pick rule {self.pick}, within the budget {cap}): "
-                 + self._describe(self.headline_index)]
-        if self.best_index != self.headline_index:
+                 + self._describe(head)]
+        if self.best_index is not None and self.best_index != head:
             lines.append("Highest in-search score at any budget (unconstrained, not the "
                          "answer): " + self._describe(self.best_index))
+        for name in self.references:
+            if name != head:
+                lines.append("Reference: " + self._describe(name))
+        if self.guard:
+            g = self.guard
+            detail = f", p = {g['p_value']:.3g}" if isinstance(g.get("p_value"), float) else ""
+            fits = f", {g['n_fits']} model fits" if g.get("n_fits") else ""
+            lines.append(f"Noise guard ({g.get('name')}) on the headline: "
+                         f"{g.get('decision')}{detail}{fits}")
         if self.nested is not None:
             ne = self.nested
             ci = "" if ne.ci is None else (
@@ -459,6 +591,12 @@ class Frontier:
                 f"{r.selected or '(nothing)'} | {cell(r.cost, 2)} | {cell(r.score_mean, 4)} | "
                 f"{cell(r.score_sem, 4)} | {'yes' if r.efficient else ''} | {mark} |"
             )
+        for r in self.reference_frame().itertuples():
+            lines.append(
+                f"| reference: {r.reference} | {r.selected or '(nothing)'} | "
+                f"{cell(r.cost, 2)} | {cell(r.score_mean, 4)} | {cell(r.score_sem, 4)} | | "
+                f"{'headline' if r.headline else ''} |"
+            )
         choices = self.choice_frequency()
         lines += ["", "How often each measurement was chosen across the budgets:", "",
                   "| measurement | budgets choosing it | share | first chosen at budget |",
@@ -482,9 +620,11 @@ class Frontier:
         """Draw in-search score against cost (error bars: one standard error).
 
         The headline pick and, if different, the unconstrained best are marked; the run's
-        budget is a dotted vertical line. Requires matplotlib. Returns the axes. Draws on
-        ``ax`` (a new figure from ``matplotlib.pyplot`` when None); the matplotlib backend
-        is left as it is.
+        budget is a dotted vertical line; the references "nothing" and "free only" are
+        horizontal lines with a ± 1 s.e. band (any budget reaches them), "everything" a
+        diamond; the noise guard's verdict on the headline is in the title. Requires
+        matplotlib. Returns the axes. Draws on ``ax`` (a new figure from
+        ``matplotlib.pyplot`` when None); the matplotlib backend is left as it is.
         """
         if ax is None:
             import matplotlib.pyplot as plt
@@ -503,10 +643,29 @@ class Frontier:
         for _, row in eff.iterrows():
             ax.annotate(f"{int(row['n_selected'])}", (row["cost"], row["score_mean"]),
                         textcoords="offset points", xytext=(4, -12), fontsize=8)
-        head, best = self.headline_index, self.best_index
+        refs = self.reference_frame()
+        styles = {"nothing": ("--", "tab:purple"), "free only": ("-.", "tab:orange")}
+        for r in refs.itertuples():
+            if not math.isfinite(r.score_mean):
+                continue
+            if r.reference in styles:  # a level any budget can reach: a line with its band
+                ls, color = styles[r.reference]
+                ax.axhline(r.score_mean, ls=ls, color=color, lw=1,
+                           label=f"reference: {r.reference} (± 1 s.e.)")
+                if math.isfinite(r.score_sem) and r.score_sem > 0:
+                    ax.axhspan(r.score_mean - r.score_sem, r.score_mean + r.score_sem,
+                               color=color, alpha=0.12, lw=0)
+            else:
+                ax.errorbar([r.cost], [r.score_mean], yerr=[r.score_sem], fmt="D",
+                            color="tab:brown", capsize=3, label=f"reference: {r.reference}")
+        head, best = self.headline_key, self.best_index
         if head is not None:
-            r = frame.iloc[head]
-            ax.plot([r["cost"]], [r["score_mean"]], "*", ms=14, color="tab:blue", zorder=5,
+            if isinstance(head, str):
+                ref = refs.set_index("reference").loc[head]
+                x, y = ref["cost"], ref["score_mean"]
+            else:
+                x, y = frame.iloc[head]["cost"], frame.iloc[head]["score_mean"]
+            ax.plot([x], [y], "*", ms=14, color="tab:blue", zorder=5,
                     label=f"headline pick ({self.pick})")
         if best is not None and best != head:
             r = frame.iloc[best]
@@ -516,8 +675,11 @@ class Frontier:
             ax.axvline(self.budget, ls=":", color="0.4", label="budget of the run")
         ax.set_xlabel(f"acquisition cost per sample ({self.cost_unit})")
         ax.set_ylabel(score_label(SCORE_KIND, self.scoring))
+        verdict = ""
+        if self.guard.get("decision"):
+            verdict = f"\nnoise guard on the headline: {self.guard['decision']}"
         ax.set_title(f"Accuracy against measurement cost: {score_label(SCORE_KIND)}\n"
-                     "(numbers: measurements chosen)", fontsize=10)
+                     f"(numbers: measurements chosen){verdict}", fontsize=9)
         ax.grid(alpha=0.3)
         ax.legend(loc="lower right", fontsize=7)
         return ax
@@ -600,7 +762,10 @@ def budget_sweep(
         ``chunk_size``, ``verbose``, ``on_fit_error``, ``share_preprocessing``).
     **search_options
         Passed to :func:`featuresift.run_search` (objective, pick, limits, strategy
-        options...).
+        options...). The noise guard (``guard``) is not run per budget: it is applied
+        once, to the headline (the search at the headline's budget re-run with the
+        guard); when it falls back, the headline becomes that reference
+        (:attr:`Frontier.guard`).
 
     Examples
     --------
@@ -634,6 +799,9 @@ def budget_sweep(
     fits_before = shared.n_fits
     results = []
     without_cache = 0
+    has_guard = "guard" in inspect.signature(run_search).parameters
+    guard = search_options.pop(
+        "guard", inspect.signature(run_search).parameters["guard"].default if has_guard else None)
     point_options = _without_guard(search_options)
     try:
         for b in budgets:
@@ -659,6 +827,20 @@ def budget_sweep(
         pick=search_options.get("pick", _default_pick()),
     )
     head = frontier.headline_index
+    if has_guard and _guard_on(guard) and frontier.headline_key is not None:
+        if frontier.headline_reference in ("nothing", "free only"):
+            frontier.guard = {"name": "nested", "n_fits": 0,
+                              "decision": "not needed: the answer buys no measurement"}
+        elif head is not None:
+            # The search at the headline's budget again (its fits are cached), now with
+            # the guard: is buying measurements better than the fallback on outer folds?
+            res = run_search(shared, strategy, cost_model=problem.cost_model,
+                             budget=budgets[head], guard=guard, **search_options)
+            frontier.guard = dict(res.guard)
+            if res.guard.get("replaced"):
+                frontier.guard["fallback"] = next(
+                    n for n, ref in res.references.items() if ref.get("is_answer"))
+            head = frontier.headline_index
     if nested is not None and head is not None:
         from featuresift.nested import nested_evaluation
 

@@ -129,3 +129,37 @@ def test_sweep_on_criterion_evaluator_is_exact():
 
     r = run_search(ev, "forward", costs=cm, budget=2.0)
     assert r.selected == ["b", "c"]
+
+
+def test_headline_can_be_a_reference_and_follows_the_guard():
+    pts = [_point(1.0, 0.52, 0.05, ["a"], 1.0), _point(4.0, 0.55, 0.05, ["a", "b"], 5.0),
+           _point(20.0, 0.56, 0.05, ["a", "b", "c"], None)]
+    refs = {
+        "nothing": {"features": [], "cost": 0.0, "score_mean": 0.50, "score_sem": 0.05,
+                    "objective": 0.50, "allowed": True},
+        "free only": {"features": ["m"], "cost": 0.0, "score_mean": 0.515, "score_sem": 0.05,
+                      "objective": 0.515, "allowed": True},
+        "everything": {"features": ["a", "b", "c", "d", "m"], "cost": 30.0,
+                       "score_mean": 0.55, "score_sem": 0.05, "objective": 0.55,
+                       "allowed": False},
+    }
+    for r in pts:
+        r.references = refs
+    fr = Frontier([1.0, 5.0, None], pts, "EUR", "roc_auc", 0, 0, budget=None, pick="one-se")
+    # One-standard-error rule by hand: best 0.56 - s.e. 0.05 = 0.51; the cheapest at or above
+    # it is "free only" (cost 0, 0.515); "nothing" (0.50) is below, no point equals it.
+    assert fr.headline_key == "free only" and fr.headline_index is None
+    assert fr.headline_reference == "free only" and fr.headline is None
+    assert fr.best_index == 2
+    refs_frame = fr.reference_frame().set_index("reference")
+    assert refs_frame.loc["free only", "headline"] and not refs_frame.loc["everything", "allowed"]
+    assert any("reference 'free only'" in line for line in fr.answer_lines())
+    # A point that buys exactly the free-only set is the headline point itself.
+    pts[0] = _point(0.0, 0.515, 0.05, ["m"], 1.0)
+    pts[0].references = refs
+    assert fr.headline_index == 0 and fr.headline_reference == "free only"
+    # The noise guard replaced the headline by "nothing".
+    fr.guard = {"name": "nested", "decision": "replaced by 'nothing'", "fallback": "nothing"}
+    assert fr.headline_key == "nothing" and fr.headline_index is None
+    assert fr.to_dict()["headline_reference"] == "nothing"
+    assert "Noise guard (nested) on the headline: replaced by 'nothing'" in fr.answer_lines()

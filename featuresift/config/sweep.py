@@ -154,11 +154,16 @@ def write_sweep_files(out: RunFolder, cfg: RunConfig, frontier: Any) -> list[Pat
     """
     from featuresift.report import write_report
 
-    head = frontier.headline
+    head, key = frontier.headline, frontier.headline_key
     shown = head if head is not None else frontier.results[frontier.best_index or 0]
     budget = "unlimited" if shown.budget is None else f"{shown.budget:g}"
-    heading = (f"Headline pick (rule {frontier.pick}, budget {budget})" if head is not None
-               else f"No point fits the run's budget; highest-scoring (budget {budget})")
+    if head is not None:
+        heading = f"Headline pick (rule {frontier.pick}, budget {budget})"
+    elif isinstance(key, str):
+        heading = (f"Headline: the reference '{key}' (see the sweep section); below, "
+                   f"the search at budget {budget}")
+    else:
+        heading = f"No point fits the run's budget; highest-scoring (budget {budget})"
     written = frontier.write(out)
     plotted = any(p.name == "frontier.png" for p in written)
     written.append(write_report(
