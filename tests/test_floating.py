@@ -48,7 +48,7 @@ def _letters(subset) -> str:
 
 def test_sffs_reproduces_published_path_size_by_size():
     space = _six_feature_space()
-    FloatingForwardSearch().run(space)
+    FloatingForwardSearch(sequential_floor=False).run(space)
     steps = [(st.action, _letters(st.subset), st.scored.value) for st in space.path]
     # Hand-traced SFFS steps 1-6 (Pudil, Novovičová & Kittler 1994 algorithm).
     assert steps == [
@@ -73,7 +73,7 @@ def test_sfs_path_and_floating_not_above_it_everywhere():
         ("e", 41), ("ef", 15), ("aef", 20), ("adef", 38), ("acdef", 27), ("abcdef", 28)
     ]
     sffs = _six_feature_space()
-    FloatingForwardSearch().run(sffs)
+    FloatingForwardSearch(sequential_floor=False).run(sffs)
     # Not a theorem: SFFS is worse than SFS at size 4 on this criterion (35 < 38).
     assert sffs.extras["best_by_size"][4]["value"] == 35 < 38
 
@@ -91,13 +91,13 @@ def test_sequential_floor_keeps_the_better_record_per_size():
 def test_n_features_answers_with_the_record_of_that_size():
     costs = CostModel.uniform(_NAMES)
     res = run_search(_six_feature_space().evaluator, "floating-forward", n_features=4,
-                     costs=costs)
+                     costs=costs, sequential_floor=False)
     # Stops at size 4: acdf(30) is the record then (hand-traced SFFS, step 4).
     assert "".join(res.selected) == "acdf"
     assert res.extras["best_by_size"].keys() == {1, 2, 3, 4}
     # Looking one size beyond lets the backtrack from abcdf improve size 4 (step 5).
     res = run_search(_six_feature_space().evaluator, "floating-forward", n_features=4,
-                     look_beyond=1, costs=costs)
+                     look_beyond=1, costs=costs, sequential_floor=False)
     assert "".join(res.selected) == "abcd" and res.score_mean == 35
 
 
@@ -140,7 +140,7 @@ def test_additive_criterion_floating_equals_sequential():
         strategy.run(space)
         return space
 
-    fl = run(FloatingForwardSearch())
+    fl = run(FloatingForwardSearch(sequential_floor=False))
     sq = run(ForwardSelection(n_features=7))
     assert [st.subset for st in fl.path] == [st.subset for st in sq.path]
     assert all(st.action == "add" for st in fl.path)
@@ -154,11 +154,11 @@ def test_backward_is_the_mirror_of_forward_on_complements(seed):
     full = set(range(n))
     names = [f"x{i}" for i in range(n)]
     back = SearchSpace(CriterionEvaluator(crit, n, names), CostModel.uniform(names))
-    FloatingBackwardSearch().run(back)
+    FloatingBackwardSearch(sequential_floor=False).run(back)
     mirrored = SearchSpace(
         CriterionEvaluator(lambda t: crit(tuple(sorted(full - set(t)))), n, names),
         CostModel.uniform(names))
-    FloatingForwardSearch(n_features=n - 1).run(mirrored)
+    FloatingForwardSearch(n_features=n - 1, sequential_floor=False).run(mirrored)
     for size, rec in back.extras["best_by_size"].items():
         if 1 <= size < n:
             assert rec["value"] == mirrored.extras["best_by_size"][n - size]["value"]
@@ -175,7 +175,8 @@ def test_floating_stays_within_budget_and_limits():
     assert space.visited and all(space.is_allowed(s) for s in space.visited)
     res = run_search(CriterionEvaluator(_random_criterion(8, 11), 8, names),
                      "floating-backward", costs=costs, budget=6.0,
-                     must_include=["x1"], never_include=["x4"], max_features=4)
+                     must_include=["x1"], never_include=["x4"], max_features=4,
+                     sequential_floor=False)
     assert costs.cost(res.support) <= 6.0 and "x1" in res.selected and len(res.selected) <= 4
     # Every step after the plain exclusions phase is allowed.
     first_allowed = next(i for i, r in enumerate(res.path) if r.cost <= 6.0

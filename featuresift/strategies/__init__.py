@@ -2,7 +2,9 @@
 
 Registered names: ``forward``, ``backward`` (sequential), ``floating-forward``,
 ``floating-backward`` (SFFS, SBFS), ``annealing``, ``genetic``, ``exhaustive``,
-``filter-order`` (prefixes of an order of measurements).
+``filter-order`` (prefixes of an order of measurements) and ``greedy-swap`` (exhaustive
+when few subsets are allowed, otherwise budget-aware greedy followed by add / remove /
+swap local search).
 """
 
 from featuresift.strategies.annealing import SimulatedAnnealing
@@ -20,6 +22,7 @@ from featuresift.strategies.exhaustive import ExhaustiveSearch
 from featuresift.strategies.filter_order import FilterOrderSearch
 from featuresift.strategies.floating import FloatingBackwardSearch, FloatingForwardSearch
 from featuresift.strategies.genetic import GeneticSearch
+from featuresift.strategies.greedy_swap import GreedySwapSearch
 from featuresift.strategies.sequential import BackwardSelection, ForwardSelection
 
 __all__ = [
@@ -39,4 +42,5 @@ __all__ = [
     "GeneticSearch",
     "ExhaustiveSearch",
     "FilterOrderSearch",
+    "GreedySwapSearch",
 ]

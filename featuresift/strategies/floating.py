@@ -10,8 +10,14 @@ Floating forward search (``"floating-forward"``) alternates
 Floating backward search (``"floating-backward"``) is the mirror: exclusion of the
 least useful feature, then conditional inclusion among the *addable* features while
 that beats the record of the larger size. When the full set breaks the budget or the
-size limit, plain exclusions come first until the subset is allowed (see
+size limit, it is first brought within them by the budget-aware backward rule (remove
+what saves most cost per unit of objective lost, a panel as one unit; see
 :func:`~featuresift.strategies.sequential.eliminate_to_allowed`).
+
+Conditional steps run at **every size**: before the first main step, after each main
+step and at the end of the path. (A backward search that starts at its bottom size, for
+instance one affordable feature under a tight budget, still tries its inclusions; a
+forward search tries exclusions down to one feature beyond ``must_include``.)
 
 Bookkeeping and guarantees
 --------------------------
@@ -24,10 +30,14 @@ Bookkeeping and guarantees
   that comes back stops the search with the reason "cycle guard".
 * **Budget.** Inclusions are drawn only from addable features; exclusions never raise
   the cost, so every subset the floating phase visits is allowed.
-* **Not a guarantee:** a floating search can end *below* plain sequential search at
-  some size (the worked example in the tests shows it at size 4). The option
-  ``sequential_floor=True`` also runs the plain sequential search and keeps, per size,
-  the better of the two records (extra evaluations, cached where the paths agree).
+* **Never worse than the plain search.** Floating search alone can end *below* plain
+  sequential search at some size (the published six-feature worked example in the
+  tests shows it at size 4). So by default (``sequential_floor=True``) the plain
+  budget-aware search (:class:`~featuresift.strategies.sequential.ForwardSelection` or
+  :class:`~featuresift.strategies.sequential.BackwardSelection`, default options) runs
+  too, after the floating phase, and every size keeps the better record; the answer is
+  then at least as good as the plain search's at any budget. ``sequential_floor=False``
+  gives the floating search alone, step for step as published.
 
 Stopping
 --------
@@ -121,29 +131,21 @@ def _best_addition(space: SearchSpace, current: tuple[int, ...]):
 
 def _float(space: SearchSpace, records: _SizeRecords, current: tuple[int, ...],
            forward: bool, limit: int) -> None:
-    """The floating loop: a main step, then conditional steps back while they pay.
+    """The floating loop: conditional steps back while they pay, then a main step.
 
-    Forward: add (main) until size ``limit``, then conditionally exclude, never down to
-    ``len(must_include) + 1`` (the first inclusion already tried every single feature).
-    Backward: remove until size ``limit``, then conditionally include.
+    Forward: conditional exclusions (never below ``must_include`` plus one feature, never
+    the empty subset), then add (main) until size ``limit``. Backward: conditional
+    inclusions among the addable features, then remove until size ``limit``. The
+    conditional steps run at every size: before the first main step, after each one and
+    at the end of the path (a backward search that starts at its bottom size, say one
+    affordable feature under a tight budget, still tries to include).
     """
     main, undo = (_best_addition, best_removal) if forward else (best_removal, _best_addition)
     main_action, undo_action = ("add", "exclude") if forward else ("remove", "include")
-    lowest = len(space.must_include) + 2
+    lowest = len(space.must_include) + 1
     space.stop_reason = f"size {limit} reached"
-    while len(current) < limit if forward else len(current) > limit:
-        if records.seen_before(current):
-            return
-        move = main(space, current)
-        if move is None:
-            space.stop_reason = ("no affordable feature left to add" if forward
-                                 else "only must_include features left")
-            return
-        f, scored = move
-        current = scored.subset
-        records.offer(scored)
-        space.record(main_action, current, f)
-        last: int | None = f
+    last: int | None = None
+    while True:
         while not forward or len(current) - 1 >= lowest:
             back = undo(space, current)
             if back is None:
@@ -155,6 +157,20 @@ def _float(space: SearchSpace, records: _SizeRecords, current: tuple[int, ...],
             records.offer(scored)
             space.record(undo_action, current, g)
             last = None
+        if (len(current) >= limit) if forward else (len(current) <= limit):
+            return
+        if records.seen_before(current):
+            return
+        move = main(space, current)
+        if move is None:
+            space.stop_reason = ("no affordable feature left to add" if forward
+                                 else "only must_include features left")
+            return
+        f, scored = move
+        current = scored.subset
+        records.offer(scored)
+        space.record(main_action, current, f)
+        last = f
 
 
 class _FloatingSearch(SearchStrategy):
@@ -164,7 +180,7 @@ class _FloatingSearch(SearchStrategy):
         self,
         n_features: int | None = None,
         look_beyond: int = 0,
-        sequential_floor: bool = False,
+        sequential_floor: bool = True,
     ) -> None:
         if n_features is not None:
             check_int(n_features, "n_features")
@@ -176,7 +192,9 @@ class _FloatingSearch(SearchStrategy):
                  plain: SearchStrategy) -> None:
         """Optional sequential floor, then the answer (record of ``n_features`` or best seen)."""
         if self.sequential_floor:
+            reason = space.stop_reason
             plain.run(space)
+            space.stop_reason = f"{reason}; plain {plain.name} search run as a floor"
             records.absorb_visited()
         space.chosen = None
         records.finish(self.n_features)
@@ -194,9 +212,9 @@ class FloatingForwardSearch(_FloatingSearch):
     look_beyond : int, default=0
         With ``n_features``, grow this many sizes further so that backtracking can
         still improve size ``n_features``.
-    sequential_floor : bool, default=False
-        Also run plain forward selection (its steps join the path) and keep, per size,
-        the better record.
+    sequential_floor : bool, default=True
+        Also run plain (budget-aware) forward selection (its steps join the path) and
+        keep, per size, the better record: never worse than ``"forward"``.
 
     Examples
     --------
@@ -222,7 +240,7 @@ class FloatingForwardSearch(_FloatingSearch):
             records.offer(space.evaluate([current])[0])
             space.record("start", current)
         _float(space, records, current, forward=True, limit=target)
-        self._wrap_up(space, records, ForwardSelection(n_features=target))
+        self._wrap_up(space, records, ForwardSelection())
 
 
 @register_strategy
@@ -237,9 +255,9 @@ class FloatingBackwardSearch(_FloatingSearch):
     look_beyond : int, default=0
         With ``n_features``, shrink this many sizes further so that backtracking can
         still improve size ``n_features``.
-    sequential_floor : bool, default=False
-        Also run plain backward selection (its steps join the path) and keep, per size,
-        the better record.
+    sequential_floor : bool, default=True
+        Also run plain (budget-aware) backward selection (its steps join the path) and
+        keep, per size, the better record: never worse than ``"backward"``.
 
     Examples
     --------
@@ -265,4 +283,4 @@ class FloatingBackwardSearch(_FloatingSearch):
             return
         records.offer(start)
         _float(space, records, start.subset, forward=False, limit=bottom)
-        self._wrap_up(space, records, BackwardSelection(n_features=bottom))
+        self._wrap_up(space, records, BackwardSelection())
