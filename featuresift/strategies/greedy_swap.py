@@ -3,12 +3,11 @@
 Rules, in order
 ---------------
 1. **Few allowed subsets: enumerate.** The allowed non-empty subsets (containing
-   ``must_include``, avoiding ``never_include``, within ``max_features`` and the budget)
-   are counted by a depth-first walk that adds features in column order and prunes as
-   soon as the budget or the size limit breaks (costs never fall when a feature is added,
-   so the walk visits allowed subsets only and stops counting past the limit). When there
-   are at most ``exhaustive_limit`` of them, every one is evaluated (by size, then column
-   order, in batches of 256) and the search is exact.
+   ``must_include``, avoiding ``never_include``, within ``max_features`` and the budget,
+   panels as units) are counted exactly, without listing them
+   (:meth:`~featuresift.strategies.base.SearchSpace.allowed_subsets`; counting stops
+   past the limit). When there are at most ``exhaustive_limit`` of them, every one is
+   evaluated (by size, then column order, in batches of 256) and the search is exact.
 2. **Otherwise: budget-aware greedy.** Forward selection with both step rules (plain
    gain and gain per unit of marginal cost, panels priced once), each path growing while
    anything is affordable (:class:`~featuresift.strategies.sequential.ForwardSelection`
@@ -41,69 +40,13 @@ misses cases where a swap repairs an early greedy choice.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-
 from featuresift.strategies._options import check_int
 from featuresift.strategies.base import Scored, SearchSpace, SearchStrategy, register_strategy
 from featuresift.strategies.sequential import ForwardSelection, best_allowed
 
-__all__ = ["GreedySwapSearch", "count_allowed", "iter_allowed", "neighbourhood"]
+__all__ = ["GreedySwapSearch", "neighbourhood", "local_search"]
 
 _BATCH = 256
-
-
-def iter_allowed(space: SearchSpace) -> Iterator[tuple[int, ...]]:
-    """Allowed non-empty subsets, depth first in column order, pruned at the budget.
-
-    Only allowed subsets (and their immediate rejected children) are visited, so taking
-    the first ``N`` costs about ``N`` x the number of candidates budget checks, however
-    many features there are.
-
-    Examples
-    --------
-    >>> from featuresift.engine.evaluator import CriterionEvaluator
-    >>> from featuresift.costs import CostModel
-    >>> cm = CostModel(["a", "b", "c"], {"a": 1.0, "b": 2.0, "c": 0.0})
-    >>> space = SearchSpace(CriterionEvaluator(len, 3), cm, budget=2)
-    >>> sorted(iter_allowed(space), key=lambda s: (len(s), s))
-    [(0,), (1,), (2,), (0, 2), (1, 2)]
-    """
-    must = tuple(space.must_include)
-    free = space.free_candidates
-    limit = space.max_features
-
-    def walk(subset: tuple[int, ...], start: int) -> Iterator[tuple[int, ...]]:
-        if subset:
-            yield subset
-        if len(subset) >= limit:
-            return
-        for k in range(start, len(free)):
-            child = tuple(sorted(subset + (free[k],)))
-            if space.within_budget(child):
-                yield from walk(child, k + 1)
-
-    yield from walk(must, 0)
-
-
-def count_allowed(space: SearchSpace, stop_at: int) -> int:
-    """Number of allowed non-empty subsets, counting no further than ``stop_at``.
-
-    Examples
-    --------
-    >>> from featuresift.engine.evaluator import CriterionEvaluator
-    >>> from featuresift.costs import CostModel
-    >>> names = [f"x{i}" for i in range(20)]
-    >>> space = SearchSpace(CriterionEvaluator(len, 20), CostModel.uniform(names))
-    >>> count_allowed(space, 1000), count_allowed(SearchSpace(space.evaluator,
-    ...     CostModel.uniform(names), budget=1), 1000)
-    (1000, 20)
-    """
-    n = 0
-    for _ in iter_allowed(space):
-        n += 1
-        if n >= stop_at:
-            break
-    return n
 
 
 def neighbourhood(space: SearchSpace, subset: tuple[int, ...]) -> list[tuple[int, ...]]:
@@ -186,7 +129,7 @@ class GreedySwapSearch(SearchStrategy):
     >>> space = SearchSpace(ev, cm, budget=4)
     >>> GreedySwapSearch().run(space)
     >>> space.best_of(space.visited.values()).subset, space.stop_reason
-    ((0, 2), 'every allowed subset evaluated (4)')
+    ((0, 2), 'optimum over all 4 allowed subsets')
     """
 
     name = "greedy-swap"
@@ -195,19 +138,21 @@ class GreedySwapSearch(SearchStrategy):
         self.exhaustive_limit = check_int(exhaustive_limit, "exhaustive_limit", minimum=0)
 
     def run(self, space: SearchSpace) -> None:
-        n_allowed = count_allowed(space, self.exhaustive_limit + 1)
+        allowed = space.allowed_subsets()
+        n_allowed = allowed.count(limit=self.exhaustive_limit)
         if n_allowed == 0:
             space.stop_reason = "no allowed subset"
             return
         if n_allowed <= self.exhaustive_limit:
-            subsets = sorted(iter_allowed(space), key=lambda s: (len(s), s))
+            subsets = list(allowed)
             best = None
             for i in range(0, len(subsets), _BATCH):
                 best = space.best_of([*([best] if best else []),
                                       *space.evaluate(subsets[i:i + _BATCH])])
             assert best is not None
             space.record("best", best.subset)
-            space.stop_reason = f"every allowed subset evaluated ({n_allowed})"
+            space.extras["allowed_subsets"] = n_allowed
+            space.stop_reason = f"optimum over all {n_allowed} allowed subsets"
             return
         ForwardSelection(cost_rule="both").run(space)
         start = best_allowed(space)
