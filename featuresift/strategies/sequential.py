@@ -180,7 +180,9 @@ def forward_path(
         if not feats:
             return now, path, "no affordable feature left to add"
         moves = list(zip(feats, space.evaluate([current + (f,) for f in feats])))
-        if rule == "gain":
+        extra = {space.cost_model.marginal_cost(current, f) for f in feats}
+        if rule == "gain" or len(extra) == 1:
+            # With one marginal cost for all, gain per cost ranks exactly as gain does.
             f, best = best_step(space, moves)
         else:
             if now is None:  # gains of the first step are measured against nothing bought
