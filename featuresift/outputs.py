@@ -491,7 +491,7 @@ class RunFolder:
                 self._remove_stage(root_fd)
             # A journal this run created goes too (only after it was checked for links
             # under the lock: _journal_present is None before that).
-            if (failed and not interrupted and root_fd is not None
+            if (failed and not interrupted and not self.committed and root_fd is not None
                     and self.journal is not None and not self.journal_existed
                     and self._journal_present is not None):
                 for suffix in JOURNAL_SUFFIXES:
@@ -508,7 +508,7 @@ class RunFolder:
             if root_fd is not None:
                 os.close(root_fd)
                 self._root_fd = None
-            if failed:
+            if failed and not self.committed:
                 for p in reversed(self._created_dirs):
                     try:
                         os.rmdir(p)  # only when empty: another run's files stay

@@ -187,6 +187,10 @@ def test_second_run_into_a_busy_folder_fails_clearly_and_mixes_nothing(tmp_path,
     finally:
         holder.kill()
         holder.wait()
+    # A featuresift run holding the folder in this very process: refused the same way.
+    with RunFolder(root, "sweep"):
+        assert main(["run", str(path)]) == 2
+        assert f"pid {os.getpid()}" in capsys.readouterr().err
     # A killed holder never blocks the next run (the lock dies with its process); its
     # unfinished staging folder is left alone and numbered around.
     assert main(["run", str(path), "-q"]) == 0
