@@ -9,6 +9,7 @@ from typing import Any
 from featuresift._compat import renamed_keywords
 from featuresift.costs import CostModel, make_cost_model
 from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
+from featuresift.engine.progress import SearchProgress
 from featuresift.errors import InputError
 from featuresift.objectives import BaseObjective, make_objective
 from featuresift.problem import SelectionProblem
@@ -150,9 +151,13 @@ def run_search(
         Old names of ``costs``, ``seed`` and ``max_time_s`` (DeprecationWarning).
     callback : callable, optional
         ``callback(step)`` after each path step; returning True stops.
-    racing, journal, chunk_size, verbose, on_fit_error, share_preprocessing, fast_path : optional
+    verbose : int, default=0
+        Progress: 0 off; 1 one bar for the search (subsets evaluated, current step, best
+        score so far, time left) in a notebook or on a terminal, one line per step when
+        output is piped; 2 always the bar.
+    racing, journal, chunk_size, on_fit_error, share_preprocessing, fast_path : optional
         Passed to the :class:`CrossValidationEvaluator` built here (racing rule,
-        SQLite journal path for resumable runs, fits per parallel task, progress bar,
+        SQLite journal path for resumable runs, fits per parallel task,
         failure policy "raise" or "record", column-wise pipeline steps fitted once per
         fold, exact scores of OLS/ridge/LDA from per-fold statistics). Ignored when
         ``problem`` is an evaluator.
@@ -205,14 +210,14 @@ def run_search(
     if evaluator is None:
         evaluator = CrossValidationEvaluator(
             problem, n_jobs=n_jobs, racing=racing, journal=journal, chunk_size=chunk_size,
-            verbose=verbose, on_fit_error=on_fit_error, share_preprocessing=share_preprocessing,
-            fast_path=fast_path,
+            verbose=0, on_fit_error=on_fit_error, share_preprocessing=share_preprocessing,
+            fast_path=fast_path,  # progress: one bar for the whole search (below)
         )
     names = list(cost_model.feature_names)
     try:
         return _search(evaluator, strat, cost_model, names, budget, objective, max_features,
                        max_evaluations, max_time_s, must_include, never_include,
-                       seed, callback, pick, scoring, t0)
+                       seed, callback, pick, scoring, t0, verbose)
     finally:
         if owned:
             evaluator.close()  # closes a journal this call opened
@@ -220,7 +225,7 @@ def run_search(
 
 def _search(evaluator, strat, cost_model, names, budget, objective, max_features,
             max_evaluations, max_time_s, must_include, never_include, seed, callback,
-            pick, scoring, t0) -> SearchResult:
+            pick, scoring, t0, verbose=0) -> SearchResult:
     space = SearchSpace(
         evaluator,
         cost_model,
@@ -237,10 +242,16 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
     fits_before = evaluator.n_fits
     hits_before = evaluator.n_cache_hits
     limited = False
+    expected = getattr(strat, "expected_evaluations", None)
+    total = expected(space) if callable(expected) else None
+    space.progress = SearchProgress(verbose, total=total or max_evaluations,
+                                    max_time_s=max_time_s, desc=strat.name)
     try:
         strat.run(space)
     except StopSearch:
         limited = True
+    finally:
+        space.progress.close()
     best = _pick(space, pick)
     path = [
         PathRow(

@@ -1,9 +1,17 @@
-"""Progress bars for long evaluations (tqdm, notebook-aware), silent by default.
+"""Progress a person can follow: one bar per search (tqdm, notebook-aware).
 
-``verbose=0`` never shows a bar. ``verbose=1`` shows one only in an interactive
-session — a terminal on standard error, or a Jupyter kernel — so logs of batch jobs
-stay free of bar updates. ``verbose>=2`` forces the bar on. Bars appear only for
-batches that take longer than half a second and disappear when the batch ends.
+:class:`SearchProgress` is what :func:`featuresift.run_search` shows: **one bar for the
+whole search** with the subsets evaluated, the current step, the best score so far and
+the time left (when the search has a known size: an evaluation limit, or a strategy
+that says how many subsets it will evaluate; with a time limit, the time left of it).
+
+* ``verbose=0``: nothing.
+* ``verbose=1``: in a Jupyter kernel or on a terminal (standard error), the bar
+  (``tqdm.auto``: a widget in a notebook); when standard error is piped to a file or
+  a log, one quiet line per search step instead.
+* ``verbose>=2``: the bar, always.
+
+:func:`make_progress` is the per-batch bar of the evaluator used on its own.
 """
 
 from __future__ import annotations
@@ -11,7 +19,7 @@ from __future__ import annotations
 import sys
 from typing import Any
 
-__all__ = ["make_progress", "interactive"]
+__all__ = ["make_progress", "interactive", "SearchProgress"]
 
 
 def interactive() -> bool:
@@ -66,3 +74,105 @@ def make_progress(total: int, verbose: int, desc: str) -> Any:
     from tqdm.auto import tqdm
 
     return tqdm(total=total, desc=desc, unit="fit", leave=False, delay=0.5, dynamic_ncols=True)
+
+
+class SearchProgress:
+    """One progress display for a whole search.
+
+    Parameters
+    ----------
+    verbose : int
+        0: off; 1: a bar when interactive, else one line per step; 2 or more: a bar.
+    total : int, optional
+        Subsets the search will evaluate, when known (gives the time left).
+    max_time_s : float, optional
+        The search's time limit (gives the time left when ``total`` is unknown).
+    desc : str
+        Label (the strategy's name).
+    stream : file-like, optional
+        Where the step lines go (default standard error).
+
+    Examples
+    --------
+    >>> import io
+    >>> out = io.StringIO()
+    >>> bar = SearchProgress(1, desc="forward", stream=out, interactive_session=False)
+    >>> bar.evaluated(6, 0.91)
+    >>> bar.step(0, "add", "ph", 6)
+    >>> bar.close()
+    >>> print(out.getvalue().split(" — ")[0])
+    forward step 0: add ph
+    """
+
+    def __init__(self, verbose: int, total: int | None = None,
+                 max_time_s: float | None = None, desc: str = "search",
+                 stream: Any = None, interactive_session: bool | None = None) -> None:
+        import time
+
+        self.verbose = int(verbose)
+        self.total = total
+        self.max_time_s = max_time_s
+        self.desc = desc
+        self.stream = stream if stream is not None else sys.stderr
+        self.n = 0
+        self.best: float | None = None
+        self.last = ""
+        self._t0 = time.perf_counter()
+        live = interactive() if interactive_session is None else interactive_session
+        self.mode = ("off" if self.verbose <= 0 else
+                     "bar" if self.verbose >= 2 or live else "lines")
+        self._bar = None
+        if self.mode == "bar":
+            from tqdm.auto import tqdm
+
+            self._bar = tqdm(total=total, desc=desc, unit="subset", dynamic_ncols=True,
+                             leave=True)
+
+    def _elapsed(self) -> float:
+        import time
+
+        return time.perf_counter() - self._t0
+
+    def _left(self) -> str:
+        elapsed = self._elapsed()
+        if self.total and self.n:
+            return f"{elapsed / self.n * max(self.total - self.n, 0):.0f} s left"
+        if self.max_time_s is not None:
+            return f"at most {max(self.max_time_s - elapsed, 0):.0f} s left"
+        return "time left unknown"
+
+    def _postfix(self) -> str:
+        best = "-" if self.best is None else f"{self.best:.4f}"
+        return f"{self.last} best {best} in-search"
+
+    def evaluated(self, n_evaluations: int, best: float | None) -> None:
+        """Record the subsets evaluated so far and the best score so far."""
+        if self.mode == "off":
+            return
+        grew = n_evaluations - self.n
+        self.n = n_evaluations
+        if best is not None and (self.best is None or best > self.best):
+            self.best = best
+        if self._bar is not None and grew > 0:
+            self._bar.update(grew)
+            self._bar.set_postfix_str(self._postfix(), refresh=False)
+
+    def step(self, step: int, action: str, feature: str | None, n_features: int) -> None:
+        """Record a search step (a line of the quiet log when output is piped)."""
+        if self.mode == "off":
+            return
+        self.last = f"step {step}: {action}{' ' + feature if feature else ''} ({n_features})"
+        if self._bar is not None:
+            self._bar.set_postfix_str(self._postfix())
+        elif self.mode == "lines":
+            best = "-" if self.best is None else f"{self.best:.4f}"
+            print(f"{self.desc} step {step}: {action}{' ' + feature if feature else ''} — "
+                  f"{n_features} measurement(s), {self.n} subsets evaluated, best {best} "
+                  f"in-search, {self._elapsed():.1f} s, {self._left()}",
+                  file=self.stream, flush=True)
+
+    def close(self) -> None:
+        """Finish the display."""
+        if self._bar is not None:
+            self._bar.close()
+            self._bar = None

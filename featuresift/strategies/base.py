@@ -302,6 +302,7 @@ class SearchSpace:
         self.rng = np.random.default_rng(seed)
         self.seed = seed
         self.callback = callback
+        self.progress: Any = None  # a featuresift.engine.progress.SearchProgress, if shown
         self.path: list[PathStep] = []
         self.visited: dict[tuple[int, ...], Scored] = {}
         self.chosen: tuple[int, ...] | None = None
@@ -466,6 +467,9 @@ class SearchSpace:
                     self.n_evaluations += 1
                 self.visited[k] = sc
             out.append(sc)
+        if self.progress is not None:
+            done = [s.mean for s in out if s.complete]
+            self.progress.evaluated(self.n_evaluations, max(done) if done else None)
         return out
 
     def rank_key(self, scored: Scored) -> tuple:
@@ -496,6 +500,8 @@ class SearchSpace:
             key, scored, self.n_evaluations,
         )
         self.path.append(step)
+        if self.progress is not None:
+            self.progress.step(step.step, action, step.feature, len(key))
         if self.callback is not None and self.callback(step) is True:
             self.stop_reason = "stopped by callback"
             raise StopSearch(self.stop_reason)

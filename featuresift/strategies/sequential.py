@@ -395,6 +395,14 @@ class ForwardSelection(SearchStrategy):
         self.tol = tol
         self.cost_rule = cost_rule
 
+    def expected_evaluations(self, space: SearchSpace) -> int:
+        """An upper bound of the subsets evaluated (for progress: the time left)."""
+        m = len(space.free_candidates)
+        k = min(m, space.max_features - len(space.must_include))
+        if self.n_features is not None:
+            k = min(k, max(abs(self.n_features - len(space.must_include)), 1))
+        return sum(m - i for i in range(max(k, 0))) + 1
+
     def run(self, space: SearchSpace) -> None:
         start = tuple(space.must_include)
         if start:
@@ -470,6 +478,14 @@ class BackwardSelection(SearchStrategy):
         self.n_features = n_features
         self.tol = tol
         self.cost_rule = cost_rule
+
+    def expected_evaluations(self, space: SearchSpace) -> int:
+        """An upper bound of the subsets evaluated (for progress: the time left)."""
+        m = len(space.free_candidates)
+        k = min(m, space.max_features - len(space.must_include))
+        if self.n_features is not None:
+            k = min(k, max(abs(self.n_features - len(space.must_include)), 1))
+        return sum(m - i for i in range(max(k, 0))) + 1
 
     def run(self, space: SearchSpace) -> None:
         first: list[tuple[int, ...]] | None = None
