@@ -397,11 +397,7 @@ class ForwardSelection(SearchStrategy):
 
     def expected_evaluations(self, space: SearchSpace) -> int:
         """An upper bound of the subsets evaluated (for progress: the time left)."""
-        m = len(space.free_candidates)
-        k = min(m, space.max_features - len(space.must_include))
-        if self.n_features is not None:
-            k = min(k, max(abs(self.n_features - len(space.must_include)), 1))
-        return sum(m - i for i in range(max(k, 0))) + 1
+        return _at_most(space, self.n_features, self.cost_rule)
 
     def run(self, space: SearchSpace) -> None:
         start = tuple(space.must_include)
@@ -420,6 +416,16 @@ class ForwardSelection(SearchStrategy):
                 ends.append(end)
         space.stop_reason = "; ".join(dict.fromkeys(reasons))
         _answer(space, self.n_features, self.tol, ends)
+
+
+def _at_most(space: SearchSpace, n_features: int | None, cost_rule: str) -> int:
+    """Subsets a sequential search evaluates at most: one step per size, every path."""
+    m = len(space.free_candidates)
+    k = min(m, space.max_features - len(space.must_include))
+    if n_features is not None:
+        k = min(k, max(abs(n_features - len(space.must_include)), 1))
+    n_paths = 2 if cost_rule == "both" else 1
+    return n_paths * sum(m - i for i in range(max(k, 0))) + 1
 
 
 def _answer(space: SearchSpace, n_features: int | None, tol: float | None,
@@ -481,11 +487,7 @@ class BackwardSelection(SearchStrategy):
 
     def expected_evaluations(self, space: SearchSpace) -> int:
         """An upper bound of the subsets evaluated (for progress: the time left)."""
-        m = len(space.free_candidates)
-        k = min(m, space.max_features - len(space.must_include))
-        if self.n_features is not None:
-            k = min(k, max(abs(self.n_features - len(space.must_include)), 1))
-        return sum(m - i for i in range(max(k, 0))) + 1
+        return _at_most(space, self.n_features, self.cost_rule)
 
     def run(self, space: SearchSpace) -> None:
         first: list[tuple[int, ...]] | None = None
