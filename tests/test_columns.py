@@ -138,3 +138,26 @@ def test_yaml_categorical_columns_with_one_hot_match_python(tmp_path, lab):
     config["model"]["preprocessing"] = ["scale"]
     (tmp_path / "bad.yaml").write_text(yaml.safe_dump(config), encoding="utf-8")
     assert main(["validate", str(tmp_path / "bad.yaml")]) == 2
+
+
+def test_relevance_scores_categorical_columns_by_contingency_table(lab):
+    from scipy.stats import chi2_contingency
+
+    from featuresift.filters import relevance_scores
+
+    frame, y = lab
+    X = frame[["ph", "grade", "site"]].copy()
+    X.loc[X.index[::11], "grade"] = np.nan  # a missing category is left out of the table
+    rel = relevance_scores(X, y, "anova_f")
+    for j, col in ((1, "grade"), (2, "site")):
+        keep = X[col].notna().to_numpy()
+        table = pd.crosstab(X[col][keep].astype(str), y[keep]).to_numpy()
+        # Reference: scipy's test of independence, without the continuity correction.
+        stat, p, _, _ = chi2_contingency(table, correction=False)
+        assert rel.scores[j] == pytest.approx(stat, rel=1e-12)
+        assert rel.pvalues[j] == pytest.approx(p, rel=1e-9)
+    # The numeric column keeps the scorer's own statistic (ANOVA F, scikit-learn's f_classif).
+    from sklearn.feature_selection import f_classif
+
+    assert rel.scores[0] == pytest.approx(f_classif(X[["ph"]], y)[0][0], rel=1e-10)
+    assert rel.pvalues[1] < 1e-6 < rel.pvalues[2]  # grade decides y, site does not

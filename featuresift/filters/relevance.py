@@ -717,6 +717,7 @@ def relevance_scores(
     2
     """
     Xa, ya, _ = check_xy(X, y)
+    categorical = _categorical_columns(X)
     name, spec_opts = _split_spec(scorer)
     opts = {**spec_opts, **options}
     task = infer_task(ya, task)
@@ -750,4 +751,45 @@ def relevance_scores(
     if scores.shape != (p,) or (pvalues is not None and pvalues.shape != (p,)):
         raise InputError(f"relevance scorer '{label}' returned {scores.shape[0]} scores for "
                          f"{p} columns")
+    for j in categorical:  # categories have no order or scale: a contingency table
+        scores[j], pj = categorical_chi_square(Xa[:, j], ya, task)
+        if pvalues is not None:
+            pvalues[j] = pj
     return Relevance(scores, pvalues, label, task)
+
+
+def _categorical_columns(X: Any) -> list[int]:
+    """Positions of a DataFrame's category and text columns (none for arrays)."""
+    if not (hasattr(X, "dtypes") and hasattr(X, "columns")):
+        return []
+    from featuresift.columns import encode_frame
+
+    return [j for j, spec in enumerate(encode_frame(X.iloc[:1])[1]) if spec.kind != "numeric"]
+
+
+def categorical_chi_square(codes: np.ndarray, y: np.ndarray, task: str,
+                           n_bins: int = 5) -> tuple[float, float]:
+    """Pearson chi-square of a categorical column (codes, NaN missing) against ``y``.
+
+    The table is category x class (for a numeric target, category x quantile bin of
+    ``y``, ``n_bins`` bins); rows with a missing category are left out, no continuity
+    correction. Returns the statistic and its p-value.
+
+    Examples
+    --------
+    >>> codes, labels = np.array([0, 0, 1, 1, 1, 0.]), np.array([0, 0, 1, 1, 1, 1])
+    >>> stat, p = categorical_chi_square(codes, labels, "classification")
+    >>> round(stat, 4)
+    3.0
+    """
+    ok = ~np.isnan(codes)
+    levels = codes[ok].astype(int)
+    target = y[ok]
+    if task == "regression":
+        target = discretize_matrix(np.asarray(target, dtype=float)[:, None], n_bins,
+                                   DEFAULT_MAX_LEVELS)[:, 0]
+    labels, tcodes = np.unique(target, return_inverse=True)
+    table = np.zeros((int(levels.max()) + 1 if levels.size else 1, labels.size))
+    np.add.at(table, (levels, tcodes), 1.0)
+    stat, p, _ = pearson_chi_square_table(table)
+    return stat, p
