@@ -188,10 +188,14 @@ def result_html(res: Any) -> str:
         _p("Score: " + score_text(res.score_mean, res.scoring, "in-search",
                                   _sem(res.score_std, len(res.fold_scores)))),
     ]
+    guard = getattr(res, "guard", None) or {}
+    if isinstance(guard, Mapping) and guard.get("nested_mean") is not None:
+        parts.append(_p("Noise guard, the search re-run on outer folds: " + score_text(
+            guard["nested_mean"], res.scoring, "nested")))
     refs = references_of(res)
     if refs:
         parts.append(_table(
-            ["reference", f"cost ({u})", "score"],
+            ["reference", f"cost ({u})", f"score ({score_kind_label('in-search')})"],
             [(name, _money(cost) if cost is not None else "-", _f(score))
              for name, cost, score in refs],
             caption="Beside the references",

@@ -141,3 +141,20 @@ def test_plots_return_axes_and_keep_the_backend(objects, tmp_path):
         plt.close("all")
     finally:
         matplotlib.use(before)
+
+
+def test_html_shows_the_references_beside_the_answer(objects):
+    import copy
+
+    res = copy.copy(objects["result"])
+    refs = {"nothing": {"cost": 0.0, "score_mean": 0.3333},
+            "free only": {"cost": 0.0, "score_mean": 0.5467},
+            "everything": {"cost": 4.0, "score_mean": 0.9533}}
+    if hasattr(res, "references"):
+        res.references = refs
+    else:
+        res.extras = {**res.extras, "references": refs}
+    html = res._repr_html_()
+    assert "Beside the references" in html
+    for name, ref in refs.items():
+        assert f"<td>{name}</td>" in html and f"{ref['score_mean']:.4f}" in html
