@@ -42,7 +42,22 @@ class InputError(ValueError):
 
 
 class FitFailedError(RuntimeError):
-    """A model fit failed while the failure policy was ``"raise"``.
+    """A model fit or its score failed while the failure policy was ``"raise"``.
+
+    A score that is NaN or infinite (an undefined metric, such as ROC AUC on a test
+    fold holding one class) is a failure too. The message names the subset (by feature
+    names when the evaluator knows them) and the fold.
+
+    Parameters
+    ----------
+    message : str
+        What failed, where.
+    subset : tuple of int, optional
+        Column indices of the subset whose fit failed.
+    fold : int, optional
+        0-based index of the CV fold.
+    reason : str, optional
+        The underlying error (``"ValueError: ..."``) without the place.
 
     Examples
     --------
@@ -56,6 +71,16 @@ class FitFailedError(RuntimeError):
     >>> try:
     ...     ev.evaluate([[0]])
     ... except FitFailedError as exc:
-    ...     print(str(exc).split(":")[0])
-    fit failed on subset [0], fold 0
+    ...     print(str(exc).split(":")[0], exc.subset, exc.fold)
+    fit failed on subset [x0], fold 0 of 2 (0-based) (0,) 0
     """
+
+    def __init__(self, message: str, subset: tuple[int, ...] | None = None,
+                 fold: int | None = None, reason: str | None = None) -> None:
+        super().__init__(message)
+        self.subset = None if subset is None else tuple(subset)
+        self.fold = fold
+        self.reason = reason
+
+    def __reduce__(self):  # keep the place when the error crosses a process boundary
+        return (type(self), (str(self), self.subset, self.fold, self.reason))

@@ -52,7 +52,7 @@ from featuresift.search import prepare_for_objective, run_search
 __all__ = ["Frontier", "budget_sweep", "default_budgets", "round_budgets", "efficient_points"]
 
 _ENGINE_OPTIONS = ("racing", "journal", "chunk_size", "verbose", "on_fit_error",
-                   "share_preprocessing", "fast_path")
+                   "share_preprocessing", "fast_path", "error_score")
 _COST_TOL = 1e-9
 SCORE_KIND = "in-search"
 """What the sweep's scores are: the search's own CV estimates (optimistic)."""
@@ -401,6 +401,7 @@ class Frontier:
                 "headline": i == head,
                 "best": i == best,
                 "n_evaluations": r.n_evaluations,
+                "n_failed_fits": int(r.failures.get("n_failed_fits", 0)),
             })
         return pd.DataFrame(rows)
 
@@ -760,7 +761,7 @@ def budget_sweep(
         An evaluator to share; default a new :class:`CrossValidationEvaluator` built
         with the engine options found in ``search_options`` (``racing``, ``journal``,
         ``chunk_size``, ``verbose``, ``on_fit_error``, ``share_preprocessing``,
-        ``fast_path``).
+        ``fast_path``, ``error_score``).
     **search_options
         Passed to :func:`featuresift.run_search` (objective, pick, limits, strategy
         options...). The noise guard (``guard``) is not run per budget: it is applied

@@ -43,6 +43,31 @@ def _table(header: list[str], rows: list[list[Any]]) -> list[str]:
     return out
 
 
+def _failure_section(result: SearchResult, limit: int = 20) -> list[str]:
+    """The "Failed fits" section: counts, and which subsets and folds failed."""
+    info = result.failures
+    if not info or not info.get("n_failed_fits"):
+        return []
+    lines = ["## Failed fits", "", f"{info['message']}.", ""]
+    if result.failed_folds:
+        lines += [f"The chosen subset failed on folds "
+                  f"{', '.join(str(f) for f in result.failed_folds)} (0-based); they count "
+                  f"as error_score = {info.get('error_score')}.", ""]
+    listed = info.get("subsets", [])[:limit]
+    lines += _table(
+        ["measurements", "failed folds", "score", "first error"],
+        [[" + ".join(item["features"]) or "(nothing)",
+          f"{', '.join(str(f) for f in item['failed_folds'])} of {item['n_folds']}",
+          "error_score" if item["scored"] else "none (not chosen)",
+          " ".join((item.get("errors") or ["—"])[0].split()).replace("|", "/")[:200]]
+         for item in listed],
+    )
+    if info.get("n_subsets", 0) > len(listed):
+        lines += ["", f"... and {info['n_subsets'] - len(listed)} more subsets with failed "
+                  "folds (see result.json)."]
+    return lines + [""]
+
+
 def render_report(
     result: SearchResult,
     *,
@@ -117,12 +142,15 @@ def render_report(
         *(["", reused] if frontier is None
           and (reused := reuse_message(result.extras.get("engine"))) else []),
         "",
-        "## Search path",
-        "",
     ]
+    lines += _failure_section(result)
+    lines += ["## Search path", ""]
+    show_failed = any(r.n_failed_folds for r in result.path)
     lines += _table(
-        ["step", "action", "measurement", "size", "score", f"cost ({u})"],
+        ["step", "action", "measurement", "size", "score", f"cost ({u})"]
+        + (["failed folds"] if show_failed else []),
         [[r.step, r.action, r.feature or "—", len(r.features), _f(r.score_mean), _f(r.cost, 2)]
+         + ([r.n_failed_folds] if show_failed else [])
          for r in result.path],
     )
     if nested is not None:

@@ -63,6 +63,9 @@ class PathRow:
     step, action, feature, features, n_features, score_mean, score_std, cost, objective,
     n_evaluations
         See :class:`featuresift.strategies.base.PathStep`.
+    n_failed_folds : int
+        Folds of this step's subset whose fit or score failed (its score is then NaN,
+        or counts the ``error_score``).
 
     Examples
     --------
@@ -84,6 +87,7 @@ class PathRow:
     cost: float
     objective: float
     n_evaluations: int
+    n_failed_folds: int = 0
 
 
 @dataclass(frozen=True)
@@ -103,7 +107,10 @@ class EvaluatedSubset:
     n_folds : int
         Folds scored (fewer than the CV's when racing dropped it).
     status : str
-        ``"complete"``, ``"dropped"`` (racing) or ``"failed"``.
+        ``"complete"``, ``"dropped"`` (racing) or ``"failed"`` (a failed fold and no
+        ``error_score``: no score, never chosen).
+    n_failed_folds : int
+        Folds whose fit or score failed (not the folds racing skipped).
 
     Examples
     --------
@@ -123,10 +130,24 @@ class EvaluatedSubset:
     objective: float
     n_folds: int
     status: str
+    n_failed_folds: int = 0
 
 
 def _num(x: float) -> float | None:
     return None if x is None or (isinstance(x, float) and not math.isfinite(x)) else x
+
+
+def _json_safe(value: Any) -> Any:
+    """``value`` with every NaN or infinite float replaced by None (strict JSON)."""
+    if isinstance(value, float):
+        return _num(value)
+    if isinstance(value, dict):
+        return {k: _json_safe(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_json_safe(v) for v in value]
+    if type(value).__module__ == "numpy" and hasattr(value, "item"):
+        return _json_safe(value.item())
+    return value
 
 
 @dataclass
@@ -150,7 +171,7 @@ class SearchResult:
     score_mean, score_std : float
         Mean and sample standard deviation (ddof=1) of the CV scores of the subset.
     fold_scores : list of float
-        Score on each CV split.
+        Score on each CV split (a failed fold holds the ``error_score`` it was given).
     scoring : str
         Name of the scorer.
     objective : dict
@@ -176,6 +197,12 @@ class SearchResult:
     evaluations : list of EvaluatedSubset
         Every subset the search evaluated, in the order first asked for (see
         :meth:`evaluations_frame`).
+    failed_folds : list of int
+        Folds of the chosen subset whose fit or score failed (only possible with a
+        numeric ``error_score``, which they were given).
+    failures : dict
+        Empty when no fit failed; else the counts and the subsets with failed folds
+        (see :func:`featuresift.search.failure_summary`).
 
     Notes
     -----
@@ -222,6 +249,8 @@ class SearchResult:
     extras: dict[str, Any] = field(default_factory=dict)
     evaluations: list[EvaluatedSubset] = field(default_factory=list, repr=False)
     seed: int | None = 0
+    failed_folds: list[int] = field(default_factory=list)
+    failures: dict[str, Any] = field(default_factory=dict)
 
     # ------------------------------------------------------------- conversion
     def to_dict(self) -> dict:
@@ -241,15 +270,17 @@ class SearchResult:
                 "mean": _num(self.score_mean),
                 "std": _num(self.score_std),
                 "folds": [_num(s) for s in self.fold_scores],
+                "failed_folds": list(self.failed_folds),
             },
-            "objective": self.objective,
-            "strategy": self.strategy,
+            "objective": _json_safe(self.objective),
+            "strategy": _json_safe(self.strategy),
             "path": [
                 {
                     "step": r.step, "action": r.action, "feature": r.feature,
                     "features": list(r.features), "score_mean": _num(r.score_mean),
                     "score_std": _num(r.score_std), "cost": r.cost,
                     "objective": _num(r.objective), "n_evaluations": r.n_evaluations,
+                    "n_failed_folds": r.n_failed_folds,
                 }
                 for r in self.path
             ],
@@ -260,11 +291,13 @@ class SearchResult:
             "stop_reason": self.stop_reason,
             "success": self.success,
             "seed": self.seed,
-            **({"extras": self.extras} if self.extras else {}),
+            "failures": _json_safe(self.failures) if self.failures else {"n_failed_fits": 0},
+            **({"extras": _json_safe(self.extras)} if self.extras else {}),
             "evaluations": [
                 {"features": list(e.features), "cost": e.cost,
                  "score_mean": _num(e.score_mean), "score_sem": _num(e.score_sem),
-                 "objective": _num(e.objective), "n_folds": e.n_folds, "status": e.status}
+                 "objective": _num(e.objective), "n_folds": e.n_folds, "status": e.status,
+                 "n_failed_folds": e.n_failed_folds}
                 for e in self.evaluations
             ],
         }
@@ -289,6 +322,7 @@ class SearchResult:
             "selected", "support", "cost", "cost_unit", "cost_breakdown", "budget", "score",
             "objective", "strategy", "path", "n_evaluations", "n_fits", "n_cache_hits",
             "wall_time_s", "stop_reason", "success", "extras", "evaluations", "seed",
+            "failures",
         }
         unknown = sorted(set(d) - known)
         if unknown:
@@ -306,13 +340,16 @@ class SearchResult:
             score_mean=_nan(score.get("mean")),
             score_std=_nan(score.get("std")),
             fold_scores=[_nan(v) for v in score.get("folds", [])],
+            failed_folds=[int(f) for f in score.get("failed_folds", [])],
+            failures=({} if not (d.get("failures") or {}).get("n_failed_fits")
+                      else dict(d["failures"])),
             scoring=score.get("scoring", ""),
             objective=d.get("objective", {}),
             strategy=d.get("strategy", {}),
             path=[
                 PathRow(r["step"], r["action"], r["feature"], tuple(r["features"]),
                         _nan(r["score_mean"]), _nan(r["score_std"]), r["cost"],
-                        _nan(r["objective"]), r["n_evaluations"])
+                        _nan(r["objective"]), r["n_evaluations"], r.get("n_failed_folds", 0))
                 for r in d.get("path", [])
             ],
             n_evaluations=int(d.get("n_evaluations", 0)),
@@ -326,7 +363,7 @@ class SearchResult:
             evaluations=[
                 EvaluatedSubset(tuple(e["features"]), e["cost"], _nan(e["score_mean"]),
                                 _nan(e["score_sem"]), _nan(e["objective"]), e["n_folds"],
-                                e["status"])
+                                e["status"], e.get("n_failed_folds", 0))
                 for e in d.get("evaluations", [])
             ],
         )
@@ -362,15 +399,16 @@ class SearchResult:
             r["features"] = tuple(r["features"])
             r["n_features"] = len(r["features"])
         cols = ["step", "action", "feature", "n_features", "features", "score_mean",
-                "score_std", "cost", "objective", "n_evaluations"]
+                "score_std", "cost", "objective", "n_evaluations", "n_failed_folds"]
         return pd.DataFrame(rows, columns=cols)
 
     def evaluations_frame(self):
         """Every evaluated subset as a DataFrame, best objective first.
 
         Columns: ``features`` (tuple of names), ``n``, ``cost``, ``mean``, ``se``
-        (standard error over the folds), ``objective``, ``n_folds``, ``status``. The
-        scores are in-search estimates (optimistic for the best rows).
+        (standard error over the folds), ``objective``, ``n_folds``, ``status``,
+        ``n_failed_folds``. The scores are in-search estimates (optimistic for the best
+        rows); a ``"failed"`` row has no score.
 
         Examples
         --------
@@ -389,10 +427,11 @@ class SearchResult:
         rows = [
             {"features": e.features, "n": len(e.features), "cost": e.cost,
              "mean": e.score_mean, "se": e.score_sem, "objective": e.objective,
-             "n_folds": e.n_folds, "status": e.status}
+             "n_folds": e.n_folds, "status": e.status, "n_failed_folds": e.n_failed_folds}
             for e in self.evaluations
         ]
-        cols = ["features", "n", "cost", "mean", "se", "objective", "n_folds", "status"]
+        cols = ["features", "n", "cost", "mean", "se", "objective", "n_folds", "status",
+                "n_failed_folds"]
         frame = pd.DataFrame(rows, columns=cols)
         if len(frame):
             frame = frame.sort_values(["objective", "cost", "n"],
@@ -431,11 +470,11 @@ class SearchResult:
         )
         files["path.csv"] = _csv(
             ["step", "action", "feature", "n_features", "features", "score_mean",
-             "score_std", "cost", "objective", "n_evaluations"],
+             "score_std", "cost", "objective", "n_evaluations", "n_failed_folds"],
             [
                 [r.step, r.action, r.feature or "", len(r.features), " + ".join(r.features),
                  _fmt(r.score_mean), _fmt(r.score_std), _fmt(r.cost), _fmt(r.objective),
-                 r.n_evaluations]
+                 r.n_evaluations, r.n_failed_folds]
                 for r in self.path
             ],
         )
@@ -476,24 +515,72 @@ class SearchResult:
         lines.append(f"  {'TOTAL per sample':<{width}}  {self.cost:>10.2f} {u}")
         lines.append("")
         folds = ", ".join(f"{s:.4f}" for s in self.fold_scores)
-        lines.append(f"CV {self.scoring}: {self.score_mean:.4f} ± {self.score_std:.4f} "
-                     f"(sample std over {len(self.fold_scores)} folds)")
-        lines.append(f"  per fold: {folds}")
+        if self.fold_scores:
+            lines.append(f"CV {self.scoring}: {self.score_mean:.4f} ± {self.score_std:.4f} "
+                         f"(sample std over {len(self.fold_scores)} folds)")
+            lines.append(f"  per fold: {folds}")
+        else:
+            lines.append(f"CV {self.scoring}: no score (no subset was chosen)")
+        if self.failed_folds:
+            lines.append(
+                f"  {len(self.failed_folds)} of {len(self.fold_scores)} folds FAILED "
+                f"(fold {', '.join(str(f) for f in self.failed_folds)}, 0-based) and count "
+                f"as error_score={self.failures.get('error_score')}")
         lines.append("")
         lines.append("Path:")
+        show_failed = any(r.n_failed_folds for r in self.path)
         lines.append(f"  {'step':>4}  {'action':<8} {'feature':<24} {'n':>3} "
-                     f"{'score':>8} {'cost':>9}")
+                     f"{'score':>8} {'cost':>9}" + ("  failed folds" if show_failed else ""))
         for r in self.path:
             lines.append(
                 f"  {r.step:>4}  {r.action:<8} {(r.feature or '-'):<24} {len(r.features):>3} "
                 f"{r.score_mean:>8.4f} {r.cost:>9.2f}"
+                + (f"  {r.n_failed_folds:>12}" if show_failed else "")
             )
         lines.append("")
         lines.append(
             f"{self.n_evaluations} subsets evaluated, {self.n_fits} model fits, "
             f"{self.wall_time:.2f} s; stopped: {self.stop_reason}"
         )
+        lines += self.failure_lines()
         return "\n".join(lines)
+
+    def failure_lines(self, limit: int = 5) -> list[str]:
+        """Readable lines on the fits that failed: how many, in which subsets and folds.
+
+        Empty when nothing failed.
+
+        Examples
+        --------
+        >>> r = SearchResult([], [], 0.0, "EUR", [], None, float("nan"), float("nan"), [],
+        ...                  "accuracy", {}, {}, [], 1, 5, 0, 0.1, "done", False,
+        ...                  failures={"n_failed_fits": 2, "message": "2 fits failed",
+        ...                            "n_subsets": 1, "subsets": [{"features": ["ph"],
+        ...                            "failed_folds": [0, 3], "n_folds": 5,
+        ...                            "errors": ["ValueError: boom"], "scored": False}]})
+        >>> print("\\n".join(r.failure_lines()))
+        <BLANKLINE>
+        Failed fits: 2 fits failed
+          ph: fold 0, 3 of 5 failed (no score): ValueError: boom
+        """
+        info = self.failures
+        if not info or not info.get("n_failed_fits"):
+            return []
+        lines = ["", f"Failed fits: {info.get('message', '')}"]
+        for item in info.get("subsets", [])[:limit]:
+            errors = item.get("errors") or ["failed"]
+            folds = ", ".join(str(f) for f in item["failed_folds"])
+            how = "scored with error_score" if item["scored"] else "no score"
+            extra = f" (+{len(errors) - 1} other errors)" if len(errors) > 1 else ""
+            lines.append(
+                f"  {' + '.join(item['features']) or '(nothing)'}: fold {folds} of "
+                f"{item['n_folds']} failed ({how}): {' '.join(errors[0].split())[:200]}{extra}"
+            )
+        more = info.get("n_subsets", 0) - min(limit, len(info.get("subsets", [])))
+        if more > 0:
+            lines.append(f"  ... and {more} more subsets (result.json lists up to "
+                         f"{len(info.get('subsets', []))})")
+        return lines
 
     def __str__(self) -> str:
         return self.summary()

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 import time
 from collections.abc import Callable, Iterable
 from typing import Any
@@ -22,7 +23,7 @@ from featuresift.strategies.base import (
     make_strategy,
 )
 
-__all__ = ["run_search", "prepare_for_objective", "PICK_RULES"]
+__all__ = ["run_search", "prepare_for_objective", "failure_summary", "PICK_RULES"]
 
 PICK_RULES = ("best", "one_se")
 """Final pick rules: the best subset found, or the cheapest within one standard error of it."""
@@ -45,9 +46,12 @@ def _resolve_features(items: Iterable[int | str], names: list[str], key: str) ->
 
 
 def _pick(space: SearchSpace, rule: str) -> Scored | None:
-    allowed = [s for s in space.visited.values() if s.complete and space.is_allowed(s.subset)]
-    if space.chosen is not None and space.chosen in space.visited:
-        base = space.visited[space.chosen]
+    # A subset with a failed fold and no error_score has no score: never picked.
+    allowed = [s for s in space.visited.values()
+               if s.complete and s.evaluation.has_score and space.is_allowed(s.subset)]
+    chosen = space.visited.get(space.chosen) if space.chosen is not None else None
+    if chosen is not None and chosen.complete and chosen.evaluation.has_score:
+        base = chosen
     else:
         base = space.best_of(allowed)
     if base is None or rule == "best":
@@ -115,6 +119,7 @@ def run_search(
     on_fit_error: str = "raise",
     share_preprocessing: bool = True,
     fast_path: bool = True,
+    error_score: float = math.nan,
     **strategy_options: Any,
 ) -> SearchResult:
     """Search feature subsets and return the chosen measurements.
@@ -161,6 +166,11 @@ def run_search(
         failure policy "raise" or "record", column-wise pipeline steps fitted once per
         fold, exact scores of OLS/ridge/LDA from per-fold statistics). Ignored when
         ``problem`` is an evaluator.
+    error_score : float, default=nan
+        Under ``on_fit_error="record"``, what a failed fold scores (scikit-learn's
+        convention). NaN: a subset with any failed fold (fit error, scorer error, NaN
+        score) has no score and is never chosen; a number: failed folds count as that
+        score. The failures are counted per subset in ``result.failures``.
 
     Returns
     -------
@@ -212,6 +222,7 @@ def run_search(
             problem, n_jobs=n_jobs, racing=racing, journal=journal, chunk_size=chunk_size,
             verbose=0, on_fit_error=on_fit_error, share_preprocessing=share_preprocessing,
             fast_path=fast_path,  # progress: one bar for the whole search (below)
+            error_score=error_score,
         )
     names = list(cost_model.feature_names)
     try:
@@ -257,21 +268,25 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
         PathRow(
             st.step, st.action, st.feature, tuple(names[i] for i in st.subset),
             st.scored.mean, st.scored.evaluation.std, st.scored.cost, st.scored.value,
-            st.n_evaluations,
+            st.n_evaluations, st.scored.evaluation.n_failed_folds,
         )
         for st in space.path
     ]
+    failures = failure_summary(space, evaluator)
     strategy_desc = {"name": strat.name, "options": strat.get_options()}
     evaluations = [
         EvaluatedSubset(tuple(names[i] for i in key), sc.cost, sc.mean, sc.evaluation.sem,
                         sc.value, sc.evaluation.n_folds_run or len(sc.evaluation.fold_scores),
-                        sc.evaluation.status)
+                        sc.evaluation.status, sc.evaluation.n_failed_folds)
         for key, sc in space.visited.items()
     ]
     extras = dict(space.extras)
     if isinstance(evaluator, CrossValidationEvaluator):
         extras["engine"] = evaluator.stats()
     if best is None:
+        reason = space.stop_reason or "no allowed subset was evaluated"
+        if failures.get("none_scored"):
+            reason = failures["message"]
         return SearchResult(
             selected=[], support=[], cost=0.0, cost_unit=cost_model.unit, cost_breakdown=[],
             budget=budget, score_mean=float("nan"), score_std=float("nan"), fold_scores=[],
@@ -280,8 +295,8 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
             n_fits=evaluator.n_fits - fits_before,
             n_cache_hits=evaluator.n_cache_hits - hits_before,
             wall_time=time.perf_counter() - t0,
-            stop_reason=space.stop_reason or "no allowed subset was evaluated", success=False,
-            extras=extras, evaluations=evaluations, seed=seed,
+            stop_reason=reason, success=False, extras=extras, failures=failures,
+            evaluations=evaluations, seed=seed,
         )
     ev = best.evaluation
     return SearchResult(
@@ -307,4 +322,79 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
         extras=extras,
         evaluations=evaluations,
         seed=seed,
+        failed_folds=list(ev.failed_folds),
+        failures=failures,
     )
+
+
+FAILURES_LISTED = 50
+"""At most this many subsets with failed folds are listed one by one in a result."""
+
+
+def failure_summary(space: SearchSpace, evaluator: BaseEvaluator) -> dict[str, Any]:
+    """Which evaluated subsets had failed folds, and what the failures did.
+
+    Returns an empty dict when nothing failed. Otherwise: ``n_failed_fits`` (failed
+    folds over the subsets this search evaluated), ``n_subsets`` (subsets with at least
+    one failed fold), ``n_unscored`` (those left without a score, never chosen),
+    ``n_evaluated``, ``error_score`` (None for NaN), ``none_scored`` (True when no
+    evaluated subset has a score), ``message`` (one readable line) and ``subsets``:
+    up to :data:`FAILURES_LISTED` entries ``{"features", "failed_folds", "n_folds",
+    "errors", "scored"}``, most failed folds first. Racing-dropped evaluations are not
+    failures.
+
+    Examples
+    --------
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
+    >>> from featuresift.costs import CostModel
+    >>> ev = CriterionEvaluator(lambda s: float("nan") if 2 in s else 1.0, n_features=3)
+    >>> space = SearchSpace(ev, CostModel.uniform("abc"))
+    >>> _ = space.evaluate([[0], [2]])
+    >>> info = failure_summary(space, ev)
+    >>> info["n_subsets"], info["subsets"][0]["features"], info["none_scored"]
+    (1, ['c'], False)
+    """
+    names = space.feature_names
+    failed = [sc.evaluation for sc in space.visited.values() if sc.evaluation.n_failed_folds]
+    if not failed:
+        return {}
+    error_score = getattr(evaluator, "error_score", math.nan)
+    unscored = [e for e in failed if not e.has_score]
+    none_scored = not any(
+        sc.complete and sc.evaluation.has_score for sc in space.visited.values())
+    failed.sort(key=lambda e: (-e.n_failed_folds, e.subset))
+    first = failed[0]
+    n_folds = len(first.fold_scores)
+    n_fits = sum(e.n_failed_folds for e in failed)
+    what = (f"{n_fits} fits failed in {len(failed)} of {len(space.visited)} evaluated "
+            f"subsets")
+    if none_scored:
+        errors = first.details.get("errors", [])
+        message = (
+            f"no subset could be scored: {what}, and no evaluated subset has a score on "
+            f"every fold (e.g. [{', '.join(names[i] for i in first.subset)}]: "
+            f"{errors[0] if errors else 'failed'})"
+        )
+    elif math.isnan(error_score):
+        message = f"{what}; those {len(unscored)} subsets have no score and were not chosen"
+    else:
+        message = f"{what}; their failed folds were scored error_score={error_score:g}"
+    return {
+        "n_failed_fits": n_fits,
+        "n_subsets": len(failed),
+        "n_unscored": len(unscored),
+        "n_evaluated": len(space.visited),
+        "error_score": None if math.isnan(error_score) else error_score,
+        "none_scored": none_scored,
+        "message": message,
+        "subsets": [
+            {
+                "features": [names[i] for i in e.subset],
+                "failed_folds": list(e.failed_folds),
+                "n_folds": n_folds,
+                "errors": list(e.details.get("errors", [])),
+                "scored": e.has_score,
+            }
+            for e in failed[:FAILURES_LISTED]
+        ],
+    }

@@ -23,7 +23,7 @@ from sklearn.utils.validation import check_is_fitted, validate_data
 from featuresift._compat import warn_renamed
 from featuresift.columns import needs_frame
 from featuresift.costs import CostModel, make_cost_model
-from featuresift.errors import InputError
+from featuresift.errors import FitFailedError, InputError
 from featuresift.problem import SelectionProblem
 from featuresift.search import run_search
 
@@ -112,6 +112,13 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
     verbose : int, default=0
         0: silent; 1: a progress bar in a notebook or on a terminal, a one-line-per-step
         log when output is piped; 2: always a bar.
+    on_fit_error : {"raise", "record"}, default="raise"
+        Stop at the first failing fit or NaN score, or record the fold as failed and go
+        on (see :class:`~featuresift.engine.evaluator.CrossValidationEvaluator`).
+    error_score : float, default=nan
+        Under ``"record"``, the score of a failed fold (scikit-learn's convention). NaN:
+        a subset with a failed fold is never chosen. ``fit`` raises
+        :class:`~featuresift.errors.FitFailedError` when no subset could be scored.
     panels, cost_unit, strategy_options, random_state : deprecated
         Old spellings: give panels and unit inside ``costs``, options inside
         ``strategy``, and ``seed``. They still work, with a DeprecationWarning.
@@ -173,6 +180,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         seed: int | None = 0,
         n_jobs: int | None = None,
         verbose: int = 0,
+        on_fit_error: str = "raise",
+        error_score: float = np.nan,
         panels: Mapping[str, Any] | None = None,
         cost_unit: str | None = None,
         strategy_options: Mapping[str, Any] | None = None,
@@ -196,6 +205,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         self.n_jobs = n_jobs
         self.verbose = verbose
         self.random_state = random_state
+        self.on_fit_error = on_fit_error
+        self.error_score = error_score
 
     def fit(self, X: Any, y: Any, groups: Any = None) -> MeasurementSelector:
         """Search for the best affordable subset of the columns of ``X``.
@@ -269,8 +280,12 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
             seed=seed,
             n_jobs=self.n_jobs,
             verbose=self.verbose,
+            on_fit_error=self.on_fit_error,
+            error_score=self.error_score,
             **options,
         )
+        if result.failures.get("none_scored"):
+            raise FitFailedError(result.failures["message"])
         support = np.zeros(X.shape[1], dtype=bool)
         support[list(result.support)] = True
         self.support_ = support

@@ -76,6 +76,8 @@ def test_racing_flag_records_the_rule(tmp_path):
         ({"journal": "../escape.sqlite"}, "engine.journal", "plain file name"),
         ({"racing": "fast"}, "engine.racing", "f-race"),
         ({"on_fit_error": "ignore"}, "engine.on_fit_error", "record"),
+        ({"error_score": "zero"}, "engine.error_score", "number or nan"),
+        ({"error_score": float("inf")}, "engine.error_score", "finite"),
         ({"chunk_size": 0}, "engine.chunk_size", ">= 1"),
         ({"share_preprocessing": "yes"}, "engine.share_preprocessing", "true or false"),
     ],
@@ -110,3 +112,29 @@ def test_fit_failure_leaves_no_output_folder(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "could not be fitted" in err and "Traceback" not in err
     assert not (tmp_path / "out").exists()  # not even the journal
+
+
+def test_cli_every_fit_failing_under_record_exits_2(tmp_path, capsys):
+    # Scaled columns are negative in places: MultinomialNB refuses every fit.
+    path = _write(tmp_path, engine={"on_fit_error": "record"},
+                   model={"estimator": "sklearn.naive_bayes.MultinomialNB",
+                          "preprocessing": ["impute_median", "scale"]})
+    assert main(["run", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert "no subset could be scored" in err and "Negative values" in err
+    assert "internal error" not in err and "Traceback" not in err
+    assert not (tmp_path / "out").exists()
+
+
+def test_error_score_from_yaml_scores_failed_folds(tmp_path):
+    path = _write(tmp_path, engine={"on_fit_error": "record", "error_score": 0.25,
+                                    "journal": False},
+                  model={"estimator": "sklearn.naive_bayes.MultinomialNB",
+                         "preprocessing": ["impute_median", "scale"]})
+    assert main(["run", str(path), "-q"]) == 0
+    res = json.loads((latest_run(tmp_path / "out") / "result.json").read_text())
+    # Every fold failed and counts as 0.25: a score, but the result says why.
+    assert res["score"]["folds"] == [0.25] * 3 and res["score"]["failed_folds"] == [0, 1, 2]
+    assert res["failures"]["error_score"] == 0.25
+    assert res["failures"]["n_failed_fits"] == 3 * res["n_evaluations"]
+

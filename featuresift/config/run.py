@@ -16,7 +16,7 @@ from featuresift.config.load import load_config
 from featuresift.config.schema import RunConfig
 from featuresift.config.sections import SECTIONS
 from featuresift.config.yamlfile import _plain
-from featuresift.errors import InputError
+from featuresift.errors import FitFailedError, InputError
 from featuresift.outputs import RunFolder, open_run_folder
 from featuresift.problem import SelectionProblem, make_splitter
 from featuresift.result import SearchResult
@@ -192,4 +192,7 @@ def _run(cfg: RunConfig, callback: Callable | None) -> SearchResult:
     problem, kwargs = build_run(cfg)
     result = run_search(problem, callback=callback, **kwargs)
     result.extras.update(_provenance(cfg, problem))
+    if result.failures.get("none_scored"):
+        # Every evaluated subset had a failed fold: there is no answer to write.
+        raise FitFailedError(result.failures["message"])
     return result

@@ -70,6 +70,7 @@ PYTHON_TWINS: dict[str, tuple[str, str]] = {
     "engine.racing": (_RUN, "racing"),
     "engine.chunk_size": (_RUN, "chunk_size"),
     "engine.on_fit_error": (_RUN, "on_fit_error"),
+    "engine.error_score": (_RUN, "error_score"),
     "engine.progress": (_RUN, "verbose"),
     "engine.share_preprocessing": (_RUN, "share_preprocessing"),
     "sweep": ("featuresift.budget_sweep", "budgets"),

@@ -33,6 +33,7 @@ from __future__ import annotations
 import math
 import os
 import time
+import warnings
 from abc import ABC, abstractmethod
 from collections.abc import Callable, Iterable, Sequence
 from contextlib import nullcontext
@@ -51,18 +52,41 @@ from featuresift.engine.linear import make_linear_path
 from featuresift.engine.pool import POOL_MODES, PoolPolicy
 from featuresift.engine.progress import make_progress
 from featuresift.engine.racing import BaseRace, make_race
-from featuresift.engine.records import DROPPED, Evaluation, FoldTable
+from featuresift.engine.records import DROPPED, FAILED, Evaluation, FoldTable
 from featuresift.errors import FitFailedError, InputError
 from featuresift.problem import SelectionProblem
 
-__all__ = ["BaseEvaluator", "CrossValidationEvaluator", "CriterionEvaluator", "normalise_subset"]
+__all__ = [
+    "BaseEvaluator", "CrossValidationEvaluator", "CriterionEvaluator", "check_error_score",
+    "normalise_subset",
+]
 
 TASKS_PER_WORKER = 8
 """Default chunking: about this many joblib tasks per worker and batch. Fewer tasks
 cost less dispatch; more tasks leave less idle time at the end of a batch."""
 
 ON_FIT_ERROR = ("raise", "record")
-"""Failure policies: stop at the first failing fit, or record the fold as NaN."""
+"""Failure policies: stop at the first failing fit, or record the fold as failed."""
+
+
+def check_error_score(value: Any, key: str = "error_score") -> float:
+    """Validate an ``error_score``: NaN (failed subsets have no score) or a finite number.
+
+    Examples
+    --------
+    >>> check_error_score(0.0), check_error_score(float("nan"))
+    (0.0, nan)
+    """
+    if isinstance(value, str) and value.strip().lower() == "nan":
+        return math.nan
+    if isinstance(value, bool) or not isinstance(value, (int, float, np.floating, np.integer)):
+        raise InputError(
+            f"error_score must be a number or nan, got {value!r} (to stop at the first "
+            "failing fit use on_fit_error='raise')", key=key)
+    value = float(value)
+    if math.isinf(value):
+        raise InputError(f"error_score must be finite or nan, got {value!r}", key=key)
+    return value
 
 
 def normalise_subset(subset: Iterable[int], n_features: int) -> tuple[int, ...]:
@@ -216,7 +240,13 @@ class CriterionEvaluator(BaseEvaluator):
             t0 = time.perf_counter()
             value = float(self.criterion(s))
             self.n_fits += 1
-            out.append(Evaluation(s, (value,), time.perf_counter() - t0))
+            seconds = time.perf_counter() - t0
+            if math.isfinite(value):
+                out.append(Evaluation(s, (value,), seconds))
+            else:  # no score: counted as failed, never chosen
+                out.append(Evaluation(
+                    s, (math.nan,), seconds, FAILED, 1,
+                    {"errors": [f"the criterion returned {value!r}"]}, None, (0,)))
         return out
 
 
@@ -295,17 +325,42 @@ def _fit_chunk(plan, X, columns, y, splits, items, on_error, inner_threads, chec
                 if cols and getattr(est, "takes_columns", False):
                     est.set_params(columns=tuple(cols))  # featuresift.columns.TypedColumns
                 est.fit(Xtr, y[train])
-                score = plan.score(est, Xte, y[test])
+                score, message = _score_fold(plan, est, Xte, y[test])
             except Exception as exc:  # noqa: BLE001 - the failure policy decides
-                message = f"{type(exc).__name__}: {exc}"
+                score, message = math.nan, f"{type(exc).__name__}: {exc}"
+                cause: BaseException | None = exc
+            else:
+                cause = None
+            if message is not None:
                 if on_error == "raise":
                     raise FitFailedError(
-                        f"fit failed on subset {list(cols)}, fold {fold}: {message}"
-                    ) from exc
+                        f"fit failed on subset {list(cols)}, fold {fold}: {message}",
+                        tuple(cols), fold, message,
+                    ) from cause
                 out[i] = (math.nan, time.perf_counter() - t0, message)
                 continue
             out[i] = (score, time.perf_counter() - t0, None)
     return out
+
+
+def _score_fold(plan, est, X_test, y_test) -> tuple[float, str | None]:
+    """Score one fitted fold: ``(score, None)``, or ``(nan, reason)`` when the score is
+    NaN or infinite (an undefined metric: a failure, never a fold left out of the mean).
+
+    Warnings raised while scoring are kept: a failed fold's reason quotes them (for
+    example scikit-learn's "Only one class is present in y_true"); for a finite score
+    they are issued again as usual.
+    """
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        score = float(plan.score(est, X_test, y_test))
+    if math.isfinite(score):
+        for w in caught:
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+        return score, None
+    said = "; ".join(dict.fromkeys(f"{w.category.__name__}: {w.message}" for w in caught))
+    reason = f"the score is {score!r}" + (f" ({said})" if said else " (undefined for this fold)")
+    return math.nan, reason
 
 
 class CrossValidationEvaluator(BaseEvaluator):
@@ -324,9 +379,15 @@ class CrossValidationEvaluator(BaseEvaluator):
         ``parallel_config`` says otherwise).
     on_fit_error : {"raise", "record"}, default="raise"
         ``"raise"`` stops at the first failing fit with
-        :class:`~featuresift.errors.FitFailedError`; ``"record"`` stores the fold as
-        NaN, counts it in ``n_failed_fits`` and goes on. A subset whose folds all
-        failed gets status ``"failed"``.
+        :class:`~featuresift.errors.FitFailedError` naming the subset and fold;
+        ``"record"`` records the fold as failed, counts it in ``n_failed_fits`` and goes
+        on. A fold fails when the fit or the scorer raises, or when the score is NaN or
+        infinite (an undefined metric such as ROC AUC on a test fold with one class).
+    error_score : float, default=nan
+        What a failed fold scores under ``"record"`` (scikit-learn's convention). NaN:
+        a subset with any failed fold has status ``"failed"``, no score, and is never
+        chosen. A number: failed folds count as that score in the mean. The mean of
+        the remaining folds is never used.
     racing : bool, str, dict or BaseRace, optional
         Off by default. True or ``"f-race"``: F-race; ``"t-race"``: paired t-test race
         (optionally with an indifference zone); ``"hoeffding"``: Hoeffding race; a dict
@@ -399,6 +460,7 @@ class CrossValidationEvaluator(BaseEvaluator):
         fast_path: bool = True,
         pool: str = "auto",
         verbose: int = 0,
+        error_score: float = math.nan,
     ) -> None:
         super().__init__(problem.n_features, problem.feature_names)
         if on_fit_error not in ON_FIT_ERROR:
@@ -422,6 +484,7 @@ class CrossValidationEvaluator(BaseEvaluator):
         self.problem = problem
         self.n_jobs = n_jobs
         self.on_fit_error = on_fit_error
+        self.error_score = check_error_score(error_score)
         self.race: BaseRace | None = make_race(racing)
         self.chunk_size = chunk_size
         self.inner_threads = inner_threads
@@ -484,6 +547,9 @@ class CrossValidationEvaluator(BaseEvaluator):
             "n_fits": self.n_fits,
             "n_cache_hits": self.n_cache_hits,
             "n_failed_fits": self.n_failed_fits,
+            "n_failed_subsets": sum(1 for t in self._tables.values() if t.errors),
+            "on_fit_error": self.on_fit_error,
+            "error_score": None if math.isnan(self.error_score) else self.error_score,
             "n_dropped": self.n_dropped,
             "n_journal_hits": self.n_journal_hits,
             "n_journal_rejected": self.n_journal_rejected,
@@ -529,7 +595,8 @@ class CrossValidationEvaluator(BaseEvaluator):
             if n == self.n_folds and self._is_cached(k):
                 out[k] = self._memo[k]
                 continue
-            ev = self._tables[k].evaluation(k, None if n == self.n_folds else n)
+            ev = self._tables[k].evaluation(
+                k, None if n == self.n_folds else n, self.error_score)
             out[k] = self._remember(ev)
         return out
 
@@ -541,14 +608,23 @@ class CrossValidationEvaluator(BaseEvaluator):
         n = min(self.race.min_folds, self.n_folds)
         while True:
             self._fit_missing(alive, range(n), touched, fitted)
-            matrix = np.array([self._tables[k].scores[:n] for k in alive], dtype=float)
+            if math.isnan(self.error_score):
+                # A failed fold leaves the race as a failure (no score), not as dropped.
+                for k in alive:
+                    if any(f < n for f in self._tables[k].errors):
+                        seen[k] = n
+                alive = [k for k in alive if k not in seen]
+                if not alive:
+                    break
+            matrix = np.array([self._tables[k].evaluation(k, n, self.error_score)
+                               .fold_scores[:n] for k in alive], dtype=float)
             keep = self.race.keep(matrix, self.n_folds)
             for k, kept in zip(alive, keep):
                 if not kept:
                     seen[k] = n
             self.n_dropped += int((~keep).sum())
             alive = [k for k, kept in zip(alive, keep) if kept]
-            if n == self.n_folds:
+            if n == self.n_folds or not alive:
                 break
             # A lone survivor has nothing to race against: finish it in one round.
             n = self.n_folds if len(alive) == 1 else n + 1
@@ -583,7 +659,9 @@ class CrossValidationEvaluator(BaseEvaluator):
         if self.fast_path is None:
             return self._dispatch(work)
         t0 = time.perf_counter()
-        scores = self.fast_path.score(work)
+        # A non-finite fast score goes to the real fit, whose failure policy then applies.
+        scores = [s if s is None or math.isfinite(s) else None
+                  for s in self.fast_path.score(work)]
         seconds = (time.perf_counter() - t0) / len(work)
         rest = [w for w, s in zip(work, scores) if s is None]
         fitted = iter(self._dispatch(rest) if rest else ())
@@ -632,6 +710,14 @@ class CrossValidationEvaluator(BaseEvaluator):
                 self.pool.observe(len(part), time.perf_counter() - t0)
                 results.extend(part)
                 bar.update(len(part))
+        except FitFailedError as exc:
+            if exc.subset is None:
+                raise
+            raise FitFailedError(
+                f"fit failed on subset [{', '.join(self.feature_names[c] for c in exc.subset)}]"
+                f", fold {exc.fold} of {self.n_folds} (0-based): {exc.reason}",
+                exc.subset, exc.fold, exc.reason,
+            ) from None
         finally:
             bar.close()
         if self._finite and all(r[2] is None for r in results):

@@ -12,11 +12,14 @@ import numpy as np
 __all__ = ["Evaluation", "FoldTable", "COMPLETE", "DROPPED", "FAILED"]
 
 COMPLETE = "complete"
-"""Every fold was fitted and scored (some may have failed under the ``record`` policy)."""
+"""Every fold has a score: fitted and scored, or failed and given the user's ``error_score``."""
 DROPPED = "dropped"
-"""Racing stopped the subset early; its fold scores are partial and never cached as full."""
+"""Racing stopped the subset early; its fold scores are partial and never cached as full.
+Not a failure: the folds it ran were scored."""
 FAILED = "failed"
-"""Every fold failed to fit or score."""
+"""At least one fold failed (fit error, scorer error, NaN or infinite score) and no
+``error_score`` stands in for it, so the subset has no score and is never chosen. The
+mean of the remaining folds is never used in its place."""
 
 
 @dataclass(frozen=True)
@@ -34,17 +37,23 @@ class Evaluation:
     status : {"complete", "dropped", "failed"}
         See the module constants.
     n_failed_folds : int
-        Folds whose fit or scoring raised (``on_fit_error="record"``).
+        Folds whose fit or scoring failed (``on_fit_error="record"``): the fit or the
+        scorer raised, or the score was NaN or infinite (an undefined metric).
     n_folds_run : int, optional
         Folds fitted and scored (failed ones included); None means all of them.
         Less than the number of folds only for evaluations dropped by racing.
     details : dict
-        Extra per-evaluation data (for example ``"cached": True``).
+        Extra per-evaluation data (for example ``"errors"``: the failure messages).
+    failed_folds : tuple of int
+        Indices of the failed folds (``n_failed_folds`` of them). Their entries in
+        ``fold_scores`` hold the ``error_score`` used, NaN by default.
 
     Notes
     -----
+    ``mean`` is the mean over every fold run: one NaN fold (a failure with the default
+    ``error_score``) makes it NaN. A failure is never averaged away by the other folds.
     ``std`` is the sample standard deviation of the fold scores (``ddof=1``) and ``sem``
-    is ``std / sqrt(k)`` over the ``k`` scored folds. CV folds share training data, so
+    is ``std / sqrt(k)`` over the ``k`` folds run. CV folds share training data, so
     ``sem`` understates the true uncertainty; it is used only as a yardstick (for the
     one-standard-error pick rule and for racing reports).
 
@@ -53,6 +62,9 @@ class Evaluation:
     >>> ev = Evaluation((0, 2), (0.8, 0.9, 1.0), 0.01)
     >>> round(ev.mean, 6), round(ev.std, 6)
     (0.9, 0.1)
+    >>> Evaluation((0,), (0.8, float("nan"), 1.0), status="failed", n_failed_folds=1,
+    ...            failed_folds=(1,)).mean
+    nan
     """
 
     subset: tuple[int, ...]
@@ -62,34 +74,44 @@ class Evaluation:
     n_failed_folds: int = 0
     details: dict[str, Any] = field(default_factory=dict, compare=False)
     n_folds_run: int | None = None
+    failed_folds: tuple[int, ...] = ()
 
     @property
     def scored_folds(self) -> np.ndarray:
-        """Fold scores that are not NaN."""
+        """Scores of the folds run (the first ``n_folds_run``); NaN where a fold failed."""
         arr = np.asarray(self.fold_scores, dtype=float)
-        return arr[~np.isnan(arr)]
+        return arr if self.n_folds_run is None else arr[: self.n_folds_run]
+
+    @property
+    def has_score(self) -> bool:
+        """True when every fold run has a finite score (failed folds count only through
+        an ``error_score``)."""
+        arr = self.scored_folds
+        return arr.size > 0 and bool(np.isfinite(arr).all())
 
     @property
     def mean(self) -> float:
-        """Mean score over scored folds (``-inf`` when none was scored)."""
-        arr = np.asarray(self.fold_scores, dtype=float)
-        if self.n_failed_folds == 0 and not np.isnan(arr).any():
-            # Same arithmetic as ``cross_val_score(...).mean()``: exact ties agree.
-            return float(arr.mean()) if arr.size else -math.inf
-        ok = arr[~np.isnan(arr)]
-        return float(ok.mean()) if ok.size else -math.inf
+        """Mean score over the folds run; NaN when any of them has no score."""
+        arr = self.scored_folds
+        if not self.has_score:
+            return math.nan
+        # Same arithmetic as ``cross_val_score(...).mean()``: exact ties agree.
+        return float(arr.mean())
 
     @property
     def std(self) -> float:
-        """Sample standard deviation (ddof=1) of the scored folds (0 for one fold)."""
-        ok = self.scored_folds
-        return float(ok.std(ddof=1)) if ok.size > 1 else 0.0
+        """Sample standard deviation (ddof=1) of the folds run (0 for one fold; NaN
+        without a score)."""
+        arr = self.scored_folds
+        if not self.has_score:
+            return math.nan
+        return float(arr.std(ddof=1)) if arr.size > 1 else 0.0
 
     @property
     def sem(self) -> float:
-        """Standard error of the mean fold score."""
-        ok = self.scored_folds
-        return self.std / math.sqrt(ok.size) if ok.size > 1 else 0.0
+        """Standard error of the mean fold score (NaN without a score)."""
+        k = self.scored_folds.size
+        return self.std / math.sqrt(k) if k > 1 else (0.0 if self.has_score else math.nan)
 
     @property
     def size(self) -> int:
@@ -146,8 +168,11 @@ class FoldTable:
         return all(s != NOT_RUN for s in self.state)
 
     def set(self, fold: int, score: float, seconds: float, error: str | None = None) -> None:
-        """Record the outcome of one fold."""
+        """Record the outcome of one fold (a NaN or infinite score counts as failed)."""
         self.times[fold] = float(seconds)
+        if error is None and not math.isfinite(score):
+            # An undefined metric is a failure too, never a fold to leave out of the mean.
+            error = f"the score is {score!r} (undefined for this fold)"
         if error is None:
             self.scores[fold] = float(score)
             self.state[fold] = SCORED
@@ -162,28 +187,47 @@ class FoldTable:
         redo = (NOT_RUN, FIT_FAILED) if retry_failed else (NOT_RUN,)
         return [f for f in folds if self.state[f] in redo]
 
-    def evaluation(self, subset: tuple[int, ...], n_seen: int | None = None) -> Evaluation:
+    def evaluation(
+        self, subset: tuple[int, ...], n_seen: int | None = None,
+        error_score: float = math.nan,
+    ) -> Evaluation:
         """The :class:`Evaluation` of the first ``n_seen`` folds (all by default).
 
-        With ``n_seen`` below the number of folds the evaluation is :data:`DROPPED`
+        Failed folds get ``error_score`` (scikit-learn's convention). With the default
+        NaN, any failed fold makes the evaluation :data:`FAILED` (no score). Otherwise,
+        with ``n_seen`` below the number of folds the evaluation is :data:`DROPPED`
         and folds from ``n_seen`` on are NaN, whatever else is known.
+
+        Examples
+        --------
+        >>> t = FoldTable.empty(3)
+        >>> t.set(0, 0.9, 0.1); t.set(1, 0.0, 0.1, "ValueError: boom"); t.set(2, 0.8, 0.1)
+        >>> ev = t.evaluation((0,))
+        >>> ev.status, ev.failed_folds, ev.mean
+        ('failed', (1,), nan)
+        >>> ev = t.evaluation((0,), error_score=0.0)
+        >>> ev.status, ev.fold_scores, round(ev.mean, 6)
+        ('complete', (0.9, 0.0, 0.8), 0.566667)
         """
         n = self.n_folds if n_seen is None else int(n_seen)
-        scores = tuple(self.scores[:n]) + (math.nan,) * (self.n_folds - n)
-        failed = sum(1 for s in self.state[:n] if s == FIT_FAILED)
+        failed_folds = tuple(f for f in range(n) if self.state[f] == FIT_FAILED)
+        substitute = float(error_score)
+        scores = tuple(
+            substitute if f in failed_folds else self.scores[f] for f in range(n)
+        ) + (math.nan,) * (self.n_folds - n)
         details: dict[str, Any] = {}
-        errors = sorted({self.errors[f] for f in range(n) if f in self.errors})
+        errors = sorted({self.errors[f] for f in failed_folds if f in self.errors})
         if errors:
             details["errors"] = errors
-        if n < self.n_folds:
-            status = DROPPED
-        elif failed == self.n_folds:
+        if failed_folds and math.isnan(substitute):
             status = FAILED
+        elif n < self.n_folds:
+            status = DROPPED
         else:
             status = COMPLETE
         return Evaluation(
-            subset, scores, float(sum(self.times[:n])), status, failed, details,
-            None if n == self.n_folds else n,
+            subset, scores, float(sum(self.times[:n])), status, len(failed_folds), details,
+            None if n == self.n_folds else n, failed_folds,
         )
 
     def to_json(self) -> str:

@@ -159,17 +159,19 @@ class Scored:
 
     @property
     def complete(self) -> bool:
-        """True when every fold was run (not dropped by racing, not all failed)."""
+        """True when every fold has a score: not dropped by racing, and not failed (a
+        failed fold without an ``error_score`` leaves the subset without a score)."""
         return self.evaluation.status == COMPLETE
 
     @cached_property
     def rank_key(self) -> tuple:
         """Sort key, larger is better (see :meth:`SearchSpace.rank_key`); computed once."""
         value = self.value if not math.isnan(self.value) else -math.inf
+        mean = self.mean if not math.isnan(self.mean) else -math.inf
         return (
             self.complete,
             value,
-            self.mean,
+            mean,
             -round(self.cost, 12),
             -len(self.subset),
             tuple(-i for i in self.subset),
