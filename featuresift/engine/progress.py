@@ -24,8 +24,14 @@ __all__ = ["make_progress", "interactive", "SearchProgress"]
 
 def interactive() -> bool:
     """True inside a Jupyter kernel or when standard error is a terminal."""
-    if "ipykernel" in sys.modules:
-        return True
+    if "ipykernel" in sys.modules:  # imported is not enough: a kernel must be running
+        try:
+            from IPython import get_ipython
+
+            if getattr(get_ipython(), "kernel", None) is not None:
+                return True
+        except Exception:  # noqa: BLE001 - no usable IPython: judge by the terminal
+            pass
     stream = sys.stderr
     try:
         return bool(stream is not None and stream.isatty())
