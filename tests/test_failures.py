@@ -200,3 +200,23 @@ def test_error_score_is_checked_and_reaches_the_sweep():
     fr = budget_sweep(p, [1.0], strategy="forward", on_fit_error="record", error_score=0.0)
     assert fr.results[0].failures["error_score"] == 0.0
     assert fr.to_frame()["n_failed_fits"].tolist() == [4]
+
+
+def test_n_jobs_is_capped_at_the_cpu_count():
+    from joblib import cpu_count
+
+    from featuresift.engine.evaluator import capped_n_jobs
+
+    cpus = cpu_count()
+    # joblib's convention for negative values: -1 all CPUs, -2 all but one (at least 1).
+    assert capped_n_jobs(-1) == (cpus, None)
+    assert capped_n_jobs(-2)[0] == max(cpus - 1, 1) and capped_n_jobs(-10_000)[0] == 1
+    p = _problem()
+    ev = CrossValidationEvaluator(p, n_jobs=cpus + 14)
+    with pytest.warns(UserWarning, match=f"using n_jobs={cpus}"):
+        fast = ev.evaluate([[0], [1], [0, 1]])
+    assert ev.stats()["n_jobs"] == cpus
+    ref = CrossValidationEvaluator(p, n_jobs=1).evaluate([[0], [1], [0, 1]])
+    assert [e.fold_scores for e in fast] == [e.fold_scores for e in ref]
+    with pytest.raises(InputError, match="n_jobs"):
+        CrossValidationEvaluator(p, n_jobs=0)

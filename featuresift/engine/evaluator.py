@@ -40,7 +40,8 @@ from contextlib import nullcontext
 from typing import Any
 
 import numpy as np
-from joblib import effective_n_jobs
+from joblib import cpu_count, effective_n_jobs
+from joblib.parallel import get_active_backend
 from sklearn import config_context
 from sklearn.base import clone
 from sklearn.dummy import DummyClassifier, DummyRegressor
@@ -87,6 +88,43 @@ def check_error_score(value: Any, key: str = "error_score") -> float:
     if math.isinf(value):
         raise InputError(f"error_score must be finite or nan, got {value!r}", key=key)
     return value
+
+
+LOCAL_BACKENDS = ("LokyBackend", "MultiprocessingBackend", "ThreadingBackend",
+                  "SequentialBackend")
+"""joblib backends whose workers share this machine's CPUs (``n_jobs`` is capped there)."""
+
+
+def capped_n_jobs(n_jobs: int | None) -> tuple[int | None, str | None]:
+    """``n_jobs`` by joblib's convention, capped at the CPU count for a local backend.
+
+    Negative values count back from the CPUs (-1: all of them, -2: all but one; at least
+    one). Under a backend that runs elsewhere (a dask cluster) ``n_jobs`` is left as it
+    is. Returns the value to use and, when it was capped, a note saying so.
+
+    Examples
+    --------
+    >>> from joblib import cpu_count
+    >>> capped_n_jobs(-1)[0] == cpu_count(), capped_n_jobs(None)
+    (True, (None, None))
+    >>> capped_n_jobs(10_000)[1].startswith("n_jobs=10000 is more than")
+    True
+    """
+    if n_jobs is None:
+        return None, None
+    if isinstance(n_jobs, bool) or not isinstance(n_jobs, (int, np.integer)) or n_jobs == 0:
+        raise InputError(f"n_jobs must be a non-zero integer or None, got {n_jobs!r}",
+                         key="n_jobs")
+    backend, _ = get_active_backend()
+    if type(backend).__name__ not in LOCAL_BACKENDS:
+        return int(n_jobs), None
+    cpus = cpu_count()
+    wanted = int(n_jobs) if n_jobs > 0 else max(cpus + 1 + int(n_jobs), 1)
+    if wanted <= cpus:
+        return wanted, None
+    return cpus, (f"n_jobs={int(n_jobs)} is more than the {cpus} CPUs of this machine; "
+                  f"using n_jobs={cpus} (more workers than CPUs only add memory and "
+                  "switching)")
 
 
 def normalise_subset(subset: Iterable[int], n_features: int) -> tuple[int, ...]:
@@ -376,7 +414,9 @@ class CrossValidationEvaluator(BaseEvaluator):
         Data, model, splits and scorer.
     n_jobs : int, optional
         Parallel workers for the fits (joblib semantics; None means 1 unless a
-        ``parallel_config`` says otherwise).
+        ``parallel_config`` says otherwise; -1 all CPUs, -2 all but one). With a local
+        backend it is capped at the CPU count (``joblib.cpu_count()``) with a
+        ``UserWarning`` saying so; under a dask cluster it is left as given.
     on_fit_error : {"raise", "record"}, default="raise"
         ``"raise"`` stops at the first failing fit with
         :class:`~featuresift.errors.FitFailedError` naming the subset and fold;
@@ -483,6 +523,8 @@ class CrossValidationEvaluator(BaseEvaluator):
             )
         self.problem = problem
         self.n_jobs = n_jobs
+        capped_n_jobs(n_jobs)  # a bad value fails here, before any fit
+        self._capped_noted = False
         self.on_fit_error = on_fit_error
         self.error_score = check_error_score(error_score)
         self.race: BaseRace | None = make_race(racing)
@@ -546,6 +588,7 @@ class CrossValidationEvaluator(BaseEvaluator):
         return {
             "n_fits": self.n_fits,
             "n_cache_hits": self.n_cache_hits,
+            "n_jobs": capped_n_jobs(self.n_jobs)[0],
             "n_failed_fits": self.n_failed_fits,
             "n_failed_subsets": sum(1 for t in self._tables.values() if t.errors),
             "on_fit_error": self.on_fit_error,
@@ -667,11 +710,19 @@ class CrossValidationEvaluator(BaseEvaluator):
         fitted = iter(self._dispatch(rest) if rest else ())
         return [(s, seconds, None) if s is not None else next(fitted) for s in scores]
 
-    def _chunks(self, work: list) -> list[list]:
+    def _jobs(self) -> int | None:
+        """The ``n_jobs`` of this dispatch, capped at the CPU count (noted once)."""
+        n, note = capped_n_jobs(self.n_jobs)
+        if note is not None and not self._capped_noted:
+            self._capped_noted = True
+            warnings.warn(note, UserWarning, stacklevel=4)
+        return n
+
+    def _chunks(self, work: list, n_jobs: int | None) -> list[list]:
         if self.chunk_size is not None:
             size = self.chunk_size
         else:
-            workers = max(1, effective_n_jobs(self.n_jobs))
+            workers = max(1, effective_n_jobs(n_jobs))
             size = max(1, math.ceil(len(work) / (TASKS_PER_WORKER * workers)))
         return [work[i:i + size] for i in range(0, len(work), size)]
 
@@ -687,7 +738,8 @@ class CrossValidationEvaluator(BaseEvaluator):
         """Fit ``work`` in-process or in one joblib call (see :mod:`featuresift.engine.pool`);
         results in ``work`` order."""
         p = self.problem
-        chunks = self._chunks(work)
+        n_jobs = self._jobs()
+        chunks = self._chunks(work, n_jobs)
         bar = make_progress(len(work), self.verbose, "featuresift fits")
         results: list[tuple] = []
 
@@ -697,10 +749,10 @@ class CrossValidationEvaluator(BaseEvaluator):
 
         try:
             for i, chunk in enumerate(chunks):
-                if self.pool.use_pool(len(work) - len(results), self.n_jobs, first=i == 0):
+                if self.pool.use_pool(len(work) - len(results), n_jobs, first=i == 0):
                     t0, n0 = time.perf_counter(), len(results)
                     tasks = (delayed(_fit_chunk)(*args(c)) for c in chunks[i:])
-                    for part in Parallel(n_jobs=self.n_jobs, return_as="generator")(tasks):
+                    for part in Parallel(n_jobs=n_jobs, return_as="generator")(tasks):
                         results.extend(part)
                         bar.update(len(part))
                     self.pool.observe_pool(len(results) - n0, time.perf_counter() - t0)
