@@ -725,7 +725,7 @@ class Frontier:
 def budget_sweep(
     problem: SelectionProblem,
     budgets: Sequence[float | None] | int = 8,
-    strategy: str | dict = "forward",
+    strategy: str | dict = "greedy-swap",
     *,
     budget: float | None = None,
     nested: int | None = None,
@@ -743,7 +743,7 @@ def budget_sweep(
     budgets : sequence of float or None, or int, default=8
         Budgets to search (None: unlimited), or at most that many round budgets
         (see :func:`default_budgets`).
-    strategy : str or dict, default="forward"
+    strategy : str or dict, default="greedy-swap"
         Strategy name or spec, as for :func:`featuresift.run_search`.
     budget : float, optional
         The run's own budget: the headline pick is chosen among the points that fit it

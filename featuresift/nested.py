@@ -407,7 +407,7 @@ def nested_evaluation(
     scoring: Any = None,
     groups: Any = None,
     feature_names: list[str] | None = None,
-    strategy: str | dict = "forward",
+    strategy: str | dict = "greedy-swap",
     confidence: float = 0.95,
     seed: int | None = 0,
     n_jobs: int | None = None,
@@ -430,7 +430,7 @@ def nested_evaluation(
         searches are run.
     inner_cv : int or splitter, default=5
         CV used by the search inside each outer training fold.
-    strategy : str or dict, default="forward"
+    strategy : str or dict, default="greedy-swap"
     confidence : float, default=0.95
         Level of the interval of the nested score (:func:`corrected_t_interval`).
     seed : int, default=0

@@ -98,7 +98,7 @@ def prepare_for_objective(
 @renamed_keywords(cost_model="costs", random_state="seed", max_time="max_time_s")
 def run_search(
     problem: SelectionProblem | BaseEvaluator,
-    strategy: str | dict | SearchStrategy = "forward",
+    strategy: str | dict | SearchStrategy = "greedy-swap",
     *,
     costs: Any = None,
     budget: float | None = None,
@@ -129,8 +129,8 @@ def run_search(
     problem : SelectionProblem or BaseEvaluator
         What to evaluate. A problem gets a :class:`CrossValidationEvaluator`; an
         evaluator is used as given (its cache carries over between calls).
-    strategy : str, dict or SearchStrategy, default="forward"
-        Registered name ("forward", "backward", ...), ``{"name": ..., **options}``
+    strategy : str, dict or SearchStrategy, default="greedy-swap"
+        Registered name ("greedy-swap", "forward", "backward", ...), ``{"name": ..., **options}``
         or an instance. Extra keyword arguments are passed as strategy options.
     costs : CostModel or mapping, optional
         Needed only when ``problem`` is an evaluator (a problem carries its own costs);

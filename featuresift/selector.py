@@ -90,8 +90,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         costs 1.
     budget : float, optional
         Largest acquisition cost per sample of the chosen subset (None: unlimited).
-    strategy : str, dict or SearchStrategy, default="forward"
-        Search strategy: a registered name such as "forward", or as in YAML
+    strategy : str, dict or SearchStrategy, default="greedy-swap"
+        Search strategy: a registered name such as "greedy-swap" or "forward", or as in YAML
         ``{"name": "forward", "options": {"n_features": 3}}``.
     objective : str, dict or BaseObjective, optional
         How subsets are valued (default "score": mean CV score within the budget).
@@ -169,7 +169,7 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         *,
         costs: Any = None,
         budget: float | None = None,
-        strategy: Any = "forward",
+        strategy: Any = "greedy-swap",
         objective: Any = None,
         cv: Any = 5,
         scoring: Any = None,

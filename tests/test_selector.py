@@ -58,7 +58,7 @@ def test_selector_matches_run_search_on_the_same_problem(iris_frame):
     X, y = iris_frame
     sel = MeasurementSelector(GaussianNB(), costs=IRIS_PRICES, budget=6.0, cv=3).fit(X, y)
     problem = SelectionProblem(X, y, GaussianNB(), costs=sel.cost_model_, cv=3)
-    direct = run_search(problem, "forward", budget=6.0)
+    direct = run_search(problem, budget=6.0)  # the default strategy on both sides
     assert sel.selected_features_ == direct.selected
     assert sel.score_ == direct.score_mean
     assert sel.result_.to_dict()["path"] == direct.to_dict()["path"]

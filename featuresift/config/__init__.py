@@ -53,7 +53,7 @@ Relative paths are relative to the folder of the YAML file.
                                     #   null = the estimator's own score method
     objective: {name: score}        # or {name: penalized, lambda: 0.002}
     strategy:
-      name: forward                 # a name registered in featuresift.strategies
+      name: greedy-swap             # a name registered in featuresift.strategies
       options: {}                   # strategy keyword options, e.g. {n_features: 4}
     limits: {max_features: null, max_evaluations: null, max_time_s: null}
     must_include: []                # measurements always taken

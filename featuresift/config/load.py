@@ -86,7 +86,7 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
             raw[k] = given[k]
     if "strategy" in given:
         old = raw.get("strategy")
-        same = isinstance(old, dict) and old.get("name", "forward") == given["strategy"]
+        same = isinstance(old, dict) and old.get("name", "greedy-swap") == given["strategy"]
         raw["strategy"] = dict(old) if same else {"name": given["strategy"]}
     parsed = {name: sec.parse(raw.get(name), ctx) for name, sec in SECTIONS.items()}
     output = parsed.pop("output")

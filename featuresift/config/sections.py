@@ -205,7 +205,7 @@ def _parse_strategy(value: Any, ctx: _Context) -> dict:
     s = {"name": value} if isinstance(value, str) else ctx.mapping(
         value, "strategy", ["name", "options"]
     )
-    name = resolve_strategy_name(ctx.string(s.get("name", "forward"), "strategy.name"))
+    name = resolve_strategy_name(ctx.string(s.get("name", "greedy-swap"), "strategy.name"))
     if name not in STRATEGIES:
         raise ctx.error(
             f"unknown strategy '{name}'{_suggest(name, STRATEGIES)}; known: "

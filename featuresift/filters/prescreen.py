@@ -371,7 +371,7 @@ class ScreenedEstimator(MetaEstimatorMixin, BaseEstimator):
 
 def screened_search(
     problem: Any,
-    strategy: Any = "forward",
+    strategy: Any = "greedy-swap",
     *,
     relevance: Any = "anova_f",
     relevance_options: dict | None = None,
@@ -391,7 +391,7 @@ def screened_search(
     Parameters
     ----------
     problem : SelectionProblem
-    strategy : str, dict or SearchStrategy, default="forward"
+    strategy : str, dict or SearchStrategy, default="greedy-swap"
     relevance, relevance_options, rule, keep, alpha, cost_basis
         As in :func:`prescreen`.
     **search_options

@@ -54,8 +54,12 @@ __all__ = ["GreedySwapSearch", "neighbourhood", "local_search"]
 _BATCH = 256
 
 
-def neighbourhood(space: SearchSpace, subset: tuple[int, ...]) -> list[tuple[int, ...]]:
+def neighbourhood(space: SearchSpace, subset: tuple[int, ...],
+                  size: int | None = None) -> list[tuple[int, ...]]:
     """Allowed add / remove / swap neighbours of ``subset``, panels also as whole units.
+
+    With ``size``, only neighbours of at most that size that do not shrink the subset
+    (additions below the size, swaps) are returned.
 
     Examples
     --------
@@ -73,6 +77,8 @@ def neighbourhood(space: SearchSpace, subset: tuple[int, ...]) -> list[tuple[int
 
     def offer(candidate: set[int]) -> None:
         key = tuple(sorted(candidate))
+        if size is not None and not len(subset) <= len(key) <= size:
+            return
         if key and key != subset and space.is_allowed(key):
             out.setdefault(key, None)
 
@@ -99,11 +105,11 @@ def neighbourhood(space: SearchSpace, subset: tuple[int, ...]) -> list[tuple[int
     return list(out)
 
 
-def local_search(space: SearchSpace, start: Scored) -> Scored:
+def local_search(space: SearchSpace, start: Scored, size: int | None = None) -> Scored:
     """Best-improvement local search over :func:`neighbourhood`; records "move" steps."""
     current = start
     while True:
-        batch = neighbourhood(space, current.subset)
+        batch = neighbourhood(space, current.subset, size)
         if not batch:
             break
         best = space.best_of(space.evaluate(batch))
@@ -125,6 +131,10 @@ class GreedySwapSearch(SearchStrategy):
     cost_rule : {"ratio", "both", "gain"}, default="ratio"
         Step rule of the greedy phase (see
         :class:`~featuresift.strategies.sequential.ForwardSelection`).
+    n_features : int, optional
+        Answer with a subset of exactly this many features (including
+        ``must_include``) when one is allowed: only subsets of that size are enumerated,
+        the greedy phase stops there and the local search then only swaps.
 
     Examples
     --------
@@ -142,35 +152,49 @@ class GreedySwapSearch(SearchStrategy):
 
     name = "greedy-swap"
 
-    def __init__(self, exhaustive_limit: int = 128, cost_rule: str = "ratio") -> None:
+    def __init__(self, exhaustive_limit: int = 128, cost_rule: str = "ratio",
+                 n_features: int | None = None) -> None:
         self.exhaustive_limit = check_int(exhaustive_limit, "exhaustive_limit", minimum=0)
-        ForwardSelection(cost_rule=cost_rule)  # validates the option
+        ForwardSelection(cost_rule=cost_rule, n_features=n_features)  # validates both
         self.cost_rule = cost_rule
+        self.n_features = n_features
 
     def run(self, space: SearchSpace) -> None:
+        size = self.n_features
         allowed = space.allowed_subsets()
+        if size is not None:
+            allowed = space.cost_model.allowed(
+                space.budget, must_include=space.must_include,
+                never_include=space.never_include,
+                max_features=min(size, space.max_features))
         n_allowed = allowed.count(limit=self.exhaustive_limit)
         if n_allowed == 0:
             space.stop_reason = "no allowed subset"
             return
         if n_allowed <= self.exhaustive_limit:
-            subsets = list(allowed)
+            subsets = [s for s in allowed if size is None or len(s) == size] or list(allowed)
             best = None
             for i in range(0, len(subsets), _BATCH):
                 best = space.best_of([*([best] if best else []),
                                       *space.evaluate(subsets[i:i + _BATCH])])
             assert best is not None
             space.record("best", best.subset)
-            space.extras["allowed_subsets"] = n_allowed
-            space.stop_reason = f"optimum over all {n_allowed} allowed subsets"
+            space.extras["allowed_subsets"] = len(subsets)
+            space.stop_reason = f"optimum over all {len(subsets)} allowed subsets" + (
+                f" of {size} features" if size is not None else "")
+            if size is not None:
+                space.choose(best.subset)
             return
-        ForwardSelection(cost_rule=self.cost_rule).run(space)
-        start = best_allowed(space)
+        ForwardSelection(cost_rule=self.cost_rule, n_features=size).run(space)
+        start = (best_allowed(space, size) if size is not None else None) or best_allowed(space)
         if start is None:
             space.stop_reason = "no allowed subset"
             return
         if not space.path or space.path[-1].subset != start.subset:
             space.record("best", start.subset)
-        end = local_search(space, start)
+        end = local_search(space, start, size)
         space.stop_reason = ("local optimum: no add, remove or swap improves on "
                              + ", ".join(space.feature_names[i] for i in end.subset))
+        if size is not None:
+            space.stop_reason = "local optimum of the swaps at size " + str(len(end.subset))
+            space.choose(end.subset)
