@@ -41,7 +41,7 @@ from typing import Any
 
 import numpy as np
 from joblib import cpu_count, effective_n_jobs
-from joblib.parallel import get_active_backend
+from joblib.parallel import get_active_backend, parallel_config
 from sklearn import config_context
 from sklearn.base import clone
 from sklearn.dummy import DummyClassifier, DummyRegressor
@@ -525,6 +525,7 @@ class CrossValidationEvaluator(BaseEvaluator):
         self.n_jobs = n_jobs
         capped_n_jobs(n_jobs)  # a bad value fails here, before any fit
         self._capped_noted = False
+        self._cluster_backend: Any = None
         self.on_fit_error = on_fit_error
         self.error_score = check_error_score(error_score)
         self.race: BaseRace | None = make_race(racing)
@@ -734,6 +735,22 @@ class CrossValidationEvaluator(BaseEvaluator):
             return X, None
         return np.ascontiguousarray(X[:, used]), used
 
+    def _on_cluster(self):
+        """Under a dask backend: a backend that holds the problem's X, y and splits on
+        every worker, scattered once per evaluator (that is, once per run), or None."""
+        backend, _ = get_active_backend()
+        if type(backend).__name__ != "DaskDistributedBackend":
+            return None
+        if backend is self._cluster_backend:
+            return backend
+        if self._cluster_backend is None or self._cluster_backend.client is not backend.client:
+            from joblib._dask import DaskDistributedBackend
+
+            p = self.problem
+            self._cluster_backend = DaskDistributedBackend(
+                client=backend.client, scatter=[p.X, p.y, p.splits])
+        return self._cluster_backend
+
     def _dispatch(self, work: list[tuple[tuple[int, ...], int]]) -> list[tuple]:
         """Fit ``work`` in-process or in one joblib call (see :mod:`featuresift.engine.pool`);
         results in ``work`` order."""
@@ -743,8 +760,12 @@ class CrossValidationEvaluator(BaseEvaluator):
         bar = make_progress(len(work), self.verbose, "featuresift fits")
         results: list[tuple] = []
 
+        cluster = self._on_cluster()
+
         def args(chunk):
-            return (self.plan, *self._columns(chunk), p.y, p.splits, chunk,
+            # On a cluster every task names the scattered X instead of shipping columns.
+            data = (p.X, None) if cluster is not None else self._columns(chunk)
+            return (self.plan, *data, p.y, p.splits, chunk,
                     self.on_fit_error, self.inner_threads, self._checked)
 
         try:
@@ -752,9 +773,11 @@ class CrossValidationEvaluator(BaseEvaluator):
                 if self.pool.use_pool(len(work) - len(results), n_jobs, first=i == 0):
                     t0, n0 = time.perf_counter(), len(results)
                     tasks = (delayed(_fit_chunk)(*args(c)) for c in chunks[i:])
-                    for part in Parallel(n_jobs=n_jobs, return_as="generator")(tasks):
-                        results.extend(part)
-                        bar.update(len(part))
+                    with (nullcontext() if cluster is None
+                          else parallel_config(backend=cluster)):
+                        for part in Parallel(n_jobs=n_jobs, return_as="generator")(tasks):
+                            results.extend(part)
+                            bar.update(len(part))
                     self.pool.observe_pool(len(results) - n0, time.perf_counter() - t0)
                     break
                 t0 = time.perf_counter()
