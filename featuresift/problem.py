@@ -327,7 +327,8 @@ class SelectionProblem:
             h = hashlib.sha256()
             h.update(b"featuresift-problem-v2")
             h.update(str(self.X.shape).encode())
-            h.update(np.ascontiguousarray(self.X).tobytes())
+            # The buffer itself, not a bytes copy: the same digest without a copy of X.
+            h.update(memoryview(np.ascontiguousarray(self.X)).cast("B"))
             h.update(np.asarray(self.y).astype(str).astype("U").tobytes())
             h.update(repr(type(self.estimator)).encode())
             params = self.estimator.get_params(deep=True)
