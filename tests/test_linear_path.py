@@ -166,7 +166,7 @@ def test_same_choices_with_and_without_fast_path(grain_small):
     est = make_pipeline(SimpleImputer(), StandardScaler(), LDA())
     runs = []
     for fast in (True, False):
-        problem = SelectionProblem(X, y, est, cost_model=costs, cv=StratifiedKFold(3),
+        problem = SelectionProblem(X, y, est, costs=costs, cv=StratifiedKFold(3),
                                    scoring="roc_auc")
         runs.append(run_search(problem, "forward", budget=60, max_features=4,
                                fast_path=fast))

@@ -51,9 +51,9 @@ def test_in_process_or_pool_gives_identical_scores(monkeypatch):
 def test_search_with_two_jobs_equals_one_job():
     problem = _problem()
     res = run_search(CrossValidationEvaluator(problem, n_jobs=2), "forward", n_features=2,
-                     cost_model=problem.cost_model)
+                     costs=problem.cost_model)
     ref = run_search(CrossValidationEvaluator(problem, n_jobs=1), "forward", n_features=2,
-                     cost_model=problem.cost_model)
+                     costs=problem.cost_model)
     assert res.support == ref.support
     np.testing.assert_array_equal(res.fold_scores, ref.fold_scores)
 
@@ -74,3 +74,26 @@ def test_decision_from_measured_fit_times(monkeypatch):
 def test_unknown_pool_mode_is_refused():
     with pytest.raises(InputError, match="pool must be one of auto, always, never"):
         CrossValidationEvaluator(_problem(), pool="sometimes")
+
+
+def test_warm_starts_save_iterations_and_do_not_depend_on_where_fits_run():
+    # Computed expectation: a forward step's candidates start from the current subset's
+    # coefficients, so the lbfgs solver needs fewer iterations than from zero.
+    problem = _problem()
+    runs = {}
+    for name, mode, parents in (("cold", "never", False), ("warm", "never", True),
+                                ("warm pool", "always", True)):
+        ev = CrossValidationEvaluator(problem, n_jobs=2, pool=mode, warm_start=True)
+        ev.warm.use_parents = parents
+        res = run_search(ev, "forward", n_features=4, costs=problem.cost_model)
+        runs[name] = (res, ev.stats()["warm_start"])
+    cold, warm = runs["cold"][1], runs["warm"][1]
+    assert cold["n_warm"] == 0 and warm["n_warm"] > 0
+    assert warm["iterations"] < cold["iterations"]
+    assert runs["warm"][0].fold_scores == runs["warm pool"][0].fold_scores
+    assert runs["warm"][1] == runs["warm pool"][1]
+    # Other models ignore the option.
+    X, y = load_breast_cancer(return_X_y=True)
+    p = SelectionProblem(X[:, :4], y, make_pipeline(StandardScaler(), LogisticRegression(
+        solver="liblinear")), cv=3)
+    assert CrossValidationEvaluator(p, warm_start=True).stats()["warm_start"] is None

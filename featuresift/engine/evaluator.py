@@ -54,6 +54,7 @@ from featuresift.engine.pool import POOL_MODES, PoolPolicy
 from featuresift.engine.progress import make_progress
 from featuresift.engine.racing import BaseRace, make_race
 from featuresift.engine.records import DROPPED, FAILED, Evaluation, FoldTable
+from featuresift.engine.warmstart import WarmStarts, warm_result
 from featuresift.errors import FitFailedError, InputError
 from featuresift.problem import SelectionProblem
 
@@ -308,7 +309,8 @@ def _baseline_estimator(classification: bool):
     return DummyClassifier(strategy="prior") if classification else DummyRegressor()
 
 
-def _fit_chunk(plan, X, columns, y, splits, items, on_error, inner_threads, checked):
+def _fit_chunk(plan, X, columns, y, splits, items, on_error, inner_threads, checked,
+               inits=None):
     """Fit and score a list of ``(columns, fold)`` items. Module-level so joblib can pickle it.
 
     ``X`` holds only the problem's columns listed in ``columns`` (sorted), which are
@@ -320,6 +322,10 @@ def _fit_chunk(plan, X, columns, y, splits, items, on_error, inner_threads, chec
     ``checked`` says the estimator's parameters were validated by an earlier fit and
     the data are finite, so scikit-learn may skip both checks in every fit (they cost
     about a tenth of a small fit and cannot change its result).
+
+    ``inits`` (warm starts, :mod:`featuresift.engine.warmstart`): None, or one starting
+    point ``(coef, intercept)`` or None per item; each result then also carries the
+    fitted ``coef_``, ``intercept_`` and the solver's iteration count.
 
     Returns one ``(score, seconds, error_message_or_None)`` per item, in order.
     """
@@ -362,6 +368,9 @@ def _fit_chunk(plan, X, columns, y, splits, items, on_error, inner_threads, chec
                     est = clone(plan.tail)
                 if cols and getattr(est, "takes_columns", False):
                     est.set_params(columns=tuple(cols))  # featuresift.columns.TypedColumns
+                if inits is not None and inits[i] is not None:
+                    est.set_params(warm_start=True)
+                    est.coef_, est.intercept_ = inits[i]
                 est.fit(Xtr, y[train])
                 score, message = _score_fold(plan, est, Xte, y[test])
             except Exception as exc:  # noqa: BLE001 - the failure policy decides
@@ -378,6 +387,8 @@ def _fit_chunk(plan, X, columns, y, splits, items, on_error, inner_threads, chec
                 out[i] = (math.nan, time.perf_counter() - t0, message)
                 continue
             out[i] = (score, time.perf_counter() - t0, None)
+            if inits is not None:
+                out[i] += warm_result(est)
     return out
 
 
@@ -450,6 +461,11 @@ class CrossValidationEvaluator(BaseEvaluator):
         when a batch is worth it (:mod:`featuresift.engine.pool`); ``"always"`` sends
         every batch to joblib; ``"never"`` fits everything here. Results do not
         depend on it.
+    warm_start : bool, default=False
+        Start each logistic-regression fit from the coefficients of the same subset
+        minus one column on the same fold, when fitted earlier (fewer solver
+        iterations; scores agree to the solver's tolerance, so choices can differ:
+        see :mod:`featuresift.engine.warmstart`). Other models ignore it.
     share_preprocessing : bool, default=True
         Fit the leading column-wise steps of a pipeline (scalers, per-column
         imputation) once per fold for a whole group of fits instead of once per
@@ -499,6 +515,7 @@ class CrossValidationEvaluator(BaseEvaluator):
         share_preprocessing: bool = True,
         fast_path: bool = True,
         pool: str = "auto",
+        warm_start: bool = False,
         verbose: int = 0,
         error_score: float = math.nan,
     ) -> None:
@@ -537,6 +554,7 @@ class CrossValidationEvaluator(BaseEvaluator):
             raise InputError(f"pool must be one of {', '.join(POOL_MODES)}, got {pool!r}",
                              key="pool")
         self.pool = PoolPolicy(pool, warm_with=(problem.estimator,))
+        self.warm = WarmStarts() if warm_start and WarmStarts.eligible(self.plan) else None
         self.verbose = int(verbose)
         self.n_failed_fits = 0
         self.n_dropped = 0
@@ -602,6 +620,7 @@ class CrossValidationEvaluator(BaseEvaluator):
             "shared_preprocessing_steps": self.plan.n_shared_steps,
             "fast_path": None if self.fast_path is None else self.fast_path.describe(),
             "pool": self.pool.describe(),
+            "warm_start": None if self.warm is None else self.warm.describe(),
             "journal": None if self.journal is None else str(self.journal.path),
         }
 
@@ -761,18 +780,21 @@ class CrossValidationEvaluator(BaseEvaluator):
         results: list[tuple] = []
 
         cluster = self._on_cluster()
+        warm = self.warm
+        fit = _fit_chunk
 
         def args(chunk):
             # On a cluster every task names the scattered X instead of shipping columns.
             data = (p.X, None) if cluster is not None else self._columns(chunk)
+            inits = () if warm is None else (warm.inits(chunk),)
             return (self.plan, *data, p.y, p.splits, chunk,
-                    self.on_fit_error, self.inner_threads, self._checked)
+                    self.on_fit_error, self.inner_threads, self._checked, *inits)
 
         try:
             for i, chunk in enumerate(chunks):
                 if self.pool.use_pool(len(work) - len(results), n_jobs, first=i == 0):
                     t0, n0 = time.perf_counter(), len(results)
-                    tasks = (delayed(_fit_chunk)(*args(c)) for c in chunks[i:])
+                    tasks = (delayed(fit)(*args(c)) for c in chunks[i:])
                     with (nullcontext() if cluster is None
                           else parallel_config(backend=cluster)):
                         for part in Parallel(n_jobs=n_jobs, return_as="generator")(tasks):
@@ -781,7 +803,7 @@ class CrossValidationEvaluator(BaseEvaluator):
                     self.pool.observe_pool(len(results) - n0, time.perf_counter() - t0)
                     break
                 t0 = time.perf_counter()
-                part = _fit_chunk(*args(chunk))
+                part = fit(*args(chunk))
                 self.pool.observe(len(part), time.perf_counter() - t0)
                 results.extend(part)
                 bar.update(len(part))
@@ -795,6 +817,8 @@ class CrossValidationEvaluator(BaseEvaluator):
             ) from None
         finally:
             bar.close()
+        if warm is not None:
+            results = warm.store(work, results)
         if self._finite and all(r[2] is None for r in results):
             self._checked = True
         return results

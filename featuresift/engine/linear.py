@@ -385,9 +385,15 @@ class LinearPath:
         H = np.einsum("bkc,bke->bce", A, Ct)                    # A Sigma^-1 A' (B, K, K)
         dw = fold.dw
         Gm = H * dw[None, :, None] * dw[None, None, :]
-        lg, U = np.linalg.eigh(Gm)                              # ascending
-        s2 = np.sqrt(np.clip(lg, 0.0, None))[:, ::-1]           # singular values, desc.
-        U = U[:, :, ::-1]
+        if K == 2:
+            # Rank one: the largest eigenvalue is the trace, the other is zero.
+            s2 = np.zeros((B, 2))
+            s2[:, 0] = np.sqrt(np.clip(np.einsum("bcc->b", Gm), 0.0, None))
+            U = None
+        else:
+            lg, U = np.linalg.eigh(Gm)                          # ascending
+            s2 = np.sqrt(np.clip(lg, 0.0, None))[:, ::-1]       # singular values, desc.
+            U = U[:, :, ::-1]
         top = s2[:, :1]
         ok &= top[:, 0] > 0
         ratio = s2 / np.where(top > 0, top, 1.0)
@@ -395,12 +401,13 @@ class LinearPath:
         ok &= ~near.any(axis=1)
         keep = ratio > self.tol                                 # directions LDA keeps
         C = Ct.transpose(0, 2, 1)                               # (B, K, k)
-        if K > 2 or not keep[:, :1].all() or keep[:, 1:].any():
+        if K > 2:
             Ur = U * keep[:, None, :]
             proj = np.einsum("bcj,bej->bce", Ur, Ur)            # U_r U_r'
             coef = np.einsum("c,bce,e,bek->bck", 1.0 / dw, proj, dw, C)
             norms = np.einsum("bcj,bj->bc", Ur ** 2, s2 ** 2) / dw ** 2
         else:
+            ok &= keep[:, 0]
             coef = C
             norms = np.einsum("bcc->bc", H)
         xbar = fold.xbar[idx]                                   # (B, k)
