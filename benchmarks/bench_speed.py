@@ -1,6 +1,6 @@
 """Speed where users feel it: whole-process runs, the linear fast path, certified optima.
 
-Run:  python benchmarks/bench_speed.py [--repeats 3] [--quick]
+Run:  python benchmarks/bench_speed.py [--repeats 3] [--quick] [--parts 1234]
 
 Prints a Markdown section on standard output (``benchmarks/run_all.py`` puts it into
 ``benchmarks/README.md``). All figures come from one run; repeats are interleaved
@@ -173,14 +173,26 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--repeats", type=int, default=3)
     ap.add_argument("--quick", action="store_true", help="one repeat, 12 columns in part 3")
+    ap.add_argument("--parts", default="1234", help="which parts to run, e.g. 23")
     args = ap.parse_args(argv)
     repeats = 1 if args.quick else args.repeats
     lines = ["Machine and run:", ""] + machine()
     with tempfile.TemporaryDirectory() as tmp:
-        wp_times, wp_picks = whole_process(repeats, tmp)
-        cli_times = cli_demo(repeats, tmp)
-    r_times, r_res = ridge(repeats)
-    ex_times, ex_out, n_big = exhaustive(repeats, args.quick)
+        if "1" in args.parts:
+            lines += part1(*whole_process(repeats, tmp), repeats)
+        if "4" in args.parts:
+            lines += part4(cli_demo(repeats, tmp), repeats)
+    if "2" in args.parts:
+        lines += part2(*ridge(repeats), repeats)
+    if "3" in args.parts:
+        lines += part3(*exhaustive(repeats, args.quick), repeats)
+    lines += ["", f"- load average at end: {' '.join(f'{x:.1f}' for x in os.getloadavg())}"]
+    print("\n".join(lines))
+    return 0
+
+
+def part1(wp_times, wp_picks, repeats):
+    lines = []
 
     ref = min(_med(wp_times["SFS n_jobs=1"]), _med(wp_times["SFS n_jobs=2"]))
     same = len({tuple(v["support"]) for v in wp_picks.values()}) == 1
@@ -197,6 +209,11 @@ def main(argv=None) -> int:
         lines.append(f"| {k} | {_med(ts):.2f} s | **{_med(ts) / ref:.3f}** | {where} |")
     lines.append(f"\nIdentical features in all four: {'yes' if same else 'NO'} "
                  f"({wp_picks['featuresift n_jobs=2']['support']}).")
+    return lines
+
+
+def part4(cli_times, repeats):
+    lines = []
 
     imp = _med(cli_times["import featuresift.cli"])
     bare = _med(cli_times["python -c pass"])
@@ -210,6 +227,11 @@ def main(argv=None) -> int:
         lines.append(f"| featuresift run {k} | {t:.2f} s | {imp:.2f} s | {imp / t:.0%} |")
     lines.append(f"\nStart-up + imports = `python -c \"import featuresift.cli\"` "
                  f"({imp:.2f} s, of which {bare:.2f} s is a bare `python -c pass`).")
+    return lines
+
+
+def part2(r_times, r_res, repeats):
+    lines = []
 
     ref_r = min(_med(r_times["generic n_jobs=1"]), _med(r_times["generic n_jobs=2"]))
     same_r = len({tuple(r.support) for r in r_res.values()}) == 1
@@ -225,6 +247,11 @@ def main(argv=None) -> int:
     lines.append(f"\nSpeed-up against the faster generic setting: "
                  f"**{ref_r / _med(r_times['fast path']):.1f} x**; identical choices: "
                  f"{'yes' if same_r else 'NO'} ({r_res['fast path'].support}).")
+    return lines
+
+
+def part3(ex_times, ex_out, n_big, repeats):
+    lines = []
 
     big = ex_out["fast, 16"]
     lines += ["", f"### 3. Exhaustive search with LDA, first {n_big} breast-cancer "
@@ -245,9 +272,7 @@ def main(argv=None) -> int:
     lines.append(f"\nStop reason ({n_big}): \"{big.stop_reason}\". Same optimum on 12, fast "
                  f"and generic: {'yes' if same_ex else 'NO'}; speed-up on 12: "
                  f"{_med(ex_times['generic, 12']) / _med(ex_times['fast, 12']):.1f} x.")
-    lines += ["", f"- load average at end: {' '.join(f'{x:.1f}' for x in os.getloadavg())}"]
-    print("\n".join(lines))
-    return 0
+    return lines
 
 
 if __name__ == "__main__":
