@@ -52,7 +52,7 @@ class ExhaustiveSearch(SearchStrategy):
     max_subsets : int, default=1048576
         Largest number of allowed subsets accepted (counted exactly, under the budget
         and limits, before any evaluation).
-    batch_size : int, default=512
+    batch_size : int, default=256
         Subsets per evaluation batch.
     max_candidates : int, optional
         Also refuse more than this many free candidate features (no limit by default).
@@ -70,7 +70,7 @@ class ExhaustiveSearch(SearchStrategy):
 
     name = "exhaustive"
 
-    def __init__(self, max_subsets: int = MAX_SUBSETS, batch_size: int = 512,
+    def __init__(self, max_subsets: int = MAX_SUBSETS, batch_size: int = 256,
                  max_candidates: int | None = None) -> None:
         self.max_subsets = check_int(max_subsets, "max_subsets")
         self.batch_size = check_int(batch_size, "batch_size")
