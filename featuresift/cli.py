@@ -57,6 +57,14 @@ The YAML schema is documented in `python -m pydoc featuresift.config`;
 `featuresift demo` writes a complete example."""
 
 
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose usage errors are one line on stderr (exit code 2)."""
+
+    def error(self, message: str):  # noqa: D401 - argparse's hook
+        text = " ".join(message.split())
+        self.exit(2, f"{self.prog}: error: {text} (see {self.prog} --help)\n")
+
+
 class _Quiet:
     """A writable that discards everything (for --quiet)."""
 
@@ -95,6 +103,11 @@ def _step_printer(stream: TextIO):
 
 
 # ------------------------------------------------------------------ subcommands
+def _load(args: argparse.Namespace, **overrides):
+    """load_config with the modules trusted on the command line."""
+    return load_config(args.config, trusted_modules=args.trust_module, **overrides)
+
+
 def _engine_overrides(cfg, args: argparse.Namespace) -> None:
     engine = cfg.extra["engine"]
     if getattr(args, "no_journal", False):
@@ -111,7 +124,7 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
         "output": args.output, "n_jobs": args.n_jobs, "budget": args.budget,
         "strategy": args.strategy, "seed": args.seed,
     }
-    cfg = load_config(args.config, **overrides)
+    cfg = _load(args, **overrides)
     _engine_overrides(cfg, args)
     if args.dry_run or args.verbose:
         problem, _ = build_run(cfg)
@@ -170,7 +183,7 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
     """``featuresift sweep CONFIG``: one search per budget, the cost/score frontier."""
     overrides = {"output": args.output, "n_jobs": args.n_jobs, "seed": args.seed,
                  "strategy": args.strategy}
-    cfg = load_config(args.config, **overrides)
+    cfg = _load(args, **overrides)
     _engine_overrides(cfg, args)
 
     def show(res) -> None:
@@ -216,7 +229,7 @@ def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:
     """``featuresift screen CONFIG``: per-measurement relevance, cost and redundancy table."""
     from featuresift.filters import feature_report, write_feature_report
 
-    cfg = load_config(args.config, output=args.output)
+    cfg = _load(args, output=args.output)
     problem, _ = build_run(cfg)
     relevance = args.relevance or ("anova_f" if cfg.classification else "pearson")
     import pandas as pd
@@ -242,7 +255,7 @@ def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:
 
 def cmd_validate(args: argparse.Namespace, out: TextIO) -> int:
     """``featuresift validate CONFIG``: check config and data, fit nothing."""
-    cfg = load_config(args.config)
+    cfg = _load(args)
     problem, _ = build_run(cfg)
     budget = "unlimited" if cfg.budget is None else f"{cfg.budget:g}"
     out.write(
@@ -282,15 +295,22 @@ def build_parser() -> argparse.ArgumentParser:
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument("--debug", action="store_true",
                         help="show the full traceback of an unexpected error")
+    # Trust for code comes from the person running the command, never from the config.
+    trust = argparse.ArgumentParser(add_help=False)
+    trust.add_argument("--trust-module", action="append", default=[], metavar="NAME",
+                       help="allow estimator classes from module NAME besides scikit-learn "
+                            "(repeatable; also FEATURESIFT_TRUSTED_MODULES=NAME,...); the "
+                            "module is imported from installed packages or PYTHONPATH, "
+                            "never from the working directory or the config's folder")
 
-    parser = argparse.ArgumentParser(prog=PROG, description=_DESCRIPTION,
-                                     formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser = _Parser(prog=PROG, description=_DESCRIPTION,
+                     formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--version", action="version", version=f"{PROG} {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
 
     run = sub.add_parser(
-        "run", parents=[common], help="run the search described by a YAML config",
+        "run", parents=[common, trust], help="run the search described by a YAML config",
         description="Load the data, search measurement subsets under the budget, print the\n"
         "chosen measurements, their cost and CV score, and write result.json,\n"
         "selected.csv, path.csv and report.md into a new run folder (NNN-run) of the\n"
@@ -338,7 +358,7 @@ def build_parser() -> argparse.ArgumentParser:
     run.set_defaults(func=cmd_run)
 
     sweep = sub.add_parser(
-        "sweep", parents=[common], help="search once per budget: accuracy against cost",
+        "sweep", parents=[common, trust], help="search once per budget: accuracy against cost",
         description="Run the configured search for each budget (sharing every evaluation\n"
         "between budgets) and write frontier.csv, frontier_choices.csv, frontier.json,\n"
         "frontier.png (with matplotlib) and report.md into a new run folder (NNN-sweep)\n"
@@ -373,7 +393,7 @@ def build_parser() -> argparse.ArgumentParser:
     sweep.set_defaults(func=cmd_sweep)
 
     screen = sub.add_parser(
-        "screen", parents=[common],
+        "screen", parents=[common, trust],
         help="per-measurement table: relevance, p- and q-value, cost, most redundant partner",
         description="Score every candidate on its own (no model fits): relevance to the\n"
         "target, its p-value and Benjamini-Hochberg q-value, cost, relevance per cost,\n"
@@ -393,7 +413,7 @@ def build_parser() -> argparse.ArgumentParser:
     screen.set_defaults(func=cmd_screen)
 
     val = sub.add_parser(
-        "validate", parents=[common], help="check a YAML config and its data, fit nothing",
+        "validate", parents=[common, trust], help="check a YAML config and its data, fit nothing",
         description="Check the config and its data file (columns, costs, panels, budget, "
         "model, CV folds, scorer, strategy). Exit 0 when valid, 2 otherwise.",
     )

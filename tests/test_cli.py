@@ -211,12 +211,14 @@ def test_internal_error_exit_1_traceback_only_with_debug(tmp_path, capsys, monke
 
 
 def test_fit_failure_is_reported_as_bad_input(tmp_path, capsys):
-    text = cases.BASE_YAML.replace("{max_iter: 500}", "{max_iter: -5}")
+    # Valid parameters one by one (validate passes), a combination the solver rejects.
+    text = cases.BASE_YAML.replace("{max_iter: 500}", "{max_iter: 500, l1_ratio: 1.0}")
     path = cases.write_case(tmp_path / "lab", text)
+    assert main(["validate", str(path)]) == 0
     assert main(["run", str(path)]) == 2
     err = capsys.readouterr().err
-    assert err.startswith("featuresift: error: the model could not be fitted")
-    assert "max_iter" in err and "Traceback" not in err
+    assert "featuresift: error: the model could not be fitted" in err
+    assert "l1 penalty" in err and "Traceback" not in err
     assert not (tmp_path / "lab" / "results").exists()
 
 

@@ -106,7 +106,7 @@ def test_shared_preprocessing_is_on_by_default_and_changes_no_choice(tmp_path):
 
 def test_fit_failure_leaves_no_output_folder(tmp_path, capsys):
     path = _write(tmp_path, model={"estimator": "sklearn.linear_model.LogisticRegression",
-                                   "params": {"C": -1.0},
+                                   "params": {"l1_ratio": 1.0},  # lbfgs: l2 only
                                    "preprocessing": ["impute_median", "scale"]})
     assert main(["run", str(path)]) == 2
     err = capsys.readouterr().err

@@ -222,7 +222,7 @@ BAD_CASES = [
      ["YAML syntax error", "line"], None, None),
     ("estimator-not-allowed", edit("sklearn.linear_model.LogisticRegression",
                                    "subprocess.Popen"), None,
-     ["not allowed", "trusted_modules"], "model.estimator", "subprocess.Popen"),
+     ["not allowed", "--trust-module"], "model.estimator", "subprocess.Popen"),
     ("estimator-not-found", edit("LogisticRegression", "LogisticRegresion"), None,
      ["no 'LogisticRegresion'", "did you mean 'LogisticRegression'"], "model.estimator",
      "LogisticRegresion"),

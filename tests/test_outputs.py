@@ -263,7 +263,7 @@ def test_failing_run_leaves_an_existing_folder_exactly_as_it_was(tmp_path, capsy
     before = _snapshot(root)
     # Every fit fails: a fit failure into an existing folder that holds no journal yet.
     bad = _config(tmp_path, "bad", model={"estimator": "sklearn.linear_model.LogisticRegression",
-                                   "params": {"C": -1.0}})
+                                   "params": {"l1_ratio": 1.0}})  # fails in fit (lbfgs: l2)
     assert main(["run", str(bad)]) == 2
     assert "could not be fitted" in capsys.readouterr().err
     assert _snapshot(root) == before  # no journal.sqlite, no run folder, no lock file

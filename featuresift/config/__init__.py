@@ -29,6 +29,9 @@ Relative paths are relative to the folder of the YAML file.
       features: null                # list of candidate columns; null = every column except
                                     #   the target, cv.group_column and `exclude`
       exclude: [lot_id]             # columns never used as candidates
+  separator: null               # CSV only; null = detected (',' ';' tab '|')
+  decimal: null                 # '.' or ','; null = detected (';' files often use ',')
+  encoding: null                # e.g. utf-8, cp1252, latin-1; null = detected
     costs:                          # omit the whole section: every feature costs 1
       unit: "EUR per lot (invented)"
       features:                     # price of each candidate that is not in a panel
@@ -36,13 +39,13 @@ Relative paths are relative to the folder of the YAML file.
         protein_nir_pct: 6.0
       panels:                       # tests bought together for one price
         mycotoxin_panel: {cost: 48.0, features: [don_ppm, zearalenone_ppb]}
-    budget: 30.0                    # max cost per sample of the chosen set; null = unlimited
+    budget: 30.0                    # max cost per sample (at most 1e12); null = unlimited
     model:
-      estimator: sklearn.linear_model.LogisticRegression  # dotted class path
+      estimator: sklearn.linear_model.LogisticRegression  # dotted class path: sklearn, or a
+                                #   module trusted with --trust-module NAME
       params: {max_iter: 2000}      # constructor arguments
       preprocessing: [impute_median, scale]  # steps fitted inside every CV fold
-      trusted_modules: []           # top-level modules allowed besides sklearn
-    cv:
+        cv:
       folds: 5
       repeats: 1                    # > 1: repeated (stratified) k-fold
       stratified: null              # null = stratified for classifiers

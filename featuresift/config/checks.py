@@ -13,6 +13,7 @@ from featuresift.config.schema import RunConfig
 from featuresift.costs import CostModel
 from featuresift.errors import InputError
 from featuresift.objectives import make_objective
+from featuresift.scoring import check_scoring_target
 
 
 def _check_target(cfg: RunConfig, ctx: _Context) -> None:
@@ -176,7 +177,12 @@ def _check_scoring(cfg: RunConfig, ctx: _Context) -> Any:
     except InputError as exc:
         raise ctx.rekey(exc, "objective") from None
     required = objective.required_scorer()
+    y = cfg.frame[cfg.data.target].to_numpy()
     if required is None:
+        try:
+            check_scoring_target(cfg.scoring, y, classification=cfg.classification)
+        except InputError as exc:
+            raise ctx.error(exc.message, "scoring") from None
         return cfg.scoring
     if cfg.scoring is not None and cfg.scoring != required:
         raise ctx.error(

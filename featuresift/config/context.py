@@ -14,10 +14,12 @@ from featuresift.errors import InputError
 class _Context:
     """Line numbers of YAML keys, the config folder and the command-line overrides."""
 
-    def __init__(self, lines: dict[str, int], base_dir: Path, overridden: Iterable[str]):
+    def __init__(self, lines: dict[str, int], base_dir: Path, overridden: Iterable[str],
+                 trusted: Iterable[str] = ()):
         self.lines = lines
         self.base_dir = base_dir
         self.overridden = set(overridden)
+        self.trusted = tuple(trusted)  # modules trusted from outside the config
 
     def line(self, key: str) -> int | None:
         """Line of ``key``, else of its nearest parent present in the file."""
@@ -104,6 +106,7 @@ class _Context:
     def number(
         self, value: Any, key: str, *, minimum: float | None = None,
         optional: bool = False, allow_inf: bool = False, what: str = "a number",
+        maximum: float | None = None, positive: bool = False,
     ) -> float | None:
         if value is None and optional:
             return None
@@ -112,17 +115,27 @@ class _Context:
             if isinstance(value, str):
                 hint = " (YAML reads 1e3 as text: write 1000 or 1.0e+3; do not quote numbers)"
             raise self.error(f"expected {what}, got {_show(value)}{hint}", key)
-        x = float(value)
+        try:
+            x = float(value)
+        except OverflowError:
+            x = math.inf if value > 0 else -math.inf
+            if allow_inf or maximum is not None:
+                raise self.error(f"{_show(value)} is too large for a number", key) from None
         if math.isnan(x):
             raise self.error(f"expected {what}, got NaN", key)
         if math.isinf(x) and not allow_inf:
             raise self.error(f"expected a finite number, got {x}", key)
         if minimum is not None and x < minimum:
             raise self.error(f"must be >= {minimum:g}, got {x:g}", key)
+        if positive and x <= 0:
+            raise self.error(f"must be > 0, got {x:g}", key)
+        if maximum is not None and math.isfinite(x) and x > maximum:
+            raise self.error(f"must be at most {maximum:g}, got {x:g}", key)
         return x
 
     def integer(
-        self, value: Any, key: str, *, minimum: int | None = None, optional: bool = False
+        self, value: Any, key: str, *, minimum: int | None = None, optional: bool = False,
+        maximum: int | None = None,
     ) -> int | None:
         if value is None and optional:
             return None
@@ -132,6 +145,9 @@ class _Context:
             raise self.error(f"expected a whole number, got {_show(value)}", key)
         if minimum is not None and value < minimum:
             raise self.error(f"must be >= {minimum}, got {value}", key)
+        if maximum is not None and value > maximum:
+            shown = f"{value}" if len(str(value)) <= 20 else f"{value:.3g}"
+            raise self.error(f"must be at most {maximum}, got {shown}", key)
         return value
 
     def boolean(self, value: Any, key: str, *, optional: bool = False) -> bool | None:

@@ -6,13 +6,15 @@ import numpy as np
 import pandas as pd
 
 from featuresift.config.context import _Context, _suggest
+from featuresift.config.csvformat import _COMMA_NUMBER, SAMPLE_BYTES, CsvFormat, sniff_csv
 from featuresift.config.schema import DataSpec, RunConfig
 from featuresift.errors import InputError
 
 _DATA_SUFFIXES = {".csv": "csv", ".gz": "csv", ".parquet": "parquet", ".pq": "parquet"}
 
 
-def _read_frame(spec: DataSpec, ctx: _Context) -> pd.DataFrame:
+def _read_frame(spec: DataSpec, ctx: _Context) -> tuple[pd.DataFrame, CsvFormat | None]:
+    """The data as read, and how the CSV file is written (None for Parquet)."""
     path = spec.path
     suffix = path.suffix.lower()
     kind = _DATA_SUFFIXES.get(suffix)
@@ -24,6 +26,7 @@ def _read_frame(spec: DataSpec, ctx: _Context) -> pd.DataFrame:
     if not path.is_file():
         what = "is a folder" if path.is_dir() else "not found"
         raise ctx.error(f"data file {what}: {path}", "data.path")
+    fmt = None
     try:
         if kind == "parquet":
             try:
@@ -35,21 +38,53 @@ def _read_frame(spec: DataSpec, ctx: _Context) -> pd.DataFrame:
                 ) from None
             frame = pd.read_parquet(path)
         else:
-            frame = pd.read_csv(path)
-    except InputError:
-        raise
+            fmt = sniff_csv(path, separator=spec.separator, decimal=spec.decimal,
+                            encoding=spec.encoding)
+            frame = pd.read_csv(path, sep=fmt.separator, decimal=fmt.decimal,
+                                encoding=fmt.encoding)
+    except InputError as exc:
+        raise ctx.rekey(exc, "data.path") from None
     except pd.errors.EmptyDataError:
         raise ctx.error(f"data file {path.name} is empty", "data.path") from None
-    except (pd.errors.ParserError, UnicodeDecodeError, ValueError, OSError) as exc:
+    except UnicodeDecodeError as exc:
+        raise ctx.error(
+            f"data file {path.name} is not {exc.encoding} text after its first "
+            f"{SAMPLE_BYTES // 2**20} MB (byte {exc.object[exc.start]:#04x}); set "
+            "data.encoding to the file's encoding (cp1252 for most Windows exports in "
+            "Western Europe, latin-1, utf-8)", "data.encoding",
+        ) from None
+    except (pd.errors.ParserError, ValueError, OSError) as exc:
         first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise ctx.error(f"cannot read {path.name}: {first}", "data.path") from None
     frame.columns = [str(c) for c in frame.columns]
+    if fmt is not None and len(fmt.header) == len(frame.columns):
+        frame = _drop_blank_columns(frame, fmt, ctx)
     if frame.columns.duplicated().any():
         dup = sorted(set(frame.columns[frame.columns.duplicated()]))
         raise ctx.error(f"{path.name} has repeated column names: {', '.join(dup)}", "data.path")
     if len(frame) == 0:
         raise ctx.error(f"data file {path.name} has a header but no rows", "data.path")
-    return frame
+    return frame, fmt
+
+
+def _drop_blank_columns(frame: pd.DataFrame, fmt: CsvFormat, ctx: _Context) -> pd.DataFrame:
+    """Drop columns with neither a name nor values (a trailing separator); refuse
+    columns with values but no name (the reader would call them ``Unnamed: k``)."""
+    drop = []
+    for i, (raw, col) in enumerate(zip(fmt.header, frame.columns)):
+        if raw.strip():
+            continue
+        values = frame[col]
+        if values.isna().all():
+            drop.append(col)
+            continue
+        row = int(np.flatnonzero(values.notna().to_numpy())[0])
+        raise ctx.error(
+            f"column {i + 1} of the data file has no name in the header but holds "
+            f"values ({values.iloc[row]!r} in data row {row + 1}); name it, or remove it",
+            "data.path",
+        )
+    return frame.drop(columns=drop) if drop else frame
 
 
 def _column_error(frame: pd.DataFrame, name: str, key: str, ctx: _Context, role: str):
@@ -95,10 +130,14 @@ def _numeric_column(frame: pd.DataFrame, name: str, file_name: str) -> pd.Series
         bad = col.notna() & converted.isna()
         if bad.any():
             row = int(np.flatnonzero(bad.to_numpy())[0])
+            cell = col.iloc[row]
+            advice = ("candidate measurements must be numbers (empty cells count as "
+                      "missing), or list the column under data.exclude")
+            if isinstance(cell, str) and _COMMA_NUMBER.match(cell.strip()):
+                advice = "it looks like a decimal comma: add data.decimal: \",\" to the config"
             raise InputError(
                 f"data file {file_name}, column '{name}': not numeric (data row {row + 1} "
-                f"holds {col.iloc[row]!r}); candidate measurements must be numbers "
-                "(empty cells count as missing), or list the column under data.exclude"
+                f"holds {cell!r}); {advice}"
             )
         col = converted
     values = col.astype(float)

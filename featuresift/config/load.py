@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
@@ -25,13 +26,16 @@ from featuresift.config.data import (
 )
 from featuresift.config.schema import OVERRIDES, RunConfig
 from featuresift.config.sections import _CORE_FIELDS, SECTIONS
+from featuresift.config.trust import trusted_module_names
 from featuresift.config.yamlfile import _read_yaml
 from featuresift.errors import InputError
 
 __all__ = ["load_config"]
 
 
-def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
+def load_config(
+    path: str | os.PathLike, *, trusted_modules: Iterable[str] | None = None, **overrides: Any
+) -> RunConfig:
     """Read, check and resolve a YAML run configuration and its data file.
 
     Nothing is fitted or written.
@@ -40,6 +44,10 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
     ----------
     path : path-like
         The YAML file.
+    trusted_modules : iterable of str, optional
+        Modules (besides scikit-learn) whose estimator classes the config may name,
+        added to those in the environment variable ``FEATURESIFT_TRUSTED_MODULES``.
+        Trust never comes from the config file itself.
     **overrides
         Values that replace the file's: ``output`` (a folder, relative to the current
         directory and not restricted to the config's folder), ``n_jobs``, ``budget``
@@ -72,13 +80,14 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
         raise InputError(f"unknown override(s): {', '.join(unknown)}; known: "
                          + ", ".join(OVERRIDES))
     given = {k: v for k, v in overrides.items() if v is not None}
+    trusted = trusted_module_names(trusted_modules)
     raw, lines = _read_yaml(path)
     if raw is None:
         raise InputError(f"config file {path.name} is empty")
     if not isinstance(raw, dict):
         raise InputError(f"config file {path.name}: the top level must be a mapping of "
                          f"sections (data:, model:, ...), got {_show(raw)}", line=1)
-    ctx = _Context(lines, path.parent, (k for k in given if k != "output"))
+    ctx = _Context(lines, path.parent, (k for k in given if k != "output"), trusted)
     ctx.mapping(raw, "", SECTIONS)
     raw = dict(raw)
     for k in ("budget", "n_jobs", "seed"):
@@ -107,8 +116,9 @@ def load_config(path: str | os.PathLike, **overrides: Any) -> RunConfig:
         raise ctx.error(f"{output} exists and is not a folder", "output.folder")
     core = {k: v for k, v in parsed.items() if k in _CORE_FIELDS}
     extra = {k: v for k, v in parsed.items() if k not in _CORE_FIELDS}
-    frame = _read_frame(core["data"], ctx)
+    frame, data_format = _read_frame(core["data"], ctx)
     cfg = RunConfig(path=path, output=output, frame=frame, extra=extra, **core)
+    cfg.data_format = data_format
     cfg.overridden = given
     cfg.lines = lines
     cfg.classification = bool(is_classifier(cfg.model.build()))

@@ -34,8 +34,9 @@ def describe_plan(cfg: RunConfig, problem: SelectionProblem | None = None) -> st
     unit = cm.unit
     y = cfg.frame[cfg.data.target]
     lines = [f"Config: {cfg.path}"]
+    fmt = f"; {cfg.data_format.describe()}" if cfg.data_format is not None else ""
     lines.append(f"Data:   {cfg.data.path} ({len(cfg.frame)} rows, "
-                 f"{len(cfg.frame.columns)} columns)")
+                 f"{len(cfg.frame.columns)} columns{fmt})")
     if cfg.classification:
         counts = ", ".join(f"{k!r}: {v}" for k, v in y.value_counts().sort_index().items())
         lines.append(f"Target: {cfg.data.target} (classes {counts})")

@@ -107,6 +107,9 @@ def _provenance(cfg: RunConfig, problem: SelectionProblem) -> dict:
             "n_rows": int(problem.n_samples),
             "target": cfg.data.target,
             "n_candidates": len(cfg.candidates),
+            **({} if cfg.data_format is None else {
+                "separator": cfg.data_format.separator, "decimal": cfg.data_format.decimal,
+                "encoding": cfg.data_format.encoding}),
         },
         "model": {"estimator": cfg.model.estimator, "params": _plain(cfg.model.params),
                   "preprocessing": list(cfg.model.preprocessing)},

@@ -45,6 +45,9 @@ class DataSpec:
     features: tuple[str, ...] | None
     exclude: tuple[str, ...]
     categorical: tuple[str, ...] = ()
+    separator: str | None = None
+    decimal: str | None = None
+    encoding: str | None = None
 
 
 @dataclass(frozen=True)
@@ -148,6 +151,9 @@ class RunConfig:
         Line of each YAML key path (``"costs.features.moisture_pct"``).
     extra : dict
         Parsed values of sections added with :func:`register_section`.
+    data_format : featuresift.config.csvformat.CsvFormat or None
+        Separator, decimal mark and encoding the CSV file was read with (None for
+        Parquet).
 
     Examples
     --------
@@ -186,6 +192,7 @@ class RunConfig:
     overridden: dict[str, Any] = field(default_factory=dict)
     extra: dict[str, Any] = field(default_factory=dict)
     lines: dict[str, int] = field(default_factory=dict, repr=False)
+    data_format: Any = None
 
     @property
     def stratified(self) -> bool:

@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
-import importlib
+import codecs
 import inspect
 import math
 import os
+import re
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
@@ -14,7 +15,7 @@ from typing import Any
 from sklearn.metrics import get_scorer_names
 
 import featuresift.filters  # noqa: F401 - registers the filter strategy and objective by name
-from featuresift.config.context import _Context, _suggest
+from featuresift.config.context import _Context, _show, _suggest
 from featuresift.config.schema import (
     PREPROCESSORS,
     CostSpec,
@@ -24,8 +25,9 @@ from featuresift.config.schema import (
     ModelSpec,
     RunConfig,
 )
+from featuresift.config.trust import TRUST_ENV, file_parameters, import_trusted, is_trusted
 from featuresift.errors import InputError
-from featuresift.objectives import make_objective
+from featuresift.objectives import OBJECTIVES, make_objective
 from featuresift.problem import SelectionProblem
 from featuresift.search import PICK_RULES
 from featuresift.strategies import STRATEGIES, make_strategy
@@ -33,9 +35,19 @@ from featuresift.strategies.base import resolve_strategy_name
 
 __all__ = ["Section", "SECTIONS", "register_section"]
 
+MAX_AMOUNT = 1e12
+"""Largest cost or budget accepted: sums of larger prices lose their cents, then overflow."""
+
+MAX_SEED = 2**32 - 1
+"""Largest seed (numpy's random generators take 0 ... 2**32 - 1)."""
+
+MAX_REPEATS = 100
+"""Most repeats of k-fold cross-validation (the splits are kept in memory)."""
+
 
 def _parse_data(value: Any, ctx: _Context) -> DataSpec:
-    d = ctx.section(value, "data", ["path", "target", "features", "exclude", "categorical"],
+    d = ctx.section(value, "data", ["path", "target", "features", "exclude", "categorical",
+                                    "separator", "decimal", "encoding"],
                     {"path": "the CSV or Parquet file", "target": "the column to predict"})
     path = Path(os.path.expanduser(ctx.string(d["path"], "data.path")))
     if not path.is_absolute():
@@ -51,7 +63,48 @@ def _parse_data(value: Any, ctx: _Context) -> DataSpec:
         features=features,
         exclude=tuple(ctx.strings(d.get("exclude"), "data.exclude")),
         categorical=tuple(ctx.strings(d.get("categorical"), "data.categorical")),
+        separator=_parse_separator(d.get("separator"), ctx),
+        decimal=_parse_decimal(d.get("decimal"), ctx),
+        encoding=_parse_encoding(d.get("encoding"), ctx),
     )
+
+
+_SEPARATOR_NAMES = {"tab": "\t", "\\t": "\t", "comma": ",", "semicolon": ";", "pipe": "|"}
+
+
+def _parse_separator(value: Any, ctx: _Context) -> str | None:
+    if value is None:
+        return None
+    if not isinstance(value, str) or not value:
+        raise ctx.error(f"expected one character such as ';' or ',' (or tab), got "
+                        f"{_show(value)}", "data.separator")
+    sep = _SEPARATOR_NAMES.get(value.lower(), value)
+    if len(sep) != 1 or sep in "\"\r\n" or sep.isalnum():
+        raise ctx.error(f"expected one character such as ';' or ',' (or tab), got "
+                        f"{value!r}", "data.separator")
+    return sep
+
+
+def _parse_decimal(value: Any, ctx: _Context) -> str | None:
+    if value is None:
+        return None
+    if value not in (",", "."):
+        raise ctx.error(f"expected ',' or '.', got {_show(value)}", "data.decimal")
+    return value
+
+
+def _parse_encoding(value: Any, ctx: _Context) -> str | None:
+    name = ctx.string(value, "data.encoding", optional=True)
+    if name is None:
+        return None
+    try:
+        codec = codecs.lookup(name)
+    except LookupError:
+        raise ctx.error(f"unknown text encoding '{name}'; common ones: utf-8, cp1252 "
+                        "(Windows, Western Europe), latin-1", "data.encoding") from None
+    if not getattr(codec, "_is_text_encoding", True):
+        raise ctx.error(f"'{name}' is not a text encoding", "data.encoding")
+    return codec.name
 
 
 def _parse_costs(value: Any, ctx: _Context) -> CostSpec:
@@ -62,14 +115,16 @@ def _parse_costs(value: Any, ctx: _Context) -> CostSpec:
     prices = {}
     for name, price in ctx.mapping(c.get("features"), "costs.features").items():
         key = f"costs.features.{name}"
-        prices[str(name)] = ctx.number(price, key, minimum=0.0, what="a cost (a number >= 0)")
+        prices[str(name)] = ctx.number(price, key, minimum=0.0, maximum=MAX_AMOUNT,
+                                        what="a cost (a number >= 0)")
     panels: dict[str, tuple[float, tuple[str, ...]]] = {}
     owner: dict[str, str] = {}
     for pname, spec in ctx.mapping(c.get("panels"), "costs.panels").items():
         key = f"costs.panels.{pname}"
         p = ctx.section(spec, key, ["cost", "features"],
                         {"cost": "the panel's price", "features": "its measurements"})
-        price = ctx.number(p["cost"], f"{key}.cost", minimum=0.0, what="a cost (a number >= 0)")
+        price = ctx.number(p["cost"], f"{key}.cost", minimum=0.0, maximum=MAX_AMOUNT,
+                           what="a cost (a number >= 0)")
         members = ctx.strings(p["features"], f"{key}.features")
         if not members:
             raise ctx.error("a panel needs at least one feature", f"{key}.features")
@@ -91,26 +146,31 @@ def _parse_costs(value: Any, ctx: _Context) -> CostSpec:
 
 
 def _parse_budget(value: Any, ctx: _Context) -> float | None:
-    budget = ctx.number(value, "budget", minimum=0.0, optional=True, allow_inf=True)
+    budget = ctx.number(value, "budget", minimum=0.0, optional=True, allow_inf=True,
+                        maximum=MAX_AMOUNT)
     return None if budget is None or math.isinf(budget) else budget
 
 
-def _import_estimator(path: str, trusted: tuple[str, ...], ctx: _Context) -> type:
+def _import_estimator(path: str, ctx: _Context) -> type:
     key = "model.estimator"
     module_name, _, attr = path.rpartition(".")
     if not module_name or not attr or not all(p.isidentifier() for p in path.split(".")):
         raise ctx.error("expected a dotted class path like "
                         f"sklearn.linear_model.LogisticRegression, got '{path}'", key)
-    top = path.split(".")[0]
-    if top != "sklearn" and top not in trusted:
+    if not is_trusted(path, ctx.trusted):
         raise ctx.error(
             f"'{path}' is not allowed: the estimator must come from sklearn or from a "
-            "module listed in model.trusted_modules", key,
+            f"module trusted on the command line (--trust-module {path.split('.')[0]}) "
+            f"or in the environment ({TRUST_ENV})", key,
         )
     try:
-        module = importlib.import_module(module_name)
+        module = import_trusted(module_name, ctx.base_dir)
     except ImportError as exc:
-        raise ctx.error(f"cannot import module '{module_name}': {exc}", key) from None
+        raise ctx.error(
+            f"cannot import module '{module_name}': {exc} (modules are not looked up in the "
+            "working directory or the config's folder: install the module, or put its "
+            "folder on PYTHONPATH)", key,
+        ) from None
     cls = getattr(module, attr, None)
     if cls is None:
         public = [n for n in dir(module) if not n.startswith("_")]
@@ -122,12 +182,68 @@ def _import_estimator(path: str, trusted: tuple[str, ...], ctx: _Context) -> typ
     return cls
 
 
+def _refuse_file_parameters(params: dict, key_of: Callable[[str], str]) -> None:
+    """Estimator parameters that make it read or write files (pickled caches) are refused."""
+    for name, value in file_parameters(params):
+        raise InputError(
+            f"parameter '{name}' = {_show(value)} would make the model read or write files "
+            "(a cache of pickles, which can run code when loaded); configs may not set it",
+            key=key_of(name),
+        )
+
+
+def _validate_estimator(cls: type, params: dict, ctx: _Context) -> Any:
+    """Build the estimator and run scikit-learn's parameter checks, fitting nothing."""
+    def key_of(name: str) -> str:
+        top = name.split("__")[0]
+        return f"model.params.{top}" if top in params else "model.estimator"
+
+    try:
+        _refuse_file_parameters(dict(params), key_of)
+    except InputError as exc:
+        raise ctx.error(exc.message, exc.key) from None
+    try:
+        estimator = cls(**params)
+    except Exception as exc:  # noqa: BLE001 - any constructor failure is a config problem
+        raise ctx.error(f"{cls.__name__}(**params) failed: {_first_line(exc)}",
+                        "model.params") from None
+    try:
+        deep = estimator.get_params(deep=True)
+    except Exception:  # noqa: BLE001 - not a scikit-learn estimator: nothing more to read
+        deep = {}
+    try:
+        _refuse_file_parameters(deep, key_of)
+    except InputError as exc:
+        raise ctx.error(exc.message, exc.key) from None
+    validate = getattr(estimator, "_validate_params", None)  # scikit-learn >= 1.2
+    if callable(validate) and getattr(estimator, "_parameter_constraints", None) is not None:
+        try:
+            validate()
+        except (ValueError, TypeError) as exc:
+            text = _first_line(exc)
+            match = re.match(r"The '([^']+)' parameter", text)
+            name = match.group(1) if match else None
+            raise ctx.error(text, f"model.params.{name}" if name in params else "model.params")\
+                from None
+    return estimator
+
+
+def _first_line(exc: BaseException) -> str:
+    text = str(exc).strip()
+    return text.splitlines()[0] if text else type(exc).__name__
+
+
 def _parse_model(value: Any, ctx: _Context) -> ModelSpec:
     m = ctx.section(value, "model", ["estimator", "params", "preprocessing", "trusted_modules"],
                     {"estimator": "a dotted class path"})
-    trusted = tuple(ctx.strings(m.get("trusted_modules"), "model.trusted_modules"))
+    if m.get("trusted_modules"):
+        raise ctx.error(
+            "a config cannot trust modules itself; name them on the command line "
+            "(--trust-module NAME) or in the environment "
+            f"({TRUST_ENV}=NAME), and remove this key", "model.trusted_modules",
+        )
     path = ctx.string(m["estimator"], "model.estimator")
-    cls = _import_estimator(path, trusted, ctx)
+    cls = _import_estimator(path, ctx)
     params = ctx.mapping(m.get("params"), "model.params")
     try:
         known = sorted(cls().get_params(deep=False))
@@ -139,10 +255,7 @@ def _parse_model(value: Any, ctx: _Context) -> ModelSpec:
                 f"{cls.__name__} has no parameter '{k}'{_suggest(str(k), known)}",
                 f"model.params.{k}",
             )
-    try:
-        cls(**params)
-    except Exception as exc:  # noqa: BLE001 - any constructor failure is a config problem
-        raise ctx.error(f"{cls.__name__}(**params) failed: {exc}", "model.params") from None
+    _validate_estimator(cls, params, ctx)
     steps = ctx.strings(m.get("preprocessing"), "model.preprocessing")
     for i, s in enumerate(steps):
         if s not in PREPROCESSORS:
@@ -157,7 +270,7 @@ def _parse_model(value: Any, ctx: _Context) -> ModelSpec:
             f"use at most one imputation step, got {', '.join(imputers)} "
             "(impute_indicator already imputes the median)", "model.preprocessing",
         )
-    return ModelSpec(path, cls, params, tuple(steps), trusted)
+    return ModelSpec(path, cls, params, tuple(steps), tuple(ctx.trusted))
 
 
 def _parse_cv(value: Any, ctx: _Context) -> CVSpec:
@@ -166,11 +279,12 @@ def _parse_cv(value: Any, ctx: _Context) -> CVSpec:
     )
     spec = CVSpec(
         folds=ctx.integer(c.get("folds", 5), "cv.folds", minimum=2),
-        repeats=ctx.integer(c.get("repeats", 1), "cv.repeats", minimum=1),
+        repeats=ctx.integer(c.get("repeats", 1), "cv.repeats", minimum=1, maximum=MAX_REPEATS),
         stratified=ctx.boolean(c.get("stratified"), "cv.stratified", optional=True),
         group_column=ctx.string(c.get("group_column"), "cv.group_column", optional=True),
         shuffle=ctx.boolean(c.get("shuffle", True), "cv.shuffle"),
-        seed=ctx.integer(c.get("seed", 0), "cv.seed", minimum=0, optional=True),
+        seed=ctx.integer(c.get("seed", 0), "cv.seed", minimum=0, optional=True,
+                         maximum=MAX_SEED),
     )
     if spec.repeats > 1 and spec.group_column is not None:
         raise ctx.error("repeated grouped cross-validation is not supported; "
@@ -194,11 +308,31 @@ def _parse_scoring(value: Any, ctx: _Context) -> str | None:
 def _parse_objective(value: Any, ctx: _Context) -> dict:
     spec = {"name": value} if isinstance(value, str) else ctx.mapping(value, "objective")
     spec["name"] = ctx.string(spec.get("name", "score"), "objective.name")
+    _require_objective_options(spec, ctx)
     try:
         make_objective(spec)
     except InputError as exc:
         raise ctx.rekey(exc, "objective") from None
     return spec
+
+
+def _require_objective_options(spec: dict, ctx: _Context) -> None:
+    """Name every option the objective's class requires (no default) that is missing."""
+    cls = OBJECTIVES.get(spec["name"])
+    if cls is None:
+        return
+    try:
+        params = inspect.signature(cls.__init__).parameters
+    except (TypeError, ValueError):
+        return
+    yaml_name = {"lam": "lambda"}  # Python keyword -> YAML key
+    for pname, param in list(params.items())[1:]:
+        if param.kind in (param.VAR_POSITIONAL, param.VAR_KEYWORD):
+            continue
+        key = yaml_name.get(pname, pname)
+        if param.default is param.empty and key not in spec and pname not in spec:
+            raise ctx.error(f"objective '{spec['name']}' needs '{key}' (it has no default)",
+                            "objective")
 
 
 def _parse_strategy(value: Any, ctx: _Context) -> dict:
@@ -229,7 +363,8 @@ def _parse_limits(value: Any, ctx: _Context) -> LimitsSpec:
         ctx.integer(lim.get("max_features"), "limits.max_features", minimum=1, optional=True),
         ctx.integer(lim.get("max_evaluations"), "limits.max_evaluations", minimum=1,
                     optional=True),
-        ctx.number(lim.get("max_time_s"), "limits.max_time_s", minimum=0.0, optional=True),
+        ctx.number(lim.get("max_time_s"), "limits.max_time_s", positive=True, optional=True,
+                   what="a time in seconds"),
     )
 
 
@@ -328,7 +463,8 @@ SECTIONS: dict[str, Section] = {
     "never_include": Section(lambda v, ctx: ctx.strings(v, "never_include")),
     "pick": Section(_parse_pick),
     # The one seed, default 0 (also when written as null), recorded in result.json.
-    "seed": Section(lambda v, ctx: 0 if v is None else ctx.integer(v, "seed", minimum=0)),
+    "seed": Section(lambda v, ctx: 0 if v is None else ctx.integer(v, "seed", minimum=0,
+                                                                   maximum=MAX_SEED)),
     "n_jobs": Section(_parse_n_jobs),
     "output": Section(_parse_output),
 }

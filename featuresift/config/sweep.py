@@ -9,7 +9,7 @@ from typing import Any
 from featuresift.config.context import _Context, _show
 from featuresift.config.run import build_run
 from featuresift.config.schema import RunConfig
-from featuresift.config.sections import Section, register_section
+from featuresift.config.sections import MAX_AMOUNT, Section, register_section
 from featuresift.errors import InputError
 from featuresift.outputs import RunFolder, open_run_folder
 
@@ -34,10 +34,12 @@ def _parse_sweep(value: Any, ctx: _Context) -> dict:
             raise ctx.error(f"expected a non-empty list of budgets, got {_show(raw)}",
                             "sweep.budgets")
         budgets = [
-            ctx.number(b, f"sweep.budgets[{i}]", minimum=0, optional=True)
+            ctx.number(b, f"sweep.budgets[{i}]", minimum=0, optional=True,
+                       maximum=MAX_AMOUNT)
             for i, b in enumerate(raw)
         ]
-    n = ctx.integer(d.get("n_budgets"), "sweep.n_budgets", minimum=2, optional=True)
+    n = ctx.integer(d.get("n_budgets"), "sweep.n_budgets", minimum=2, optional=True,
+                    maximum=1000)
     return {"budgets": budgets, "n_budgets": 8 if n is None else n}
 
 
@@ -116,6 +118,9 @@ def sweep_from_config(
                 budgets.append(None)
     cheapest = cfg.cost_model.cheapest_feature_cost()
     for b in budgets:
+        if b is not None and b > MAX_AMOUNT:
+            raise InputError(f"budget {b:g} must be at most {MAX_AMOUNT:g} (or unlimited)",
+                             key="sweep.budgets", line=cfg.lines.get("sweep.budgets"))
         if b is not None and b < cheapest:
             raise InputError(
                 f"budget {b:g} {cfg.cost_model.unit} is below the cheapest possible subset "
