@@ -576,3 +576,12 @@ def test_scorer_check_agrees_with_scikit_learn(target):
             fails = True
         regression = get_scorer(name)._score_func.__module__.endswith("_regression")
         assert refused == (fails or regression), name
+
+
+def test_quoted_comma_text_in_a_comma_file_is_not_a_decimal_comma(tmp_path):
+    frame = cases.small_frame()
+    frame["lot_id"] = [f"grades {i},{i + 1}" for i in range(len(frame))]  # quoted on write
+    path = cases.write_case(tmp_path, frame=frame)
+    cfg = load_config(path)
+    assert (cfg.data_format.separator, cfg.data_format.decimal) == (",", ".")
+    np.testing.assert_array_equal(cfg.frame["protein_nir_pct"], frame["protein_nir_pct"])

@@ -111,7 +111,7 @@ def _guess_separator(lines: list[str], name: str) -> str:
     )
 
 
-def _guess_decimal(rows: list[list[str]], sep: str, name: str) -> str:
+def _guess_decimal(rows: list[list[str]], name: str) -> str:
     comma = dot = None
     for row in rows[1:]:
         for cell in row:
@@ -183,8 +183,10 @@ def sniff_csv(
         if separator != ",":
             detected.append("separator")
     rows = _split(lines, separator)
+    if decimal is None and separator == ",":
+        decimal = "."  # a decimal comma in a comma-separated file only appears quoted
     if decimal is None:
-        decimal = _guess_decimal(rows, separator, name)
+        decimal = _guess_decimal(rows, name)
         if decimal != ".":
             detected.append("decimal")
     if decimal == separator:
