@@ -37,8 +37,10 @@ from featuresift.config.nested import nested_spec
 from featuresift.engine.journal import reuse_message
 from featuresift.engine.racing import RACES
 from featuresift.errors import FitFailedError, InputError
+from featuresift.guard import GUARDS
 from featuresift.outputs import LATEST_NAME, PLOTS_HINT, RunFolder, open_run_folder
 from featuresift.result import score_label
+from featuresift.search import PICK_RULES
 from featuresift.strategies import STRATEGIES
 
 __all__ = ["main", "build_parser"]
@@ -122,7 +124,8 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
     """``featuresift run CONFIG``: search, print, write the result files."""
     overrides = {
         "output": args.output, "n_jobs": args.n_jobs, "budget": args.budget,
-        "strategy": args.strategy, "seed": args.seed,
+        "strategy": args.strategy, "seed": args.seed, "pick": args.pick,
+        "guard": args.guard,
     }
     cfg = _load(args, **overrides)
     _engine_overrides(cfg, args)
@@ -147,6 +150,10 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
     out.write(result.summary() + "\n\n")
     if nested is not None:
         out.write(nested.summary() + "\n\n")
+    elif "nested_mean" in result.guard:
+        out.write("The in-search score is optimistic for new data (the search chose the subset "
+                  "on these folds); the noise guard's nested estimate above is honest (use "
+                  "--nested K for repeats and a confidence interval).\n")
     else:
         out.write("The CV score of a searched subset is optimistic for new data: the search "
                   "chose it on these folds (use --nested K for an honest estimate).\n")
@@ -333,6 +340,13 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--seed", type=int, metavar="S",
                      help="random seed of the strategy, overriding seed (the CV folds "
                           "keep cv.seed)")
+    run.add_argument("--pick", choices=PICK_RULES,
+                     help="final pick rule, overriding pick: one-se (cheapest subset within "
+                          "one standard error of the best, the default) or best")
+    run.add_argument("--guard", choices=GUARDS,
+                     help="noise guard, overriding guard: nested (re-run the search in 5 "
+                          "outer folds; buy only if it beats nothing / free only there; "
+                          "about 5x the fits) or off")
     noise = run.add_mutually_exclusive_group()
     noise.add_argument("-q", "--quiet", action="store_true",
                        help="print nothing except errors (files are still written)")

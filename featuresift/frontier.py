@@ -221,7 +221,7 @@ class Frontier:
     >>> fr.budgets, [r.selected for r in fr.results], fr.cost_unit
     ([1, 2], [['alcohol'], ['alcohol', 'alkalinity']], 'EUR')
     >>> fr.n_fits, fr.n_fits_without_cache  # the second search reuses the first one's fits
-    (21, 33)
+    (27, 45)
     >>> fr.to_frame()["cost"].tolist(), fr.headline_index, fr.best_index
     ([1.0, 2.0], 1, 1)
     """

@@ -15,7 +15,7 @@ from typing import Any
 
 from featuresift.engine.journal import reuse_message
 from featuresift.outputs import RunFolder, write_files
-from featuresift.result import SearchResult
+from featuresift.result import SearchResult, score_label
 
 __all__ = ["CAUTION", "render_report", "write_report"]
 
@@ -66,6 +66,48 @@ def _failure_section(result: SearchResult, limit: int = 20) -> list[str]:
         lines += ["", f"... and {info['n_subsets'] - len(listed)} more subsets with failed "
                   "folds (see result.json)."]
     return lines + [""]
+
+
+def _answer_lines(result: SearchResult) -> list[str]:
+    """How the answer was picked: pick rule, noise guard, and the three references."""
+    out: list[str] = []
+    if result.pick:
+        out += [f"Pick rule: {result.pick.get('description', result.pick.get('rule'))}.", ""]
+    g = result.guard or {}
+    if g.get("name", "off") == "off":
+        out += ["Noise guard: off (the pick rule's answer stands).", ""]
+    else:
+        out += [f"Noise guard: {g['name']} ({g.get('folds')} outer folds, one-sided paired "
+                f"t-test at alpha {g.get('alpha')}): {g.get('decision')}."]
+        if "screen_p_value" in g:
+            out += [f"Stage 1, in-search screen: p = {g['screen_p_value']:.4g} (Bonferroni "
+                    f"over {g['screen_n_subsets']} subsets evaluated)."]
+        if "p_value" in g:
+            out += [f"Stage 2, nested: p = {g['p_value']:.4g}; the guard cost {g['n_fits']} "
+                    f"model fits (the search itself {result.n_fits})."]
+            if g.get("replaced"):
+                out += [f"The search's own answer was: {', '.join(g['replaced'])}."]
+            out += ["", f"{score_label('nested', result.scoring)} of the search's answers on "
+                    f"the outer folds: **{_f(g.get('nested_mean'))} ± {_f(g.get('nested_std'))}**"
+                    f" (sample standard deviation over {len(g.get('nested_scores', []))} "
+                    "outer folds)."]
+        out += [""]
+    if result.references:
+        u = result.cost_unit
+        show_obj = result.objective.get("name", "score") != "score"
+        rows = []
+        for name, r in result.references.items():
+            note = "the answer" if r.get("is_answer") else (
+                "" if r.get("allowed", True) else "reference only (budget or limits)")
+            row = [name, len(r["features"]), _f(r["cost"], 2), _f(r.get("score_mean")),
+                   _f(r.get("score_sem"))]
+            rows.append(row + ([_f(r.get("objective"))] if show_obj else []) + [note])
+        out += [f"References ({score_label('in-search', result.scoring)}, on the same folds):",
+                ""]
+        out += _table(["reference", "measurements", f"cost ({u})", "score", "± s.e."]
+                      + (["objective"] if show_obj else []) + ["note"], rows)
+        out += [""]
+    return out
 
 
 def render_report(
@@ -132,10 +174,14 @@ def render_report(
     folds = ", ".join(_f(s) for s in result.fold_scores)
     lines += [
         "",
-        f"Cross-validated {result.scoring}: **{_f(result.score_mean)} ± "
+        f"**Answer: {result.headline()}.**",
+        "",
+        f"Cross-validated {score_label('in-search', result.scoring)}: "
+        f"**{_f(result.score_mean)} ± "
         f"{_f(result.score_std)}** (sample standard deviation over "
         f"{len(result.fold_scores)} folds: {folds}).",
         "",
+        *_answer_lines(result),
         f"{result.n_evaluations} subsets evaluated with {result.n_fits} model fits in "
         f"{result.wall_time:.1f} s. Stopped: {result.stop_reason}.",
         # A sweep's journal note covers the whole sweep: it goes with the sweep's table.
@@ -147,7 +193,7 @@ def render_report(
     lines += ["## Search path", ""]
     show_failed = any(r.n_failed_folds for r in result.path)
     lines += _table(
-        ["step", "action", "measurement", "size", "score", f"cost ({u})"]
+        ["step", "action", "measurement", "size", "score (in-search)", f"cost ({u})"]
         + (["failed folds"] if show_failed else []),
         [[r.step, r.action, r.feature or "—", len(r.features), _f(r.score_mean), _f(r.cost, 2)]
          + ([r.n_failed_folds] if show_failed else [])

@@ -120,7 +120,7 @@ class EvaluatedSubset:
     >>> X, y = load_iris(return_X_y=True)
     >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), n_features=1)
     >>> [e.features for e in res.evaluations]
-    [('x0',), ('x1',), ('x2',), ('x3',)]
+    [(), ('x0', 'x1', 'x2', 'x3'), ('x0',), ('x1',), ('x2',), ('x3',)]
     """
 
     features: tuple[str, ...]
@@ -203,13 +203,27 @@ class SearchResult:
     failures : dict
         Empty when no fit failed; else the counts and the subsets with failed folds
         (see :func:`featuresift.search.failure_summary`).
+    extras : dict
+        Strategy and engine extras.
+    references : dict of str to dict
+        The references "nothing", "free only" and "everything"
+        (:data:`featuresift.search.REFERENCES`): features, support, cost, score
+        (in-search), objective value, whether each is ``allowed`` as an answer and
+        whether it ``is_answer``.
+    pick : dict
+        The pick rule (``rule``, ``description``), the best subset found and, for
+        ``one-se``, the threshold.
+    guard : dict
+        The noise guard: name, settings, ``decision``, ``n_fits`` and, when it ran,
+        the p-value and the nested (honest) scores of the search's answers on the
+        outer folds (``nested_mean``, ``nested_scores``).
 
     Notes
     -----
     The CV score of the chosen subset is the score the search maximised, so it is
-    optimistically biased as an estimate of performance on new data. Use
-    nested cross-validation (re-running the whole search inside outer folds) for an
-    honest estimate.
+    optimistically biased as an estimate of performance on new data
+    (:func:`score_label` ``"in-search"``). The noise guard's nested scores, and
+    :func:`featuresift.nested_evaluation`, are honest (``"nested"``).
 
     Examples
     --------
@@ -251,6 +265,9 @@ class SearchResult:
     seed: int | None = 0
     failed_folds: list[int] = field(default_factory=list)
     failures: dict[str, Any] = field(default_factory=dict)
+    references: dict[str, dict] = field(default_factory=dict)
+    pick: dict[str, Any] = field(default_factory=dict)
+    guard: dict[str, Any] = field(default_factory=dict)
 
     # ------------------------------------------------------------- conversion
     def to_dict(self) -> dict:
@@ -267,6 +284,7 @@ class SearchResult:
             "budget": self.budget,
             "score": {
                 "scoring": self.scoring,
+                "kind": "in-search",
                 "mean": _num(self.score_mean),
                 "std": _num(self.score_std),
                 "folds": [_num(s) for s in self.fold_scores],
@@ -284,6 +302,9 @@ class SearchResult:
                 }
                 for r in self.path
             ],
+            "pick": _clean(self.pick),
+            "guard": _clean(self.guard),
+            "references": _clean(self.references),
             "n_evaluations": self.n_evaluations,
             "n_fits": self.n_fits,
             "n_cache_hits": self.n_cache_hits,
@@ -323,6 +344,7 @@ class SearchResult:
             "objective", "strategy", "path", "n_evaluations", "n_fits", "n_cache_hits",
             "wall_time_s", "stop_reason", "success", "extras", "evaluations", "seed",
             "failures",
+            "pick", "guard", "references",
         }
         unknown = sorted(set(d) - known)
         if unknown:
@@ -360,6 +382,9 @@ class SearchResult:
             success=bool(d.get("success", True)),
             extras=dict(d.get("extras") or {}),
             seed=d.get("seed"),
+            references=dict(d.get("references") or {}),
+            pick=dict(d.get("pick") or {}),
+            guard=dict(d.get("guard") or {}),
             evaluations=[
                 EvaluatedSubset(tuple(e["features"]), e["cost"], _nan(e["score_mean"]),
                                 _nan(e["score_sem"]), _nan(e["objective"]), e["n_folds"],
@@ -496,6 +521,78 @@ class SearchResult:
                 return (line.item, _fmt(line.cost))
         return ("", "")
 
+    def headline(self) -> str:
+        """The answer in words: buy nothing, only what is on hand, or what to buy.
+
+        Examples
+        --------
+        >>> r = SearchResult([], [], 0.0, "EUR", [], 10.0, 0.5, 0.0, [0.5], "roc_auc",
+        ...                  {}, {"name": "forward"}, [], 1, 5, 0, 0.1, "done")
+        >>> r.headline()
+        'buy nothing (no measurement pays for itself here)'
+        """
+        if not self.success and not self.fold_scores:
+            return "no answer (no allowed subset was evaluated)"
+        ref = next((n for n, r in self.references.items() if r.get("is_answer")), None)
+        n = len(self.selected)
+        if n == 0:
+            return "buy nothing (no measurement pays for itself here)"
+        if ref == "free only" or (self.cost == 0 and ref != "everything"):
+            return f"use only what is on hand ({n} zero-cost measurement{'s' * (n != 1)})"
+        what = f"buy {n} measurement{'s' * (n != 1)} for {self.cost:g} {self.cost_unit}"
+        return what + (" (every candidate)" if ref == "everything" else "")
+
+    def _reference_lines(self) -> list[str]:
+        u = self.cost_unit
+        show_obj = self.objective.get("name", "score") != "score"
+        head = f"  {'':<12} {'n':>3} {'cost':>10}  {'score':>8} {'± s.e.':>8}"
+        lines = [f"References ({score_label('in-search', self.scoring)}, same folds):",
+                 head + (f" {'objective':>10}" if show_obj else "")]
+        rows = list(self.references.items())
+        best = self.pick.get("best")
+        if best is not None and self.pick.get("rule") != "best":
+            rows.append(("best found", {
+                "features": best["features"], "cost": best["cost"],
+                "score_mean": best["score_mean"], "score_sem": best["score_sem"],
+                "objective": best["objective"], "allowed": True}))
+        for name, r in rows:
+            mean = r.get("score_mean")
+            obj = r.get("objective")
+            note = []
+            if r.get("is_answer"):
+                note.append("<- the answer")
+            if not r.get("allowed", True):
+                note.append("not allowed (budget or limits): reference only")
+            line = (f"  {name:<12} {len(r['features']):>3} {r['cost']:>10.2f}  "
+                    f"{_fmt_num(mean):>8} {_fmt_num(r.get('score_sem')):>8}")
+            if show_obj:
+                line += f" {_fmt_num(obj):>10}"
+            lines.append(line + ("  " + "; ".join(note) if note else ""))
+        lines.append(f"  (costs in {u})")
+        return lines
+
+    def _guard_lines(self) -> list[str]:
+        g = self.guard or {}
+        name = g.get("name", "off")
+        if name == "off":
+            return ["Noise guard: off (the pick rule's answer stands)"]
+        lines = [f"Noise guard: {name} ({g.get('folds')} outer folds, one-sided paired t-test "
+                 f"at alpha {g.get('alpha')}): {g.get('decision')}"]
+        if "screen_p_value" in g:
+            lines.append(f"  stage 1, in-search screen: p = {g['screen_p_value']:.4g} "
+                         f"(Bonferroni over {g['screen_n_subsets']} subsets)")
+        if "p_value" in g:
+            lines.append(f"  stage 2, nested: p = {g['p_value']:.4g}; the guard cost "
+                         f"{g['n_fits']} model fits")
+            if g.get("replaced"):
+                lines.append(f"  the search's answer was: {', '.join(g['replaced'])}")
+            scores = g.get("nested_scores") or []
+            lines.append(
+                f"  {score_label('nested', self.scoring)} of the search's answers: "
+                f"{_fmt_num(g.get('nested_mean'))} ± {_fmt_num(g.get('nested_std'))} "
+                f"(sample std over {len(scores)} outer folds)")
+        return lines
+
     def summary(self) -> str:
         """A readable multi-line report (what the CLI prints)."""
         u = self.cost_unit
@@ -503,7 +600,12 @@ class SearchResult:
         budget = "unlimited" if self.budget is None else f"{self.budget:g} {u}"
         lines.append(f"Strategy: {self.strategy.get('name')}   budget: {budget}   "
                      f"scoring: {self.scoring}")
+        if self.pick:
+            lines.append(f"Pick rule: {self.pick.get('description', self.pick.get('rule'))}")
+        if self.guard:
+            lines += self._guard_lines()
         lines.append("")
+        lines.append(f"Answer: {self.headline()}")
         lines.append(f"Chosen measurements ({len(self.selected)}):")
         items = [
             c.item if c.kind == "feature" else f"{c.item} [panel: {', '.join(c.features)}]"
@@ -516,8 +618,8 @@ class SearchResult:
         lines.append("")
         folds = ", ".join(f"{s:.4f}" for s in self.fold_scores)
         if self.fold_scores:
-            lines.append(f"CV {self.scoring}: {self.score_mean:.4f} ± {self.score_std:.4f} "
-                         f"(sample std over {len(self.fold_scores)} folds)")
+            lines.append(f"CV {score_label('in-search', self.scoring)}: "
+                         f"{self.score_mean:.4f} ± {self.score_std:.4f} (sample std over {len(self.fold_scores)} folds)")
             lines.append(f"  per fold: {folds}")
         else:
             lines.append(f"CV {self.scoring}: no score (no subset was chosen)")
@@ -526,6 +628,12 @@ class SearchResult:
                 f"  {len(self.failed_folds)} of {len(self.fold_scores)} folds FAILED "
                 f"(fold {', '.join(str(f) for f in self.failed_folds)}, 0-based) and count "
                 f"as error_score={self.failures.get('error_score')}")
+        if self.objective.get("name", "score") != "score" and self.objective.get("value") \
+                is not None:
+            lines.append(f"  objective {self.objective['name']}: {self.objective['value']:.4f}")
+        if self.references:
+            lines.append("")
+            lines += self._reference_lines()
         lines.append("")
         lines.append("Path:")
         show_failed = any(r.n_failed_folds for r in self.path)
@@ -538,8 +646,11 @@ class SearchResult:
                 + (f"  {r.n_failed_folds:>12}" if show_failed else "")
             )
         lines.append("")
+        guard_fits = int((self.guard or {}).get("n_fits", 0))
+        fits = f"{self.n_fits} model fits" + (
+            f" (+ {guard_fits} for the noise guard)" if guard_fits else "")
         lines.append(
-            f"{self.n_evaluations} subsets evaluated, {self.n_fits} model fits, "
+            f"{self.n_evaluations} subsets evaluated, {fits}, "
             f"{self.wall_time:.2f} s; stopped: {self.stop_reason}"
         )
         lines += self.failure_lines()
@@ -588,6 +699,21 @@ class SearchResult:
 
 def _nan(x: float | None) -> float:
     return math.nan if x is None else float(x)
+def _fmt_num(x: Any, digits: int = 4) -> str:
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return "-"
+    return f"{x:.{digits}f}"
+
+
+def _clean(obj: Any) -> Any:
+    """JSON-ready copy: non-finite floats become None."""
+    if isinstance(obj, dict):
+        return {k: _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    if isinstance(obj, float):
+        return _num(obj)
+    return obj
 
 
 def _fmt(x: float | None) -> str:

@@ -12,6 +12,14 @@ from featuresift.costs import CostModel, make_cost_model
 from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.engine.progress import SearchProgress
 from featuresift.errors import InputError
+from featuresift.guard import (
+    DEFAULT_GUARD,
+    FALLBACKS,
+    fallback_of,
+    make_guard,
+    run_nested_guard,
+    screen_in_search,
+)
 from featuresift.objectives import BaseObjective, make_objective
 from featuresift.problem import SelectionProblem
 from featuresift.result import EvaluatedSubset, PathRow, SearchResult
@@ -23,10 +31,55 @@ from featuresift.strategies.base import (
     make_strategy,
 )
 
-__all__ = ["run_search", "prepare_for_objective", "failure_summary", "PICK_RULES"]
+__all__ = ["run_search", "prepare_for_objective", "failure_summary", "PICK_RULES",
+           "DEFAULT_PICK", "REFERENCES", "reference_subsets", "check_pick"]
 
-PICK_RULES = ("best", "one_se")
-"""Final pick rules: the best subset found, or the cheapest within one standard error of it."""
+PICK_RULES = ("best", "one-se")
+"""Final pick rules.
+
+``best``
+    The highest objective value found (the strategy's answer, or a reference that
+    beats it). Meant for benchmarking searches: it chases fold noise.
+``one-se`` (default)
+    The one-standard-error rule (Breiman, Friedman, Olshen & Stone 1984, section 3.4):
+    among every allowed subset evaluated (references included), the cheapest whose
+    objective value is at least the best value minus the standard error of the best
+    subset's fold scores; ties go to the higher value, then fewer measurements.
+"""
+
+PICK_ALIASES = {"one_se": "one-se"}
+"""Older spellings of pick rules, still accepted."""
+
+DEFAULT_PICK = "one-se"
+
+_PICK_WORDS = {
+    "best": "best: the highest objective value found",
+    "one-se": "one-se: the cheapest subset within one standard error of the best "
+              "(Breiman et al. 1984)",
+}
+
+REFERENCES = ("nothing", "free only", "everything")
+"""Reference subsets evaluated in every run, beside the answer.
+
+``nothing``: no measurement bought (only ``must_include``; with none, a prior-only
+model: class frequencies or the mean). ``free only``: ``nothing`` plus every
+zero-cost candidate (values on hand). ``everything``: every candidate. The first two
+can be the answer; ``everything`` can when it is allowed (budget, size limit).
+"""
+
+
+def check_pick(pick: str) -> str:
+    """The canonical name of a pick rule (raises :class:`InputError` naming ``pick``).
+
+    Examples
+    --------
+    >>> check_pick("one_se")
+    'one-se'
+    """
+    pick = PICK_ALIASES.get(pick, pick) if isinstance(pick, str) else pick
+    if pick not in PICK_RULES:
+        raise InputError(f"must be one of {', '.join(PICK_RULES)}, got {pick!r}", key="pick")
+    return pick
 
 
 def _resolve_features(items: Iterable[int | str], names: list[str], key: str) -> list[int]:
@@ -45,20 +98,64 @@ def _resolve_features(items: Iterable[int | str], names: list[str], key: str) ->
     return out
 
 
-def _pick(space: SearchSpace, rule: str) -> Scored | None:
-    # A subset with a failed fold and no error_score has no score: never picked.
-    allowed = [s for s in space.visited.values()
-               if s.complete and s.evaluation.has_score and space.is_allowed(s.subset)]
+def reference_subsets(space: SearchSpace) -> dict[str, tuple[int, ...]]:
+    """The reference subsets of a search space (see :data:`REFERENCES`), as column tuples.
+
+    Examples
+    --------
+    >>> from featuresift.engine.evaluator import CriterionEvaluator
+    >>> cm = CostModel(["moisture", "protein", "ash"], {"moisture": 0, "protein": 6, "ash": 3})
+    >>> space = SearchSpace(CriterionEvaluator(len, 3), cm, never_include=[2])
+    >>> reference_subsets(space)
+    {'nothing': (), 'free only': (0,), 'everything': (0, 1)}
+    """
+    must = tuple(space.must_include)
+    free = tuple(f for f in space.candidates if space.cost_model.cost([f]) == 0)
+    return {
+        "nothing": must,
+        "free only": tuple(sorted(set(must) | set(free))),
+        "everything": tuple(sorted(set(must) | set(space.candidates))),
+    }
+
+
+def _evaluate_references(space: SearchSpace) -> dict[str, Scored]:
+    """Evaluate the references one at a time, so that no race can drop them.
+
+    They count like any evaluated subset (``max_evaluations``, ``max_time_s``); a limit
+    reached here raises :class:`StopSearch` and the references not reached are absent.
+    """
+    out: dict[str, Scored] = {}
+    for name, subset in reference_subsets(space).items():
+        (out[name],) = space.evaluate([subset])
+    return out
+
+
+def _is_answer(space: SearchSpace, s: Scored) -> bool:
+    return s.complete and s.evaluation.has_score and space.is_allowed(s.subset)
+
+
+def _pick(space: SearchSpace, rule: str, refs: dict[str, Scored]) -> tuple[Scored | None, dict]:
+    """Apply the pick rule; returns the answer and a description for the outputs."""
+    allowed = [s for s in space.visited.values() if _is_answer(space, s)]
     chosen = space.visited.get(space.chosen) if space.chosen is not None else None
-    if chosen is not None and chosen.complete and chosen.evaluation.has_score:
-        base = chosen
-    else:
-        base = space.best_of(allowed)
-    if base is None or rule == "best":
-        return base
-    threshold = base.mean - base.evaluation.sem
-    close = [s for s in allowed if s.mean >= threshold]
-    return min(close, key=lambda s: (round(s.cost, 12), -s.value, len(s.subset), s.subset))
+    top = chosen if chosen is not None and _is_answer(space, chosen) else space.best_of(allowed)
+    best = space.best_of([top, *(r for r in refs.values() if _is_answer(space, r))]
+                         if top is not None else allowed)
+    info: dict[str, Any] = {"rule": rule, "description": _PICK_WORDS[rule]}
+    if best is None:
+        return None, info
+    names = space.feature_names
+    info["best"] = {"features": [names[i] for i in best.subset], "cost": best.cost,
+                    "objective": best.value, "score_mean": best.mean,
+                    "score_sem": best.evaluation.sem}
+    if rule == "best":
+        return best, info
+    threshold = best.value - best.evaluation.sem
+    close = [s for s in allowed if s.value >= threshold - 1e-12 * max(1.0, abs(threshold))]
+    answer = min(close, key=lambda s: (round(s.cost, 12), -s.value, len(s.subset), s.subset))
+    info["threshold"] = threshold
+    info["n_within"] = len(close)
+    return answer, info
 
 
 def _with_scorer(problem: SelectionProblem, scorer: Any) -> SelectionProblem:
@@ -108,7 +205,8 @@ def run_search(
     max_time_s: float | None = None,
     must_include: Iterable[int | str] = (),
     never_include: Iterable[int | str] = (),
-    pick: str = "best",
+    pick: str = DEFAULT_PICK,
+    guard: str | dict | bool | None = DEFAULT_GUARD,
     seed: int | None = 0,
     n_jobs: int | None = None,
     callback: Callable | None = None,
@@ -145,11 +243,23 @@ def run_search(
         User limits (size, distinct subsets evaluated, seconds).
     must_include, never_include : iterables of names or column indices
         Measurements always taken / not available.
-    pick : {"best", "one_se"}, default="best"
-        Final pick: the strategy's answer, or the cheapest evaluated allowed subset
-        whose mean score is within one standard error of it.
+    pick : {"one-se", "best"}, default="one-se"
+        Final pick rule (see :data:`PICK_RULES`): the cheapest allowed subset evaluated
+        whose objective is within one standard error of the best (Breiman et al.
+        1984), or the best itself. The references "nothing" and "free only" (and
+        "everything" when allowed) are evaluated in every run and compete. The old
+        spelling "one_se" is accepted.
+    guard : {"nested", "off"} or dict, default="nested"
+        Noise guard (:mod:`featuresift.guard`): re-run the search inside K outer folds
+        and keep an answer that buys measurements only if it beats the better of
+        "nothing" and "free only" on the outer folds (one-sided paired t-test);
+        ``{"name": "nested", "folds": 5, "alpha": 0.05}``; "off" (or None/False)
+        switches it off. Needs a problem (or a CV evaluator); skipped for other
+        evaluators. It costs about ``folds`` times the search's fits, and none when
+        the answer already is "nothing" or "free only".
     seed : int, optional, default=0
-        Seed of stochastic strategies; recorded in the result (``result.seed``).
+        Seed of stochastic strategies (and of the guard's outer folds); recorded in
+        the result (``result.seed``).
     n_jobs : int, optional
         Parallel fits (when an evaluator is built here).
     cost_model, random_state, max_time : deprecated
@@ -183,11 +293,13 @@ def run_search(
     >>> X, y = load_iris(return_X_y=True)
     >>> p = SelectionProblem(X, y, DecisionTreeClassifier(random_state=0), cv=3)
     >>> res = run_search(p, "forward", n_features=2)
-    >>> len(res.selected)
-    2
+    >>> res.selected, res.pick["best"]["features"]   # one-se: cheapest as good as the best
+    (['x3'], ['x0', 'x1', 'x2', 'x3'])
+    >>> sorted(res.references), res.guard["stage"]
+    (['everything', 'free only', 'nothing'], 'in-search screen')
     """
-    if pick not in PICK_RULES:
-        raise InputError(f"pick must be one of {PICK_RULES}, got {pick!r}")
+    pick = check_pick(pick)
+    guard_spec = make_guard(guard)
     t0 = time.perf_counter()
     objective = make_objective(objective)
     if isinstance(problem, SelectionProblem):
@@ -228,15 +340,73 @@ def run_search(
     try:
         return _search(evaluator, strat, cost_model, names, budget, objective, max_features,
                        max_evaluations, max_time_s, must_include, never_include,
-                       seed, callback, pick, scoring, t0, verbose)
+                       seed, callback, pick, scoring, t0, verbose, guard_spec)
     finally:
         if owned:
             evaluator.close()  # closes a journal this call opened
 
 
+def _reference_record(space: SearchSpace, sc: Scored) -> dict[str, Any]:
+    ev = sc.evaluation
+    return {
+        "features": [space.feature_names[i] for i in sc.subset],
+        "support": list(sc.subset),
+        "cost": sc.cost,
+        "score_mean": ev.mean if math.isfinite(ev.mean) else None,
+        "score_std": ev.std,
+        "score_sem": ev.sem,
+        "objective": sc.value if math.isfinite(sc.value) else None,
+        "allowed": _is_answer(space, sc),
+        "fold_scores": [float(x) for x in ev.fold_scores],
+    }
+
+
+def _guard(spec, evaluator, strat, space, pick, seed, answer, refs, references):
+    """Run the noise guard; returns (the answer, the guard's record)."""
+    if spec is None:
+        return answer, {"name": "off", "decision": "off", "n_fits": 0}
+    record: dict[str, Any] = {**spec.describe(), "n_fits": 0}
+    fallback_subsets = {refs[n].subset for n in FALLBACKS
+                        if n in refs and references[n]["allowed"]}
+    if answer.subset in fallback_subsets:
+        record["decision"] = "not needed: the answer buys no measurement"
+        return answer, record
+    if not isinstance(evaluator, CrossValidationEvaluator):
+        record["decision"] = "skipped: needs a problem with data (the evaluator has none)"
+        return answer, record
+    name = fallback_of(references)
+    record.update(screen_in_search(answer, refs[name], space.objective,
+                                   evaluator.problem.splits, space.n_evaluations))
+    if record["screen_p_value"] <= spec.alpha:
+        record["stage"] = "in-search screen"
+        record["passed"] = True
+        record["decision"] = ("kept: the answer beats the fallback on the search's folds "
+                              "even after a Bonferroni correction for every subset evaluated")
+        return answer, record
+    record["stage"] = "nested"
+    options = {
+        "budget": space.budget, "max_features": space.max_features,
+        "max_evaluations": space.max_evaluations, "max_time_s": space.max_time_s,
+        "must_include": list(space.must_include), "never_include": sorted(space.never_include),
+        "pick": pick, "racing": evaluator.race, "journal": evaluator.journal,
+        "chunk_size": evaluator.chunk_size, "on_fit_error": evaluator.on_fit_error,
+        "share_preprocessing": evaluator.plan.head is not None,
+        "fast_path": evaluator.fast_path is not None,
+    }
+    record.update(run_nested_guard(spec, evaluator.problem, strat, space.objective,
+                                   seed=seed, n_jobs=evaluator.n_jobs,
+                                   search_options=options))
+    if record["passed"]:
+        record["decision"] = "kept: the answer beats the fallback on the outer folds"
+        return answer, record
+    record["decision"] = f"replaced by '{name}': no evidence that buying measurements pays"
+    record["replaced"] = [space.feature_names[i] for i in answer.subset]
+    return refs[name], record
+
+
 def _search(evaluator, strat, cost_model, names, budget, objective, max_features,
             max_evaluations, max_time_s, must_include, never_include, seed, callback,
-            pick, scoring, t0, verbose=0) -> SearchResult:
+            pick, scoring, t0, verbose=0, guard_spec=None) -> SearchResult:
     space = SearchSpace(
         evaluator,
         cost_model,
@@ -257,13 +427,29 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
     total = expected(space) if callable(expected) else None
     space.progress = SearchProgress(verbose, total=total or max_evaluations,
                                     max_time_s=max_time_s, desc=strat.name)
+    refs: dict[str, Scored] = {}
     try:
+        # References first: the strategy then gets them from the cache, and the limits
+        # count every subset evaluated.
+        refs.update(_evaluate_references(space))
         strat.run(space)
     except StopSearch:
         limited = True
     finally:
         space.progress.close()
-    best = _pick(space, pick)
+    if len(refs) < len(REFERENCES):  # a limit stopped the references themselves
+        for name, subset in reference_subsets(space).items():
+            if name not in refs and subset in space.visited:
+                refs[name] = space.visited[subset]
+    references = {n: _reference_record(space, sc) for n, sc in refs.items()}
+    best, pick_info = _pick(space, pick, refs)
+    search_fits = evaluator.n_fits - fits_before
+    guard_info: dict[str, Any] = {"name": "off", "decision": "off", "n_fits": 0}
+    if best is not None:
+        best, guard_info = _guard(guard_spec, evaluator, strat, space, pick, seed,
+                                  best, refs, references)
+    for n, sc in refs.items():
+        references[n]["is_answer"] = best is not None and sc.subset == best.subset
     path = [
         PathRow(
             st.step, st.action, st.feature, tuple(names[i] for i in st.subset),
@@ -283,47 +469,41 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
     extras = dict(space.extras)
     if isinstance(evaluator, CrossValidationEvaluator):
         extras["engine"] = evaluator.stats()
+    common = dict(
+        cost_unit=cost_model.unit, budget=budget, scoring=scoring, strategy=strategy_desc,
+        path=path, n_evaluations=space.n_evaluations, n_fits=search_fits,
+        n_cache_hits=evaluator.n_cache_hits - hits_before, extras=extras,
+        references=references, pick=pick_info, guard=guard_info,
+        evaluations=evaluations, seed=seed,
+    )
     if best is None:
         reason = space.stop_reason or "no allowed subset was evaluated"
         if failures.get("none_scored"):
             reason = failures["message"]
         return SearchResult(
-            selected=[], support=[], cost=0.0, cost_unit=cost_model.unit, cost_breakdown=[],
-            budget=budget, score_mean=float("nan"), score_std=float("nan"), fold_scores=[],
-            scoring=scoring, objective={**space.objective.describe(), "value": None},
-            strategy=strategy_desc, path=path, n_evaluations=space.n_evaluations,
-            n_fits=evaluator.n_fits - fits_before,
-            n_cache_hits=evaluator.n_cache_hits - hits_before,
+            selected=[], support=[], cost=0.0, cost_breakdown=[],
+            score_mean=float("nan"), score_std=float("nan"), fold_scores=[],
+            objective={**space.objective.describe(), "value": None},
             wall_time=time.perf_counter() - t0,
-            stop_reason=reason, success=False, extras=extras, failures=failures,
-            evaluations=evaluations, seed=seed,
+            stop_reason=reason, success=False, failures=failures,
+            **common,
         )
     ev = best.evaluation
     return SearchResult(
         selected=[names[i] for i in best.subset],
         support=list(best.subset),
         cost=best.cost,
-        cost_unit=cost_model.unit,
         cost_breakdown=cost_model.breakdown(best.subset),
-        budget=budget,
         score_mean=ev.mean,
         score_std=ev.std,
         fold_scores=[float(s) for s in ev.fold_scores],
-        scoring=scoring,
         objective={**space.objective.describe(), "value": best.value, "pick": pick},
-        strategy=strategy_desc,
-        path=path,
-        n_evaluations=space.n_evaluations,
-        n_fits=evaluator.n_fits - fits_before,
-        n_cache_hits=evaluator.n_cache_hits - hits_before,
         wall_time=time.perf_counter() - t0,
         stop_reason=space.stop_reason or "strategy finished",
         success=not limited,
-        extras=extras,
-        evaluations=evaluations,
-        seed=seed,
         failed_folds=list(ev.failed_folds),
         failures=failures,
+        **common,
     )
 
 

@@ -24,8 +24,9 @@ from featuresift._compat import warn_renamed
 from featuresift.columns import needs_frame
 from featuresift.costs import CostModel, make_cost_model
 from featuresift.errors import FitFailedError, InputError
+from featuresift.guard import DEFAULT_GUARD
 from featuresift.problem import SelectionProblem
-from featuresift.search import run_search
+from featuresift.search import DEFAULT_PICK, run_search
 
 __all__ = ["MeasurementSelector", "build_cost_model"]
 
@@ -103,8 +104,14 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         Largest subset size.
     must_include, never_include : sequence of names or column indices
         Measurements always taken / not available.
-    pick : {"best", "one_se"}, default="best"
-        Final pick rule (see :func:`featuresift.run_search`).
+    pick : {"one-se", "best"}, default="one-se"
+        Final pick rule (see :func:`featuresift.run_search`): the cheapest subset within
+        one standard error of the best, or the best.
+    guard : {"nested", "off"} or dict, default="nested"
+        Noise guard (see :mod:`featuresift.guard`): keep measurements only if they beat
+        buying nothing on outer folds the search never saw (about 5x the fits of the
+        search; "off" to skip, e.g. inside a grid search). When the answer is to buy
+        nothing, ``transform`` returns zero columns (scikit-learn warns).
     seed : int, optional, default=0
         Seed of stochastic strategies (recorded in ``result_.seed``).
     n_jobs : int, optional
@@ -176,7 +183,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         max_features: int | None = None,
         must_include: Iterable[int | str] = (),
         never_include: Iterable[int | str] = (),
-        pick: str = "best",
+        pick: str = DEFAULT_PICK,
+        guard: Any = DEFAULT_GUARD,
         seed: int | None = 0,
         n_jobs: int | None = None,
         verbose: int = 0,
@@ -201,6 +209,7 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         self.must_include = must_include
         self.never_include = never_include
         self.pick = pick
+        self.guard = guard
         self.seed = seed
         self.n_jobs = n_jobs
         self.verbose = verbose
@@ -277,6 +286,7 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
             must_include=list(self.must_include),
             never_include=list(self.never_include),
             pick=self.pick,
+            guard=self.guard,
             seed=seed,
             n_jobs=self.n_jobs,
             verbose=self.verbose,

@@ -200,7 +200,7 @@ BAD_CASES = [
     ("wrong-type-exclude", edit("exclude: [lot_id]", "exclude: {lot_id: 1}"), None,
      ["expected a list"], "data.exclude", "exclude: {lot_id"),
     ("wrong-type-pick", edit("seed: 0\nn_jobs", "pick: median\nseed: 0\nn_jobs"), None,
-     ["best", "one_se", "'median'"], "pick", "pick: median"),
+     ["best", "one-se", "'median'"], "pick", "pick: median"),
     ("non-numeric-column", None, frame_edit(_text_cell),
      ["column 'protein_nir_pct'", "not numeric", "data row 5", "n/a?"], None, None),
     ("all-missing-column", None,

@@ -95,7 +95,7 @@ def _two_tests_problem():
 
 def test_expected_total_cost_picks_the_cheap_test():
     problem, cv = _two_tests_problem()
-    by_score = run_search(problem, "exhaustive")
+    by_score = run_search(problem, "exhaustive", pick="best", guard="off")
     assert by_score.selected == ["expensive"]  # the more accurate test
 
     def reference_total(col, matrix):
@@ -107,7 +107,7 @@ def test_expected_total_cost_picks_the_cheap_test():
 
     # Errors cost little: the expensive test's 2% fewer errors are not worth 0.99.
     cheap_errors = [[0, 1], [1, 0]]
-    res = run_search(problem, "exhaustive", objective={
+    res = run_search(problem, "exhaustive", pick="best", guard="off", objective={
         "name": "expected_cost", "labels": [0, 1], "cost_matrix": cheap_errors})
     assert res.selected == ["cheap"] and res.scoring == "expected_cost scorer"
     assert reference_total(0, cheap_errors) == pytest.approx(0.10 + 0.01)
@@ -115,7 +115,7 @@ def test_expected_total_cost_picks_the_cheap_test():
     assert -res.objective["value"] == pytest.approx(reference_total(0, cheap_errors))
     # When a wrong call costs 100, the better test pays for itself (8 + 1 < 10 + 0.01).
     dear_errors = [[0, 100], [100, 0]]
-    res = run_search(problem, "exhaustive",
+    res = run_search(problem, "exhaustive", pick="best", guard="off",
                      objective={"name": "expected_cost", "cost_matrix": dear_errors})
     assert res.selected == ["expensive"]
     assert -res.objective["value"] == pytest.approx(reference_total(1, dear_errors))

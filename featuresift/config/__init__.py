@@ -61,7 +61,10 @@ Relative paths are relative to the folder of the YAML file.
     limits: {max_features: null, max_evaluations: null, max_time_s: null}
     must_include: []                # measurements always taken
     never_include: []               # measurements not available
-    pick: best                      # best | one_se
+    pick: one-se                    # one-se: cheapest subset within one standard error of
+                                    #   the best (Breiman et al. 1984) | best
+    guard: nested                   # noise guard: nested | off | {name: nested, folds: 5,
+                                    #   alpha: 0.05}; see featuresift.guard
     seed: 0                         # random seed of stochastic strategies
     n_jobs: 1                       # parallel model fits (joblib)
     output:
@@ -116,6 +119,7 @@ from featuresift.config.plan import describe_plan
 from featuresift.config.sweep import sweep_from_config, write_sweep_files
 from featuresift.config.nested import nested_from_config
 from featuresift.config import engine as _engine  # noqa: F401
+from featuresift.config import guard as _guard  # noqa: F401
 # isort: on
 
 __all__ = [

@@ -52,7 +52,8 @@ def load_config(
         Values that replace the file's: ``output`` (a folder, relative to the current
         directory and not restricted to the config's folder), ``n_jobs``, ``budget``
         (``float('inf')`` for unlimited), ``strategy`` (a name; the file's strategy
-        options are dropped unless the name is unchanged) and ``seed``. None means
+        options are dropped unless the name is unchanged), ``seed``, ``pick`` and
+        ``guard``. None means
         "not given".
 
     Returns
@@ -90,7 +91,7 @@ def load_config(
     ctx = _Context(lines, path.parent, (k for k in given if k != "output"), trusted)
     ctx.mapping(raw, "", SECTIONS)
     raw = dict(raw)
-    for k in ("budget", "n_jobs", "seed"):
+    for k in ("budget", "n_jobs", "seed", "pick", "guard"):
         if k in given:
             raw[k] = given[k]
     if "strategy" in given:

@@ -32,7 +32,7 @@ PREPROCESSORS: dict[str, Callable[[], Any]] = {
 }
 """Preprocessing step names accepted in ``model.preprocessing`` and their factories."""
 
-OVERRIDES = ("output", "n_jobs", "budget", "strategy", "seed")
+OVERRIDES = ("output", "n_jobs", "budget", "strategy", "seed", "pick", "guard")
 """Keys :func:`load_config` accepts as command-line overrides."""
 
 

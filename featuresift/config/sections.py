@@ -29,7 +29,7 @@ from featuresift.config.trust import TRUST_ENV, file_parameters, import_trusted,
 from featuresift.errors import InputError
 from featuresift.objectives import OBJECTIVES, make_objective
 from featuresift.problem import SelectionProblem
-from featuresift.search import PICK_RULES
+from featuresift.search import DEFAULT_PICK, PICK_RULES, check_pick
 from featuresift.strategies import STRATEGIES, make_strategy
 from featuresift.strategies.base import resolve_strategy_name
 
@@ -369,10 +369,12 @@ def _parse_limits(value: Any, ctx: _Context) -> LimitsSpec:
 
 
 def _parse_pick(value: Any, ctx: _Context) -> str:
-    pick = ctx.string("best" if value is None else value, "pick")
-    if pick not in PICK_RULES:
-        raise ctx.error(f"expected one of {', '.join(PICK_RULES)}, got '{pick}'", "pick")
-    return pick
+    pick = ctx.string(DEFAULT_PICK if value is None else value, "pick")
+    try:
+        return check_pick(pick)
+    except InputError:
+        raise ctx.error(f"expected one of {', '.join(PICK_RULES)}, got '{pick}'",
+                        "pick") from None
 
 
 def _parse_n_jobs(value: Any, ctx: _Context) -> int | None:
