@@ -207,6 +207,7 @@ def run_search(
     never_include: Iterable[int | str] = (),
     pick: str = DEFAULT_PICK,
     guard: str | dict | bool | None = DEFAULT_GUARD,
+    references: bool = True,
     seed: int | None = 0,
     n_jobs: int | None = None,
     callback: Callable | None = None,
@@ -249,6 +250,10 @@ def run_search(
         1984), or the best itself. The references "nothing" and "free only" (and
         "everything" when allowed) are evaluated in every run and compete. The old
         spelling "one_se" is accepted.
+    references : bool, default=True
+        Evaluate the references (:data:`REFERENCES`) and let them compete for the answer.
+        False gives a strategy's raw answer (for studying strategies: benchmarks and the
+        strategy contract); the guard then has no fallback and is skipped.
     guard : {"nested", "off"} or dict, default="nested"
         Noise guard (:mod:`featuresift.guard`): re-run the search inside K outer folds
         and keep an answer that buys measurements only if it beats the better of
@@ -340,7 +345,8 @@ def run_search(
     try:
         return _search(evaluator, strat, cost_model, names, budget, objective, max_features,
                        max_evaluations, max_time_s, must_include, never_include,
-                       seed, callback, pick, scoring, t0, verbose, guard_spec)
+                       seed, callback, pick, scoring, t0, verbose, guard_spec,
+                       bool(references))
     finally:
         if owned:
             evaluator.close()  # closes a journal this call opened
@@ -368,6 +374,9 @@ def _guard(spec, evaluator, strat, space, pick, seed, answer, refs, references):
     record: dict[str, Any] = {**spec.describe(), "n_fits": 0}
     fallback_subsets = {refs[n].subset for n in FALLBACKS
                         if n in refs and references[n]["allowed"]}
+    if not fallback_subsets:
+        record["decision"] = "skipped: no reference to fall back to (references off)"
+        return answer, record
     if answer.subset in fallback_subsets:
         record["decision"] = "not needed: the answer buys no measurement"
         return answer, record
@@ -406,7 +415,8 @@ def _guard(spec, evaluator, strat, space, pick, seed, answer, refs, references):
 
 def _search(evaluator, strat, cost_model, names, budget, objective, max_features,
             max_evaluations, max_time_s, must_include, never_include, seed, callback,
-            pick, scoring, t0, verbose=0, guard_spec=None) -> SearchResult:
+            pick, scoring, t0, verbose=0, guard_spec=None,
+            with_references=True) -> SearchResult:
     space = SearchSpace(
         evaluator,
         cost_model,
@@ -431,13 +441,14 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
     try:
         # References first: the strategy then gets them from the cache, and the limits
         # count every subset evaluated.
-        refs.update(_evaluate_references(space))
+        if with_references:
+            refs.update(_evaluate_references(space))
         strat.run(space)
     except StopSearch:
         limited = True
     finally:
         space.progress.close()
-    if len(refs) < len(REFERENCES):  # a limit stopped the references themselves
+    if with_references and len(refs) < len(REFERENCES):  # a limit stopped the references themselves
         for name, subset in reference_subsets(space).items():
             if name not in refs and subset in space.visited:
                 refs[name] = space.visited[subset]

@@ -117,6 +117,9 @@ def _run(spec: StrategySpec, **kwargs: Any) -> tuple[SearchResult, CriterionEval
     evaluator = CriterionEvaluator(counted, costs.n_features, list(costs.feature_names))
     evaluator.contract_calls = calls  # type: ignore[attr-defined]
     strategy = make_strategy(spec) if not isinstance(spec, SearchStrategy) else spec
+    # The contract is about the strategy itself: its raw answer, without the references,
+    # the default pick rule or the noise guard of a full run.
+    kwargs = {"references": False, "pick": "best", "guard": "off", **kwargs}
     result = run_search(evaluator, strategy, costs=costs, **kwargs)
     return result, evaluator
 

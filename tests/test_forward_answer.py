@@ -7,14 +7,17 @@ def test_tolerance_rejected_candidate_is_not_the_answer():
     # Additive criterion: a=0.5, b=0.3, c=0.001. With tol=0.002 the step that would add
     # c (gain 0.001) is turned down, so the answer must be {a, b} even though {a, b, c}
     # was evaluated and scores higher.
-    weights = {0: 0.5, 1: 0.3, 2: 0.001}
-    ev = CriterionEvaluator(lambda s: sum(weights[i] for i in s), 3, ["a", "b", "c"])
-    res = run_search(ev, "forward", costs=CostModel.uniform(["a", "b", "c"]), tol=0.002)
+    # d (weight -0.01) keeps the "everything" reference below {a, b}, so the final pick
+    # (which also weighs the references) sees the strategy's own answer win.
+    weights = {0: 0.5, 1: 0.3, 2: 0.001, 3: -0.01}
+    names = ["a", "b", "c", "d"]
+    ev = CriterionEvaluator(lambda s: sum(weights[i] for i in s), 4, names)
+    res = run_search(ev, "forward", costs=CostModel.uniform(names), tol=0.002)
     assert res.selected == ["a", "b"]
     assert res.path[-1].features == ("a", "b")
     assert ev.lookup([0, 1, 2]) is not None  # the better-scoring candidate was seen
     assert "0.002" in res.stop_reason
     # With tol=0 the small gain counts and c is bought.
-    ev0 = CriterionEvaluator(lambda s: sum(weights[i] for i in s), 3, ["a", "b", "c"])
-    res0 = run_search(ev0, "forward", costs=CostModel.uniform(["a", "b", "c"]), tol=0.0)
+    ev0 = CriterionEvaluator(lambda s: sum(weights[i] for i in s), 4, names)
+    res0 = run_search(ev0, "forward", costs=CostModel.uniform(names), tol=0.0)
     assert res0.selected == ["a", "b", "c"]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from functools import partial
 
 import numpy as np
 import pytest
@@ -18,7 +19,10 @@ from sklearn.preprocessing import StandardScaler
 from featuresift.costs import CostModel
 from featuresift.engine.evaluator import CriterionEvaluator
 from featuresift.problem import SelectionProblem
-from featuresift.search import run_search
+from featuresift.search import run_search as _run_search
+
+# These tests study the strategies' own answers: no references, best pick, no guard.
+run_search = partial(_run_search, references=False, pick="best", guard="off")
 
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from functools import partial
 from itertools import combinations
 
 import numpy as np
@@ -27,6 +28,9 @@ from featuresift.strategies import STRATEGIES, SearchSpace, SimulatedAnnealing
 from featuresift.strategies.annealing import neighbours
 from featuresift.strategies.exhaustive import allowed_subsets
 from featuresift.strategies.genetic import marginal_estimates, repair_by_value
+
+# These tests study the strategies' own answers: no references, best pick, no guard.
+run_search = partial(run_search, references=False, pick="best", guard="off")
 
 FAST = {
     "annealing": {"n_steps": 10, "n_neighbours": 4, "n_restarts": 1},
