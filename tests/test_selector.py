@@ -94,7 +94,7 @@ def test_strategy_options_and_must_never_include(iris_frame):
     X, y = iris_frame
     sel = MeasurementSelector(
         GaussianNB(), strategy={"name": "forward", "options": {"n_features": 3}}, cv=3,
-        must_include=["sepal width (cm)"], never_include=["petal length (cm)"],
+        must_include=["sepal width (cm)"], never_include=["petal length (cm)"], pick="best",
     ).fit(X, y)
     assert len(sel.selected_features_) == 3
     assert "sepal width (cm)" in sel.selected_features_
