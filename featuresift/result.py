@@ -619,7 +619,8 @@ class SearchResult:
         folds = ", ".join(f"{s:.4f}" for s in self.fold_scores)
         if self.fold_scores:
             lines.append(f"CV {score_label('in-search', self.scoring)}: "
-                         f"{self.score_mean:.4f} ± {self.score_std:.4f} (sample std over {len(self.fold_scores)} folds)")
+                         f"{self.score_mean:.4f} ± {self.score_std:.4f} (sample std over "
+                         f"{len(self.fold_scores)} folds)")
             lines.append(f"  per fold: {folds}")
         else:
             lines.append(f"CV {self.scoring}: no score (no subset was chosen)")
