@@ -519,7 +519,9 @@ class Frontier:
             return "no point fits the budget"
         if isinstance(key, str):
             ref = self.references[key]
-            what = " + ".join(ref["features"]) if ref["features"] else "no measurement"
+            feats = ref["features"]
+            what = (" + ".join(feats) if 0 < len(feats) <= 6
+                    else f"{len(feats)} measurements" if feats else "no measurement")
             mean, sem = ref.get("score_mean"), ref.get("score_sem") or 0.0
             score = "—" if mean is None else f"{mean:.4f} ± {sem:.4f} (s.e.)"
             return (f"reference '{key}': {what} — cost {float(ref['cost']):g} "
@@ -544,7 +546,8 @@ class Frontier:
                          "answer): " + self._describe(self.best_index))
         for name in self.references:
             if name != head:
-                lines.append("Reference: " + self._describe(name))
+                text = self._describe(name)
+                lines.append(text[0].upper() + text[1:])
         if self.guard:
             g = self.guard
             detail = f", p = {g['p_value']:.3g}" if isinstance(g.get("p_value"), float) else ""
@@ -836,7 +839,7 @@ def budget_sweep(
         elif head is not None:
             # The search at the headline's budget again (its fits are cached), now with
             # the guard: is buying measurements better than the fallback on outer folds?
-            res = run_search(shared, strategy, cost_model=problem.cost_model,
+            res = run_search(shared, strategy, costs=problem.cost_model,
                              budget=budgets[head], guard=guard, **search_options)
             frontier.guard = dict(res.guard)
             if res.guard.get("replaced"):
