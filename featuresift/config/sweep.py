@@ -100,8 +100,14 @@ def sweep_from_config(
     ...     fr = sweep_from_config(load_config(write_demo(d, n_lots=60)[1]), budgets=[0.5, 1.0])
     >>> fr.budgets, [r.cost <= b for r, b in zip(fr.results, fr.budgets)]
     ([0.5, 1.0], [True, True])
-    >>> fr.n_fits < fr.n_fits_without_cache, fr.budget, fr.headline.cost <= fr.budget
-    (True, 30.0, True)
+    >>> fr.n_fits < fr.n_fits_without_cache, fr.budget
+    (True, 30.0)
+
+    On 60 lots no paid test beats the values on hand on the outer folds, so the noise
+    guard turns the headline into the "free only" reference:
+
+    >>> fr.headline_key, fr.guard["decision"].split(":")[0]
+    ('free only', "replaced by 'free only'")
     """
     from featuresift.config.nested import nested_from_config, nested_spec
     from featuresift.frontier import budget_sweep, default_budgets
