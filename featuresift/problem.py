@@ -32,6 +32,7 @@ from featuresift._compat import renamed_keywords
 from featuresift.columns import ColumnSpec, TypedColumns, encode_frame, needs_frame
 from featuresift.costs import CostModel, make_cost_model
 from featuresift.errors import InputError
+from featuresift.scoring import check_scoring_target
 
 __all__ = ["SelectionProblem", "make_splitter"]
 
@@ -261,6 +262,9 @@ class SelectionProblem:
                 f"unknown scorer '{scoring}'; use a scikit-learn scorer name "
                 "(sklearn.metrics.get_scorer_names())"
             )
+        # The scorer must be able to score this target (roc_auc on three classes, ...):
+        # said here, before any fit, with the scorer to use instead.
+        check_scoring_target(scoring, y_arr, classification=self.classification)
         self.scoring = scoring
         self.scorer = check_scoring(estimator, scoring=scoring)
         if self.groups is not None and self.groups.shape[0] != X_arr.shape[0]:
