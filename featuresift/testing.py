@@ -182,10 +182,12 @@ def check_must_never(spec: StrategySpec) -> None:
         spec, budget=7.0, must_include=["f1"], never_include=["f0", "f6"], seed=1
     )
     where = f"strategy {_label(spec)!r}"
-    assert must <= set(result.support), f"{where}: must_include missing from the answer"
+    # What was evaluated first: a strategy that fits a forbidden subset is wrong even
+    # when its final answer happens to be allowed.
     for ev in evaluator.history:
         assert must <= set(ev.subset), f"{where}: evaluated {ev.subset} without must_include"
         assert not (never & set(ev.subset)), f"{where}: evaluated {ev.subset} with never_include"
+    assert must <= set(result.support), f"{where}: must_include missing from the answer"
 
 
 def check_limits(spec: StrategySpec) -> None:
