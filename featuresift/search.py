@@ -551,8 +551,11 @@ def failure_summary(space: SearchSpace, evaluator: BaseEvaluator) -> dict[str, A
         return {}
     error_score = getattr(evaluator, "error_score", math.nan)
     unscored = [e for e in failed if not e.has_score]
+    # The empty set is scored by a prior-only model, not by the user's: when the model
+    # itself never produced a score on any measurement set, nothing could be scored.
     none_scored = not any(
-        sc.complete and sc.evaluation.has_score for sc in space.visited.values())
+        sc.complete and sc.evaluation.has_score and sc.subset
+        for sc in space.visited.values())
     failed.sort(key=lambda e: (-e.n_failed_folds, e.subset))
     first = failed[0]
     n_folds = len(first.fold_scores)

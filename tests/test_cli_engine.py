@@ -133,8 +133,10 @@ def test_error_score_from_yaml_scores_failed_folds(tmp_path):
                          "preprocessing": ["impute_median", "scale"]})
     assert main(["run", str(path), "-q"]) == 0
     res = json.loads((latest_run(tmp_path / "out") / "result.json").read_text())
-    # Every fold failed and counts as 0.25: a score, but the result says why.
-    assert res["score"]["folds"] == [0.25] * 3 and res["score"]["failed_folds"] == [0, 1, 2]
+    # Every fold of every measurement set failed and counts as 0.25 (scikit-learn's
+    # error_score convention): below the prior-only model's ROC AUC of 0.5, so the answer
+    # is to buy nothing, and the result says how many fits failed.
+    assert res["selected"] == [] and res["score"]["folds"] == [0.5] * 3
     assert res["failures"]["error_score"] == 0.25
-    assert res["failures"]["n_failed_fits"] == 3 * res["n_evaluations"]
+    assert res["failures"]["n_failed_fits"] > 0 and res["failures"]["n_failed_fits"] % 3 == 0
 

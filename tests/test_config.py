@@ -319,7 +319,7 @@ def test_yaml_syntax_error_reports_the_line(tmp_path):
 def test_good_config_is_parsed(tmp_path):
     cfg = load_config(write_case(tmp_path))
     assert cfg.candidates == COLUMNS[2:]  # data order, lot_id and target left out
-    assert cfg.budget == 10.0 and cfg.pick == "best" and cfg.n_jobs == 1
+    assert cfg.budget == 10.0 and cfg.pick == "one-se" and cfg.n_jobs == 1
     assert cfg.strategy == {"name": "forward", "options": {"n_features": 3}}
     assert cfg.output == (tmp_path / "results" / "case").resolve()
     assert cfg.cost_model.cost(["don_ppm", "zearalenone_ppb", "moisture_pct"]) == 20.5

@@ -20,6 +20,8 @@ from featuresift import (
     run_search,
 )
 
+RAW = {"references": False, "pick": "best", "guard": "off"}  # the strategy's own answer
+
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
 
 NAMES = ["sl", "sw", "pl", "pw"]
@@ -32,7 +34,7 @@ def objects():
                    unit="EUR")
     groups = np.arange(150) % 6
     problem = SelectionProblem(X, y, GaussianNB(), costs=cm, cv=3, groups=groups)
-    result = run_search(problem, "forward", budget=4.0)
+    result = run_search(problem, "forward", **RAW, budget=4.0)
     frontier = budget_sweep(problem, [1.0, 3.0, None])
     nested = nested_evaluation(X, y, GaussianNB(), costs=cm, outer_cv=3, inner_cv=3,
                                budget=3.0)

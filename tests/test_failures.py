@@ -23,6 +23,8 @@ from featuresift.report import render_report
 from featuresift.result import SearchResult
 from featuresift.selector import MeasurementSelector
 
+RAW = {"references": False, "pick": "best", "guard": "off"}  # the strategy's own answer
+
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
 
 MARKS = (0.25, 1.25)
@@ -66,7 +68,7 @@ def _problem(scoring="accuracy"):
 
 def test_a_subset_with_failed_folds_is_never_chosen_by_default():
     p = _problem()
-    res = run_search(p, "forward", n_features=1, on_fit_error="record")
+    res = run_search(p, "forward", **RAW, n_features=1, on_fit_error="record")
     # The mean of the one fold that fitted would be 1.0 (the wrong answer).
     assert res.selected == ["x0"]
     assert res.failed_folds == [] and res.success
@@ -91,7 +93,7 @@ def test_error_score_counts_failed_folds_like_scikit_learn():
     assert e.mean == pytest.approx(ref.mean()) and e.status == "complete"
     assert e.n_failed_folds == 4 and e.failed_folds == (1, 2, 3, 4)
     # A generous error_score makes the subset win, and the result says so.
-    res = run_search(p, "forward", n_features=1, on_fit_error="record", error_score=1.0)
+    res = run_search(p, "forward", **RAW, n_features=1, on_fit_error="record", error_score=1.0)
     assert res.selected == ["x3"] and res.failed_folds == [1, 2, 3, 4]
     assert res.score_mean == 1.0
     assert "4 of 5 folds FAILED" in res.summary()
@@ -129,7 +131,7 @@ def test_nan_score_is_a_failure_under_both_policies():
 
 
 def test_every_fit_failing_gives_a_clear_answer_and_strict_json(tmp_path):
-    res = run_search(_one_class_fold_problem(), "forward", on_fit_error="record")
+    res = run_search(_one_class_fold_problem(), "forward", **RAW, on_fit_error="record")
     assert not res.success and res.selected == []
     assert res.stop_reason.startswith("no subset could be scored")
     info = res.failures
@@ -146,7 +148,7 @@ def test_every_fit_failing_gives_a_clear_answer_and_strict_json(tmp_path):
 
 
 def test_outputs_show_the_counts(tmp_path):
-    res = run_search(_problem(), "forward", n_features=2, on_fit_error="record")
+    res = run_search(_problem(), "forward", **RAW, n_features=2, on_fit_error="record")
     res.write(tmp_path)
     data = json.loads((tmp_path / "result.json").read_text())
     assert data["failures"]["n_failed_fits"] == 8  # x3 and x0 + x3, 4 folds each
@@ -165,7 +167,7 @@ def test_outputs_show_the_counts(tmp_path):
     assert table[("x0",)].n_failed_folds == 0
     assert SearchResult.from_json(res.to_json()).to_dict() == res.to_dict()
     # With an error score that makes the failing column win, the path shows the count.
-    res = run_search(_problem(), "forward", n_features=1, on_fit_error="record",
+    res = run_search(_problem(), "forward", **RAW, n_features=1, on_fit_error="record",
                      error_score=1.0)
     assert res.path[-1].n_failed_folds == 4
     assert "| 4 |" in render_report(res)
@@ -197,7 +199,8 @@ def test_error_score_is_checked_and_reaches_the_sweep():
     for bad in ("raise", True, math.inf):
         with pytest.raises(InputError, match="error_score"):
             CrossValidationEvaluator(p, error_score=bad)
-    fr = budget_sweep(p, [1.0], strategy="forward", on_fit_error="record", error_score=0.0)
+    fr = budget_sweep(p, [1.0], strategy="forward", on_fit_error="record", error_score=0.0,
+                      references=False)
     assert fr.results[0].failures["error_score"] == 0.0
     assert fr.to_frame()["n_failed_fits"].tolist() == [4]
 

@@ -13,6 +13,7 @@ from featuresift.filters import (
     relevance_scores,
 )
 
+RAW = {"references": False, "pick": "best", "guard": "off"}  # the strategy's own answer
 
 def test_gain_per_cost_trap_returns_the_item_worth_ten():
     # Failure mode of benefit/cost greedy described by Leskovec et al. (2007), "Cost-effective
@@ -171,7 +172,7 @@ def test_filter_order_strategy_evaluates_prefixes_in_one_batch():
     X, y = _informative(n=200, seed=5)
     sel = mrmr(X, y, 4)
     prob = SelectionProblem(X, y, LogisticRegression(), cv=3)
-    res = run_search(prob, "filter-order", order=sel.selected)
+    res = run_search(prob, "filter-order", **RAW, order=sel.selected)
     assert res.n_evaluations == 4
     assert set(res.selected) <= set(sel.selected)
     assert [r.feature for r in res.path] == sel.selected
@@ -179,7 +180,7 @@ def test_filter_order_strategy_evaluates_prefixes_in_one_batch():
     cm = CostModel(prob.feature_names, {n: (5.0 if n == sel.selected[1] else 1.0)
                                         for n in prob.feature_names})
     prob2 = SelectionProblem(X, y, LogisticRegression(), costs=cm, cv=3)
-    res2 = run_search(prob2, "filter-order", order=sel.selected, budget=3.0)
+    res2 = run_search(prob2, "filter-order", **RAW, order=sel.selected, budget=3.0)
     assert sel.selected[1] not in [r.feature for r in res2.path]
     assert res2.cost <= 3.0
     with pytest.raises(InputError, match="non-empty list"):
@@ -192,7 +193,7 @@ def test_greedy_candidates_restrict_a_wrapper_search():
     X, y = _informative(n=200, seed=6)
     sel = budgeted_greedy(X, y, relevance="anova_f", n_features=3)
     prob = SelectionProblem(X, y, LogisticRegression(), cv=3)
-    res = run_search(prob, "forward", n_features=2, **sel.search_options())
+    res = run_search(prob, "forward", **RAW, n_features=2, **sel.search_options())
     assert set(res.selected) <= set(sel.selected)
 
 

@@ -32,6 +32,8 @@ abcde 26 abcdf 31 abcef 25 abdef 2 acdef 27 bcdef 13   abcdef 28
 _NAMES = list("abcdef")
 
 
+RAW = {"references": False, "pick": "best", "guard": "off"}  # the strategy's own answer
+
 def _six_feature_space(**kwargs) -> SearchSpace:
     tokens = _TABLE.split()
     table = {
@@ -90,13 +92,13 @@ def test_sequential_floor_keeps_the_better_record_per_size():
 
 def test_n_features_answers_with_the_record_of_that_size():
     costs = CostModel.uniform(_NAMES)
-    res = run_search(_six_feature_space().evaluator, "floating-forward", n_features=4,
+    res = run_search(_six_feature_space().evaluator, "floating-forward", **RAW, n_features=4,
                      costs=costs, sequential_floor=False)
     # Stops at size 4: acdf(30) is the record then (hand-traced SFFS, step 4).
     assert "".join(res.selected) == "acdf"
     assert res.extras["best_by_size"].keys() == {1, 2, 3, 4}
     # Looking one size beyond lets the backtrack from abcdf improve size 4 (step 5).
-    res = run_search(_six_feature_space().evaluator, "floating-forward", n_features=4,
+    res = run_search(_six_feature_space().evaluator, "floating-forward", **RAW, n_features=4,
                      look_beyond=1, costs=costs, sequential_floor=False)
     assert "".join(res.selected) == "abcd" and res.score_mean == 35
 
@@ -174,7 +176,7 @@ def test_floating_stays_within_budget_and_limits():
     FloatingForwardSearch().run(space)
     assert space.visited and all(space.is_allowed(s) for s in space.visited)
     res = run_search(CriterionEvaluator(_random_criterion(8, 11), 8, names),
-                     "floating-backward", costs=costs, budget=6.0,
+                     "floating-backward", **RAW, costs=costs, budget=6.0,
                      must_include=["x1"], never_include=["x4"], max_features=4,
                      sequential_floor=False)
     assert costs.cost(res.support) <= 6.0 and "x1" in res.selected and len(res.selected) <= 4

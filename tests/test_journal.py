@@ -103,11 +103,13 @@ def _kill_mid_run(tmp_path, journal, stall_width, min_rows, racing="None"):
 @pytest.mark.parametrize("racing", [None, True])
 def test_resume_after_kill_gives_same_result_without_refitting(tmp_path, helper, racing):
     journal = tmp_path / "run.sqlite"
-    # Forward batches have 10, 9, 8, 7 candidates; the kill lands inside batch 3.
-    _kill_mid_run(tmp_path, journal, stall_width=3, min_rows=19, racing=racing)
+    # The references ("nothing" and "everything"; "free only" is "nothing" here) come
+    # first, one row each; then forward batches of 10, 9, 8, 7 candidates; the kill lands
+    # inside batch 3.
+    _kill_mid_run(tmp_path, journal, stall_width=3, min_rows=21, racing=racing)
     with Journal(journal) as j:
         stored = j.load(helper.problem().fingerprint())
-    assert len(stored) == 19  # batches 1 and 2, nothing of the unfinished batch 3
+    assert len(stored) == 21  # references, batches 1 and 2, nothing of unfinished batch 3
     folds_done = sum(t.n_folds - len(t.missing(range(t.n_folds))) for t in stored.values())
 
     resumed, ev = helper.search(journal, racing=racing)
@@ -117,7 +119,7 @@ def test_resume_after_kill_gives_same_result_without_refitting(tmp_path, helper,
     assert [r.features for r in resumed.path] == [r.features for r in reference.path]
     # No journaled fold was fitted again: the resumed run fits exactly the rest.
     assert ev.n_fits == ref_ev.n_fits - folds_done
-    assert ev.n_journal_hits == 19
+    assert ev.n_journal_hits == 21
     ev.close()
     # A third run refits nothing at all.
     again, ev3 = helper.search(journal, racing=racing)
