@@ -432,7 +432,8 @@ def test_corpus_size_and_categories():
 def _run(args, cwd, env_extra=None):
     env = dict(os.environ)
     root = str(Path(__file__).resolve().parents[1])
-    env["PYTHONPATH"] = root + os.pathsep + env.get("PYTHONPATH", "")
+    # No trailing empty entry: Python would read it as the working directory.
+    env["PYTHONPATH"] = os.pathsep.join(p for p in (root, env.get("PYTHONPATH")) if p)
     env.update(env_extra or {})
     return subprocess.run(args, cwd=cwd, env=env, capture_output=True, text=True, timeout=120)
 
@@ -445,6 +446,19 @@ def test_python_m_does_not_import_a_module_next_to_the_config(tmp_path):
     assert proc.returncode == 2, proc.stderr
     assert "cannot import module 'labhook'" in proc.stderr
     assert proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr
+    assert not (lab / "MARKER").exists()
+
+
+def test_an_empty_pythonpath_entry_does_not_let_the_working_directory_in(tmp_path):
+    # `PYTHONPATH=/x:$PYTHONPATH` with the variable unset leaves an empty entry, which
+    # Python turns into the working directory (Python docs, "PYTHONPATH"; checked here).
+    lab, _ = _lab(tmp_path, CORPUS["module-next-to-config"])
+    root = str(Path(__file__).resolve().parents[1])
+    proc = _run([sys.executable, "-m", "featuresift", "validate", "case.yaml",
+                 "--trust-module", "labhook"], cwd=lab,
+                env_extra={"PYTHONPATH": root + os.pathsep})
+    assert proc.returncode == 2, proc.stderr
+    assert "cannot import module 'labhook'" in proc.stderr
     assert not (lab / "MARKER").exists()
 
 

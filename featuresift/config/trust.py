@@ -84,11 +84,19 @@ def _without_implicit_paths() -> Iterator[None]:
     """
     saved = list(sys.path)
     cwd = os.path.realpath(os.getcwd())
+    # An empty or "." entry in PYTHONPATH (``PYTHONPATH=/x:$PYTHONPATH`` with the
+    # variable unset) is turned into the working directory at start-up: an accident,
+    # not a choice, so it is set aside too. Explicit absolute folders stay.
+    env_entries = os.environ.get("PYTHONPATH", "").split(os.pathsep)
+    relative_in_env = "PYTHONPATH" in os.environ and any(e in ("", ".") for e in env_entries)
+    explicit = {os.path.realpath(e) for e in env_entries if e not in ("", ".")}
 
     def implicit(i: int, entry: str) -> bool:
         if entry in ("", "."):
             return True
-        return i == 0 and os.path.realpath(entry) == cwd
+        if os.path.realpath(entry) != cwd:
+            return False
+        return i == 0 or (relative_in_env and cwd not in explicit)
 
     sys.path[:] = [e for i, e in enumerate(saved) if not implicit(i, e)]
     try:
