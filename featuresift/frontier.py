@@ -21,10 +21,14 @@ Efficiency, exactly
     when they differ by at most 1e-9 (panel sums in floating point); scores are compared
     exactly.
 
-Default budgets
-    Round money values of the 1-2-5 series (1, 2, 5, 10, 20, 50 ... in the cost unit)
-    from the cheapest priced measurement or panel up to, not including, the price of
-    everything, thinned evenly to at most ``n - 1`` values, then unlimited.
+Default budgets (``budget_levels``)
+    ``"round"`` (default): round money values of the 1-2-5 series (1, 2, 5, 10, 20,
+    50 ... in the cost unit) from the cheapest priced measurement or panel up to, not
+    including, the price of everything, thinned evenly to at most ``n - 1`` values,
+    then unlimited. ``"costs"``: the distinct cost levels instead — the costs at which
+    the set of affordable measurements changes (sums of prices of lone measurements
+    and panels, :func:`cost_levels`), so no two budgets allow the same subsets; thinned
+    to at most ``n - 1`` levels spread evenly on a log scale, then unlimited.
 """
 
 from __future__ import annotations
@@ -35,6 +39,7 @@ import math
 import os
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from fractions import Fraction
 from pathlib import Path
 from typing import Any
 
@@ -49,7 +54,11 @@ from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult, score_label
 from featuresift.search import prepare_for_objective, run_search
 
-__all__ = ["Frontier", "budget_sweep", "default_budgets", "round_budgets", "efficient_points"]
+__all__ = ["Frontier", "budget_sweep", "default_budgets", "round_budgets", "cost_levels",
+           "efficient_points", "BUDGET_LEVELS"]
+
+BUDGET_LEVELS = ("round", "costs")
+"""How default budgets are placed: 1-2-5 round money values, or distinct cost levels."""
 
 _ENGINE_OPTIONS = ("racing", "journal", "chunk_size", "verbose", "on_fit_error",
                    "share_preprocessing", "fast_path", "error_score")
@@ -77,29 +86,87 @@ def round_budgets(low: float, high: float) -> list[float]:
     return out
 
 
-def default_budgets(cost_model: CostModel, n: int = 8) -> list[float | None]:
-    """Round budgets (1-2-5 series) from the cheapest priced item to the full cost.
+def cost_levels(cost_model: CostModel, limit: int = 2000) -> list[float]:
+    """Distinct positive costs of the purchasable subsets, cheapest first.
 
-    At most ``n - 1`` round values from :func:`round_budgets` between the cheapest
-    positive price of a measurement or panel and the price of every candidate (thinned
-    evenly, keeping the smallest and the largest), then None (unlimited).
+    A subset's cost is a sum of unit prices (a measurement outside any panel, or a
+    panel bought once), so these sums are exactly the budgets at which the set of
+    affordable subsets changes: any budget between two neighbouring levels allows the
+    same subsets as the lower one. Sums are exact (as :meth:`CostModel.cost` gives
+    them). When there are more than ``limit`` levels, the cheapest level of each of
+    ``limit`` equal-width cost bins is kept (each value is still an exact level).
+
+    Examples
+    --------
+    Two lone tests at 1 and 2 EUR and a panel at 2 EUR: sums 1, 2, 3, 4 and 5.
+
+    >>> cm = CostModel(["a", "b", "c", "d"], {"a": 1.0, "b": 2.0},
+    ...                panels={"p": (2.0, ["c", "d"])})
+    >>> cost_levels(cm)
+    [1.0, 2.0, 3.0, 4.0, 5.0]
+    """
+    prices = [Fraction(p) for p in cost_model.feature_costs.values() if p > 0]
+    prices += [Fraction(p) for p, _ in cost_model.panels.values() if p > 0]
+    if not prices:
+        return []
+    den = math.lcm(*(p.denominator for p in prices))  # exact integer arithmetic below
+    units = sorted(p.numerator * (den // p.denominator) for p in prices)
+    width = max(sum(units) // limit, 1)
+    levels = {0}
+    for price in units:
+        levels |= {v + price for v in levels}
+        if len(levels) > limit:  # keep the cheapest level of each bin (still exact sums)
+            binned: dict[int, int] = {}
+            for v in sorted(levels):
+                binned.setdefault(v // width, v)
+            levels = set(binned.values())
+    return [float(Fraction(v, den)) for v in sorted(levels) if v > 0]
+
+
+def default_budgets(cost_model: CostModel, n: int = 8,
+                    budget_levels: str = "round") -> list[float | None]:
+    """Default budgets of a sweep: round values or distinct cost levels, then unlimited.
+
+    With ``budget_levels="round"``, at most ``n - 1`` round values (1-2-5 series, from
+    :func:`round_budgets`) between the cheapest positive price of a measurement or panel
+    and the price of every candidate (thinned evenly, keeping the smallest and the
+    largest). With ``"costs"``, at most ``n - 1`` of the :func:`cost_levels` below the
+    price of everything: all of them when few, else the levels nearest below ``n - 1``
+    targets spread evenly on a log scale from the cheapest level to the dearest (both
+    kept). The list ends with None (unlimited).
 
     Examples
     --------
     >>> cm = CostModel(["a", "b", "c"], {"a": 1.0, "b": 2.0, "c": 7.0})
     >>> default_budgets(cm, n=4)
     [1.0, 2.0, 5.0, None]
+    >>> default_budgets(cm, n=4, budget_levels="costs")
+    [1.0, 3.0, 9.0, None]
     >>> grain = CostModel(["m", "p", "d"], {"m": 0.0, "p": 6.0, "d": 12.5})
     >>> default_budgets(grain)
     [10.0, None]
     """
     if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 2:
         raise InputError(f"a sweep needs at least 2 budgets, got {n!r}")
+    if budget_levels not in BUDGET_LEVELS:
+        raise InputError(f"budget_levels must be one of {', '.join(BUDGET_LEVELS)}, "
+                         f"got {budget_levels!r}")
     items = [cost_model.cost([c]) for c in range(cost_model.n_features)]
     priced = [c for c in items if c > 0]
     if not priced:
         return [None]
-    values = round_budgets(min(priced), cost_model.cost(range(cost_model.n_features)))
+    full = cost_model.cost(range(cost_model.n_features))
+    if budget_levels == "costs":
+        values = [v for v in cost_levels(cost_model) if v < full * (1 - 1e-12)]
+        if len(values) > n - 1:
+            targets = np.geomspace(values[0], values[-1], n - 1)
+            picked = {values[0], values[-1]}
+            for t in targets[1:-1]:
+                i = int(np.searchsorted(values, t * (1 + 1e-12), side="right")) - 1
+                picked.add(values[max(i, 0)])
+            values = sorted(picked)
+        return [*values, None]
+    values = round_budgets(min(priced), full)
     if len(values) > n - 1:
         keep = sorted({int(i) for i in np.round(np.linspace(0, len(values) - 1, n - 1))})
         values = [values[i] for i in keep]
@@ -730,6 +797,7 @@ def budget_sweep(
     budgets: Sequence[float | None] | int = 8,
     strategy: str | dict = "greedy-swap",
     *,
+    budget_levels: str = "round",
     budget: float | None = None,
     nested: int | None = None,
     n_repeats: int = 1,
@@ -744,10 +812,14 @@ def budget_sweep(
     problem : SelectionProblem
         Data, model, costs, CV splits and scorer.
     budgets : sequence of float or None, or int, default=8
-        Budgets to search (None: unlimited), or at most that many round budgets
+        Budgets to search (None: unlimited), or at most that many default budgets
         (see :func:`default_budgets`).
     strategy : str or dict, default="greedy-swap"
         Strategy name or spec, as for :func:`featuresift.run_search`.
+    budget_levels : {"round", "costs"}, default="round"
+        Where default budgets go when ``budgets`` is a number: round money values
+        (1-2-5 series) or the distinct cost levels of the cost table
+        (:func:`cost_levels`).
     budget : float, optional
         The run's own budget: the headline pick is chosen among the points that fit it
         (default: unlimited).
@@ -784,7 +856,7 @@ def budget_sweep(
     ([True, True], True)
     """
     if isinstance(budgets, int) and not isinstance(budgets, bool):
-        budgets = default_budgets(problem.cost_model, budgets)
+        budgets = default_budgets(problem.cost_model, budgets, budget_levels)
     budgets = list(budgets)
     if not budgets:
         raise InputError("a sweep needs at least one budget")

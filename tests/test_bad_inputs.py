@@ -219,6 +219,9 @@ D = [
          argv=["sweep", "{cfg}"]),
     Case("sweep-too-many-budgets", "config", ["at most 1000"], "sweep.n_budgets",
          "n_budgets:", yaml=lambda t: t + "sweep: {n_budgets: 100000}\n", argv=["sweep", "{cfg}"]),
+    Case("sweep-budget-levels-unknown", "config", ["round, costs", "'cost'"],
+         "sweep.budget_levels", "budget_levels:",
+         yaml=lambda t: t + "sweep: {budget_levels: cost}\n", argv=["sweep", "{cfg}"]),
     # ---- YAML itself
     Case("yaml-alias-bomb", "config", ["aliases", "expand to more than 100,000"],
          yaml=_static("alias_bomb.yaml")),

@@ -1,12 +1,21 @@
 """Budget sweep: budgets respected, cache shared between budgets, efficiency flags."""
 
+from itertools import combinations
+
 import numpy as np
 import pytest
 from sklearn.datasets import load_wine
 from sklearn.naive_bayes import GaussianNB
 
 from featuresift import CostModel, CriterionEvaluator, SelectionProblem
-from featuresift.frontier import Frontier, budget_sweep, default_budgets, efficient_points
+from featuresift.errors import InputError
+from featuresift.frontier import (
+    Frontier,
+    budget_sweep,
+    cost_levels,
+    default_budgets,
+    efficient_points,
+)
 from featuresift.result import SearchResult
 
 
@@ -118,6 +127,33 @@ def test_default_budgets_are_round_values():
     for x in b[:-1]:
         mantissa = x / 10 ** np.floor(np.log10(x))
         assert round(mantissa, 9) in (1.0, 2.0, 5.0)
+
+
+def test_cost_levels_are_where_the_affordable_set_changes():
+    # Hand-made cost table: lone tests at 1.5, 2 and 3.5, one on hand (0), a panel of
+    # two at 2 (bought once). Reference: brute force over every subset of the columns,
+    # each panel priced once (common practice for panel pricing).
+    names = ["a", "b", "h", "d", "e", "f"]
+    cm = CostModel(names, {"a": 1.5, "b": 2.0, "h": 0.0, "f": 3.5},
+                   panels={"p": (2.0, ["d", "e"])})
+    price = {"a": 1.5, "b": 2.0, "h": 0.0, "f": 3.5}
+
+    def brute_cost(subset):
+        return sum(price.get(n, 0.0) for n in subset) + (2.0 if {"d", "e"} & set(subset) else 0)
+
+    subsets = [s for k in range(7) for s in combinations(names, k)]
+    costs = sorted({brute_cost(s) for s in subsets} - {0.0})
+    assert cost_levels(cm) == costs == [1.5, 2.0, 3.5, 4.0, 5.0, 5.5, 7.0, 7.5, 9.0]
+    # Each level admits more subsets than the one below it: no two budgets are alike.
+    counts = [sum(brute_cost(s) <= b for s in subsets) for b in costs]
+    assert counts == sorted(set(counts))
+    # Default budgets at cost levels: exact levels below the full price, ends kept.
+    b = default_budgets(cm, n=5, budget_levels="costs")
+    assert b[-1] is None and b[0] == 1.5 and b[-2] == 7.5 and len(b) == 5
+    assert set(b[:-1]) <= set(costs) and b[:-1] == sorted(b[:-1])
+    assert default_budgets(cm, n=20, budget_levels="costs") == [*costs[:-1], None]
+    with pytest.raises(InputError, match="budget_levels must be one of round, costs"):
+        default_budgets(cm, budget_levels="levels")
 
 
 def test_sweep_on_criterion_evaluator_is_exact():

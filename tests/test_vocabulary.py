@@ -48,7 +48,8 @@ def schema_keys(tmp_path_factory):
     _, cfg_path = write_demo(folder, n_lots=60)
     cfg = yaml.safe_load(cfg_path.read_text(encoding="utf-8"))
     cfg.update({
-        "engine": {"journal": False}, "sweep": {"n_budgets": 3}, "nested": {"folds": 2},
+        "engine": {"journal": False}, "sweep": {"n_budgets": 3, "budget_levels": "costs"},
+        "nested": {"folds": 2},
         "limits": {"max_features": 3}, "output": {"folder": "out"},
     })
     cfg_path.write_text(yaml.safe_dump(cfg), encoding="utf-8")

@@ -11,6 +11,7 @@ from featuresift.config.run import build_run
 from featuresift.config.schema import RunConfig
 from featuresift.config.sections import MAX_AMOUNT, Section, register_section
 from featuresift.errors import InputError
+from featuresift.frontier import BUDGET_LEVELS
 from featuresift.outputs import RunFolder, open_run_folder
 
 __all__ = ["sweep_from_config", "write_sweep_files"]
@@ -20,13 +21,19 @@ def _parse_sweep(value: Any, ctx: _Context) -> dict:
     """The ``sweep`` section: budgets for ``featuresift sweep``.
 
     ``budgets`` is a list of numbers (``null`` = unlimited); ``n_budgets`` asks for at
-    most that many round budgets (1-2-5 series, see
-    :func:`featuresift.frontier.default_budgets`), to which the run's own ``budget`` is
-    added.
+    most that many default budgets (see :func:`featuresift.frontier.default_budgets`),
+    to which the run's own ``budget`` is added; ``budget_levels`` places them at round
+    money values (``round``, 1-2-5 series, the default) or at the distinct cost levels
+    of the cost table (``costs``).
     """
-    d = ctx.mapping(value, "sweep", ["budgets", "n_budgets"])
-    if "budgets" in d and "n_budgets" in d:
-        raise ctx.error("give either budgets or n_budgets, not both", "sweep")
+    d = ctx.mapping(value, "sweep", ["budgets", "n_budgets", "budget_levels"])
+    if "budgets" in d and ("n_budgets" in d or "budget_levels" in d):
+        key = "n_budgets" if "n_budgets" in d else "budget_levels"
+        raise ctx.error(f"give either budgets or {key}, not both", "sweep")
+    levels = d.get("budget_levels", "round")
+    if levels not in BUDGET_LEVELS:
+        raise ctx.error(f"expected one of {', '.join(BUDGET_LEVELS)}, got {_show(levels)}",
+                        "sweep.budget_levels")
     budgets = None
     if d.get("budgets") is not None:
         raw = d["budgets"]
@@ -40,7 +47,7 @@ def _parse_sweep(value: Any, ctx: _Context) -> dict:
         ]
     n = ctx.integer(d.get("n_budgets"), "sweep.n_budgets", minimum=2, optional=True,
                     maximum=1000)
-    return {"budgets": budgets, "n_budgets": 8 if n is None else n}
+    return {"budgets": budgets, "n_budgets": 8 if n is None else n, "budget_levels": levels}
 
 
 register_section("sweep", Section(_parse_sweep))
@@ -73,7 +80,8 @@ def sweep_from_config(
         From :func:`load_config`.
     budgets : list of float or None, optional
         Budgets (None = unlimited); default from the ``sweep`` section, else 8 round
-        budgets (:func:`~featuresift.frontier.default_budgets`) plus the run's budget.
+        budgets (:func:`~featuresift.frontier.default_budgets`, placed as the section's
+        ``budget_levels`` says) plus the run's budget.
     write : bool, default=False
         Write ``frontier.csv``, ``frontier_choices.csv``, ``frontier.json``,
         ``frontier.png`` (with matplotlib) and ``report.md`` into a new run folder
@@ -118,7 +126,8 @@ def sweep_from_config(
     if budgets is None:
         budgets = spec["budgets"]
         if budgets is None:
-            budgets = default_budgets(cfg.cost_model, spec["n_budgets"])
+            budgets = default_budgets(cfg.cost_model, spec["n_budgets"],
+                                      spec.get("budget_levels", "round"))
             if cfg.budget is not None and cfg.budget not in budgets:
                 budgets = sorted([b for b in budgets if b is not None] + [cfg.budget])
                 budgets.append(None)

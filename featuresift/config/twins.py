@@ -83,6 +83,7 @@ PYTHON_TWINS: dict[str, tuple[str, str]] = {
     "sweep": ("featuresift.budget_sweep", "budgets"),
     "sweep.budgets": ("featuresift.budget_sweep", "budgets"),
     "sweep.n_budgets": ("featuresift.budget_sweep", "budgets"),
+    "sweep.budget_levels": ("featuresift.budget_sweep", "budget_levels"),
     "nested": ("featuresift.nested_evaluation", "outer_cv"),
     "nested.folds": ("featuresift.nested_evaluation", "outer_cv"),
     "nested.repeats": ("featuresift.nested_evaluation", "n_repeats"),
