@@ -551,7 +551,9 @@ class SearchResult:
         rows = list(self.references.items())
         best = self.pick.get("best")
         if best is not None and self.pick.get("rule") != "best":
-            rows.append(("best found", {
+            label = ("strategy's" if self.pick.get("basis") == "strategy's answer"
+                     else "best found")
+            rows.append((label, {
                 "features": best["features"], "cost": best["cost"],
                 "score_mean": best["score_mean"], "score_sem": best["score_sem"],
                 "objective": best["objective"], "allowed": True}))

@@ -148,6 +148,15 @@ def _pick(space: SearchSpace, rule: str, refs: dict[str, Scored]) -> tuple[Score
     info["best"] = {"features": [names[i] for i in best.subset], "cost": best.cost,
                     "objective": best.value, "score_mean": best.mean,
                     "score_sem": best.evaluation.sem}
+    # The rule's yardstick: the best allowed subset evaluated, or, when the strategy
+    # named its own answer (a stopping rule such as ``tol`` or ``n_features``), that one.
+    overall = space.best_of(allowed)
+    info["basis"] = ("strategy's answer" if chosen is not None and best is chosen
+                     and overall is not None and overall.rank_key > chosen.rank_key
+                     else "best evaluated")
+    if info["basis"] == "strategy's answer":
+        info["description"] = info["description"].replace(
+            "of the best", "of the strategy's answer (its stopping rule chose it)")
     if rule == "best":
         return best, info
     threshold = best.value - best.evaluation.sem

@@ -89,6 +89,13 @@ def test_pick_rules_on_hand_made_fold_scores():
     assert one_se.selected == ["c"] and one_se.pick["rule"] == "one-se"
     assert one_se.pick["threshold"] == pytest.approx(0.84 - sem, abs=1e-12)
     assert one_se.pick["best"]["features"] == ["b"]
+    assert one_se.pick["basis"] == "best evaluated" and "best found" in one_se.summary()
+    # A stopping rule (n_features) names the strategy's own answer: the rule measures
+    # from it, and the outputs say so rather than calling it the best found.
+    stopped = run_search(ev, "forward", costs=costs, budget=6, n_features=2)
+    assert stopped.pick["basis"] == "strategy's answer"
+    assert "strategy's answer" in stopped.pick["description"]
+    assert "strategy's" in stopped.summary() and "best found" not in stopped.summary()
     assert run_search(ev, "exhaustive", costs=costs, budget=6, pick="one_se").selected \
         == ["c"]  # the older spelling
     refs = one_se.references
