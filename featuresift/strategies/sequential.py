@@ -27,7 +27,7 @@ either. Ratio rules alone can be arbitrarily bad (a tiny cheap gain that makes a
 valuable item unaffordable), score-only rules spend the budget on one expensive strong
 item; keeping the better of the two is the budgeted-greedy safeguard of Leskovec et al.
 (2007, "Cost-effective outbreak detection in networks", KDD). The ratio path's steps are
-recorded from the first step where it leaves the gain path.
+recorded, as ``"add-per-cost"``, from the first step where it leaves the gain path.
 
 Backward selection
 ------------------
@@ -157,12 +157,13 @@ def forward_path(
     target: int | None = None,
     tol: float | None = None,
     follow: list[tuple[int, ...]] | None = None,
+    action: str = "add",
 ) -> tuple[Scored | None, list[tuple[int, ...]], str]:
     """Grow ``start`` one feature at a time by ``rule`` ("gain" or "ratio").
 
     Stops when nothing is addable, at size ``target``, or (with ``tol``) when the step
-    would not improve the objective by more than ``tol``. Steps are recorded as "add",
-    except those that repeat ``follow`` (an earlier path) step for step from the start.
+    would not improve the objective by more than ``tol``. Steps are recorded as
+    ``action``, except those that repeat ``follow`` (an earlier path) step for step from the start.
 
     Returns the last subset reached (None if nothing was evaluated), the subsets of the
     path, and the stop reason.
@@ -199,7 +200,7 @@ def forward_path(
                 and follow[len(path) - 1] == current:
             continue
         shadowing = False
-        space.record("add", current, f)
+        space.record(action, current, f)
 
 
 def removal_units(space: SearchSpace, subset: Iterable[int]) -> list[tuple[int, ...]]:
@@ -408,8 +409,10 @@ class ForwardSelection(SearchStrategy):
         first: list[tuple[int, ...]] | None = None
         reasons = []
         for rule in _rules(self.cost_rule):
+            # The ratio path's steps say so: the path table shows both runs in turn.
             end, path, reason = forward_path(space, start, rule, self.n_features, self.tol,
-                                             follow=first)
+                                             follow=first,
+                                             action="add" if rule == "gain" else "add-per-cost")
             first = path if first is None else first
             reasons.append(reason)
             if end is not None:
