@@ -4,6 +4,7 @@ Budget-aware, panel-aware feature-subset search around a cross-validation evalua
 """
 
 from featuresift.costs import CostLine, CostModel
+from featuresift.engine.cluster import use_cluster
 from featuresift.engine.evaluator import BaseEvaluator, CriterionEvaluator, CrossValidationEvaluator
 from featuresift.engine.records import Evaluation
 from featuresift.errors import InputError
@@ -47,6 +48,7 @@ __all__ = [
     "Evaluation",
     "SearchResult",
     "run_search",
+    "use_cluster",
     "STRATEGIES",
     "SearchSpace",
     "SearchStrategy",

@@ -33,6 +33,7 @@ from featuresift.config import (
     write_run_files,
     write_sweep_files,
 )
+from featuresift.config.engine import cluster_of
 from featuresift.config.nested import nested_spec
 from featuresift.engine.journal import reuse_message
 from featuresift.engine.racing import RACES
@@ -139,7 +140,7 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
         out.write("\n")
     callback = _step_printer(sys.stderr) if args.verbose else None
     nested = None
-    with open_run_folder(cfg, "run") as folder:
+    with open_run_folder(cfg, "run") as folder, cluster_of(cfg):
         if nested_spec(cfg, args.nested, args.nested_repeats) is not None:
             # Run the honest estimate first, so that nothing is written when it fails; it
             # re-runs the whole search in each outer fold.
@@ -199,7 +200,7 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
                   f"{res.cost:g}, {score_label('in-search', res.scoring)} "
                   f"{res.score_mean:.4f}\n")
 
-    with open_run_folder(cfg, "sweep") as folder:
+    with open_run_folder(cfg, "sweep") as folder, cluster_of(cfg):
         frontier = sweep_from_config(cfg, args.budgets, callback=show,
                                      nested_folds=args.nested,
                                      nested_repeats=args.nested_repeats)

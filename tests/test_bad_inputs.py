@@ -128,6 +128,11 @@ class Case:
     sys_path_cwd: bool = False  # put the working directory first on sys.path (python -m)
 
 
+def _engine(mapping: str, n_jobs: int = 2) -> Callable[[str], str]:
+    """The base config with an ``engine`` section (flow-style ``mapping``)."""
+    return edit("n_jobs: 1\n", f"n_jobs: {n_jobs}\nengine: {mapping}\n")
+
+
 V = ["validate", "{cfg}"]
 D = [
     # ---- lab exports
@@ -322,6 +327,21 @@ D = [
          "params:", yaml=edit("sklearn.linear_model.LogisticRegression\n  params: "
                               "{max_iter: 500}", "sklearn.cluster.AgglomerativeClustering\n"
                               "  params: {memory: /tmp/featuresift-cache}")),
+    # ---- engine.cluster (checked before any worker starts or any address is dialled)
+    Case("cluster-port-not-a-number", "config", ["port '87x6'", "tcp://10.0.0.5:8786"],
+         "engine.cluster", "engine:", yaml=_engine("{cluster: 'tcp://10.0.0.5:87x6'}")),
+    Case("cluster-unknown-protocol", "config", ["unknown protocol 'http://'"],
+         "engine.cluster", "engine:", yaml=_engine("{cluster: 'http://10.0.0.5:8786'}")),
+    Case("cluster-local-misspelled", "config", ["expected 'local' or a scheduler address",
+                                                "'locla'"],
+         "engine.cluster", "engine:", yaml=_engine("{cluster: locla}")),
+    Case("cluster-workers-with-address", "config", ["only to cluster 'local'", "dask worker"],
+         "engine.workers", "engine:",
+         yaml=_engine("{cluster: 'tcp://10.0.0.5:8786', workers: 4}")),
+    Case("cluster-workers-zero", "config", ["positive number of worker processes"],
+         "engine.workers", "engine:", yaml=_engine("{cluster: local, workers: 0}")),
+    Case("cluster-with-n-jobs-1", "config", ["n_jobs 1 would keep every fit in this process"],
+         "n_jobs", "n_jobs: 1", yaml=_engine("{cluster: local, workers: 2}", n_jobs=1)),
     # ---- command-line arguments
     Case("cli-budget-text", "cli", ["--budget", "'abc'"], argv=["run", "{cfg}", "--budget",
                                                                  "abc"]),

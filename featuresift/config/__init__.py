@@ -66,9 +66,14 @@ Relative paths are relative to the folder of the YAML file.
     guard: nested                   # noise guard: nested | off | {name: nested, folds: 5,
                                     #   alpha: 0.05}; see featuresift.guard
     seed: 0                         # random seed of stochastic strategies
-    n_jobs: 1                       # parallel model fits (joblib)
+    n_jobs: 1                       # parallel model fits (joblib); under engine.cluster:
+                                    #   concurrent tasks (omit: every worker thread)
     output:
       folder: results/<name of the YAML file>   # must stay inside the YAML file's folder
+
+The ``engine`` section (journal, racing, failure policy, progress, and ``cluster``:
+``local`` or a dask scheduler address such as ``tcp://10.0.0.5:8786``, with ``workers``
+for ``local``) is documented in :mod:`featuresift.config.engine`.
 
 Preprocessing steps (names in ``model.preprocessing``, see :data:`PREPROCESSORS`):
 ``impute_mean``, ``impute_median``, ``impute_most_frequent`` (at most one imputer),

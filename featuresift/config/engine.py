@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
 from featuresift.config.context import _Context, _show
 from featuresift.config.schema import RunConfig
 from featuresift.config.sections import Section, register_section
+from featuresift.engine.cluster import check_cluster, import_distributed, use_cluster
 from featuresift.engine.evaluator import check_error_score
 from featuresift.engine.racing import make_race
 from featuresift.errors import InputError
@@ -29,9 +31,18 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
                                 #   subset with a failed fold has no score, never chosen
           progress: true        # a progress bar on an interactive terminal
           share_preprocessing: true  # fit leading scalers/imputers once per fold
+          cluster: null         # null: fits on this machine (n_jobs); local: a dask cluster
+                                #   of worker processes here; or a dask scheduler address
+                                #   such as tcp://10.0.0.5:8786 (featuresift[cluster])
+          workers: null         # with cluster: local, worker processes (default: CPUs)
+
+    Under ``cluster`` the fits run on the dask cluster (``n_jobs``, when given, limits
+    the concurrent tasks; default every worker thread); answers are those of a local
+    run. See :func:`featuresift.engine.cluster.use_cluster`.
     """
     d = ctx.mapping(value, "engine", ["journal", "racing", "chunk_size", "on_fit_error",
-                                      "error_score", "progress", "share_preprocessing"])
+                                      "error_score", "progress", "share_preprocessing",
+                                      "cluster", "workers"])
     journal = d.get("journal", True)
     if journal is None or isinstance(journal, bool):
         journal_name = "journal.sqlite" if journal else None
@@ -60,6 +71,12 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
     except InputError as exc:
         raise ctx.error(exc.message, "engine.error_score") from None
     progress = d.get("progress", True)
+    try:
+        cluster, workers = check_cluster(d.get("cluster"), d.get("workers"))
+        if cluster is not None:
+            import_distributed()
+    except InputError as exc:
+        raise ctx.error(exc.message, f"engine.{exc.key}") from None
     return {
         "journal": journal_name,
         "racing": racing,
@@ -70,6 +87,8 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
         "progress": ctx.boolean(progress, "engine.progress"),
         "share_preprocessing": ctx.boolean(d.get("share_preprocessing", True),
                                            "engine.share_preprocessing"),
+        "cluster": cluster,
+        "workers": workers,
     }
 
 
@@ -81,6 +100,39 @@ def _apply_engine(cfg: RunConfig, value: dict, problem: SelectionProblem, kwargs
     kwargs["error_score"] = value["error_score"]
     kwargs["verbose"] = 1 if value["progress"] else 0
     kwargs["share_preprocessing"] = value["share_preprocessing"]
+    if value["cluster"] is not None:
+        _check_n_jobs(cfg)
+        if "n_jobs" not in cfg.lines and "n_jobs" not in cfg.overridden:
+            kwargs["n_jobs"] = None  # every worker thread of the cluster
+
+
+def _check_n_jobs(cfg: RunConfig) -> None:
+    if cfg.n_jobs == 1 and ("n_jobs" in cfg.lines or "n_jobs" in cfg.overridden):
+        ctx = _Context(cfg.lines, cfg.base_dir, cfg.overridden)
+        raise ctx.error("n_jobs 1 would keep every fit in this process although "
+                        "engine.cluster is set; remove n_jobs (every worker thread of the "
+                        "cluster is used) or give the number of concurrent tasks", "n_jobs")
+
+
+def cluster_of(cfg: RunConfig):
+    """``use_cluster`` for the config's ``engine.cluster`` (a no-op without one); an
+    unreachable scheduler is reported at that key and line."""
+    engine = cfg.extra.get("engine") or {}
+    if engine.get("cluster") is not None:
+        _check_n_jobs(cfg)  # before any worker is started
+    return _located(cfg, use_cluster(engine.get("cluster"), engine.get("workers")))
+
+
+@contextmanager
+def _located(cfg: RunConfig, session):
+    try:
+        with session as client:
+            yield client
+    except InputError as exc:
+        if exc.key not in ("cluster", "workers"):
+            raise
+        ctx = _Context(cfg.lines, cfg.base_dir, cfg.overridden)
+        raise ctx.error(exc.message, f"engine.{exc.key}") from None
 
 
 register_section("engine", Section(_parse_engine, _apply_engine))

@@ -110,6 +110,7 @@ def nested_from_config(cfg: RunConfig, outer_folds: int | None = None,
     ...
     featuresift.errors.InputError: --nested needs at least 2 outer folds, got 1
     """
+    from featuresift.config.engine import cluster_of
     from featuresift.nested import nested_evaluation, outer_splitter
 
     spec = nested_spec(cfg, outer_folds, n_repeats) or dict(_DEFAULT)
@@ -121,9 +122,10 @@ def nested_from_config(cfg: RunConfig, outer_folds: int | None = None,
     strategy = opts.pop("strategy")
     if budget != "config":
         opts["budget"] = budget
-    return nested_evaluation(
-        problem.X, problem.y, problem.estimator, costs=problem.cost_model,
-        outer_cv=outer, n_repeats=spec["repeats"], confidence=spec["confidence"],
-        inner_cv=_splitter(cfg), scoring=problem.scoring, groups=problem.groups,
-        feature_names=problem.feature_names, strategy=strategy, **opts,
-    )
+    with cluster_of(cfg):  # engine.cluster: the fits run on a dask cluster
+        return nested_evaluation(
+            problem.X, problem.y, problem.estimator, costs=problem.cost_model,
+            outer_cv=outer, n_repeats=spec["repeats"], confidence=spec["confidence"],
+            inner_cv=_splitter(cfg), scoring=problem.scoring, groups=problem.groups,
+            feature_names=problem.feature_names, strategy=strategy, **opts,
+        )

@@ -117,7 +117,16 @@ def _provenance(cfg: RunConfig, problem: SelectionProblem) -> dict:
                "folds": cfg.cv.folds, "repeats": cfg.cv.repeats, "seed": cfg.cv.seed,
                "group_column": cfg.cv.group_column},
         **({"overrides": _plain(cfg.overridden)} if cfg.overridden else {}),
+        **_cluster_record(cfg),
     }
+
+
+def _cluster_record(cfg: RunConfig) -> dict:
+    """``engine.cluster`` as run (recorded only when set: answers do not depend on it)."""
+    engine = cfg.extra.get("engine") or {}
+    if engine.get("cluster") is None:
+        return {}
+    return {"cluster": {"address": engine["cluster"], "workers": engine.get("workers")}}
 
 
 
@@ -192,8 +201,11 @@ def run_from_config(
 
 
 def _run(cfg: RunConfig, callback: Callable | None) -> SearchResult:
+    from featuresift.config.engine import cluster_of
+
     problem, kwargs = build_run(cfg)
-    result = run_search(problem, callback=callback, **kwargs)
+    with cluster_of(cfg):  # engine.cluster: the fits run on a dask cluster
+        result = run_search(problem, callback=callback, **kwargs)
     result.extras.update(_provenance(cfg, problem))
     if result.failures.get("none_scored"):
         # Every evaluated subset had a failed fold: there is no answer to write.

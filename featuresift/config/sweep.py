@@ -144,8 +144,11 @@ def sweep_from_config(
             )
 
     def sweep() -> Any:
-        frontier = budget_sweep(problem, list(budgets), budget=cfg.budget,
-                                **_search_options(kwargs))
+        from featuresift.config.engine import cluster_of
+
+        with cluster_of(cfg):  # engine.cluster: the fits run on a dask cluster
+            frontier = budget_sweep(problem, list(budgets), budget=cfg.budget,
+                                    **_search_options(kwargs))
         if callback is not None:
             for r in frontier.results:
                 callback(r)

@@ -80,6 +80,8 @@ PYTHON_TWINS: dict[str, tuple[str, str]] = {
     "engine.error_score": (_RUN, "error_score"),
     "engine.progress": (_RUN, "verbose"),
     "engine.share_preprocessing": (_RUN, "share_preprocessing"),
+    "engine.cluster": ("featuresift.use_cluster", "cluster"),
+    "engine.workers": ("featuresift.use_cluster", "workers"),
     "sweep": ("featuresift.budget_sweep", "budgets"),
     "sweep.budgets": ("featuresift.budget_sweep", "budgets"),
     "sweep.n_budgets": ("featuresift.budget_sweep", "budgets"),

@@ -755,8 +755,10 @@ class CrossValidationEvaluator(BaseEvaluator):
         return np.ascontiguousarray(X[:, used]), used
 
     def _on_cluster(self):
-        """Under a dask backend: a backend that holds the problem's X, y and splits on
-        every worker, scattered once per evaluator (that is, once per run), or None."""
+        """Under a dask backend: a backend that holds the problem's X, y, splits and fit
+        plan on every worker, scattered once per evaluator (that is, once per run), or
+        None. Tasks name these by identity (joblib's dask backend swaps them for the
+        scattered copies), so a batch ships only its (subset, fold) items."""
         backend, _ = get_active_backend()
         if type(backend).__name__ != "DaskDistributedBackend":
             return None
@@ -767,7 +769,7 @@ class CrossValidationEvaluator(BaseEvaluator):
 
             p = self.problem
             self._cluster_backend = DaskDistributedBackend(
-                client=backend.client, scatter=[p.X, p.y, p.splits])
+                client=backend.client, scatter=[p.X, p.y, p.splits, self.plan])
         return self._cluster_backend
 
     def _dispatch(self, work: list[tuple[tuple[int, ...], int]]) -> list[tuple]:
