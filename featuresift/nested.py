@@ -42,7 +42,8 @@ from sklearn.model_selection import GroupKFold, KFold, StratifiedKFold, check_cv
 
 from featuresift._compat import renamed_keywords
 from featuresift.costs import CostModel  # noqa: F401 - the docstring examples use it
-from featuresift.errors import InputError
+from featuresift.engine.evaluator import check_error_score
+from featuresift.errors import FitFailedError, InputError
 from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult, score_label
 from featuresift.search import run_search
@@ -144,6 +145,11 @@ def _repeat_splitters(outer: Any, n_repeats: int) -> list[Any]:
     return out
 
 
+def _finite_or_none(value: float) -> float | None:
+    """JSON has no NaN: an undefined number is written as null."""
+    return value if math.isfinite(value) else None
+
+
 def _fit_score(estimator, scorer, X_train, y_train, X_test, y_test, support, classification):
     """Score on the test rows the model refitted on the training rows of ``support``.
 
@@ -230,11 +236,55 @@ class NestedEvaluation:
     confidence: float = 0.95
     ci: tuple[float, float] | None = None
     test_train_ratio: float = float("nan")
+    inner_failed_fits: list[int] = field(default_factory=list)
+    outer_failures: list[dict[str, Any]] = field(default_factory=list)
 
     @property
     def outer_mean(self) -> float:
-        """Mean outer-fold score: the nested estimate of the procedure's performance."""
+        """Mean outer-fold score: the nested estimate of the procedure's performance.
+
+        NaN when an outer fold has no score (its refit or score failed and
+        ``error_score`` is NaN): the remaining folds are never averaged on their own.
+        """
         return float(np.mean(self.outer_scores))
+
+    @property
+    def n_failed_inner_fits(self) -> int:
+        """Failed fits (and undefined scores) inside the outer searches, all together."""
+        return int(sum(self.inner_failed_fits))
+
+    def failure_lines(self) -> list[str]:
+        """Readable lines on what failed (empty when nothing did).
+
+        Examples
+        --------
+        >>> ne = NestedEvaluation([0.8, float("nan")], [0.9, 0.9], [["a"], ["a"]],
+        ...                       [1.0, 1.0], {"a": 1.0}, None, "EUR", "accuracy",
+        ...                       inner_failed_fits=[0, 3], outer_failures=[
+        ...                           {"outer_fold": 1, "repeat": 0, "features": ["a"],
+        ...                            "error": "ValueError: boom", "scored_as": None}])
+        >>> print("\\n".join(ne.failure_lines()))
+        Failed fits in the nested estimate:
+          inner searches: 3 fits failed, in 1 of 2 outer searches
+          outer fold 1 (repeat 0), refit on a: ValueError: boom -> no score
+          1 of 2 outer folds have no score: no nested estimate
+        """
+        lines = []
+        n_inner = self.n_failed_inner_fits
+        if n_inner:
+            hit = sum(1 for n in self.inner_failed_fits if n)
+            lines.append(f"  inner searches: {n_inner} fits failed, in {hit} of "
+                         f"{len(self.inner_failed_fits)} outer searches")
+        for f in self.outer_failures:
+            scored = ("no score" if f["scored_as"] is None
+                      else f"scored as error_score={f['scored_as']:g}")
+            lines.append(f"  outer fold {f['outer_fold']} (repeat {f['repeat']}), refit on "
+                         f"{' + '.join(f['features']) or '(nothing)'}: {f['error']} -> {scored}")
+        unscored = sum(1 for f in self.outer_failures if f["scored_as"] is None)
+        if unscored:
+            lines.append(f"  {unscored} of {len(self.outer_scores)} outer folds have no score: "
+                         "no nested estimate")
+        return ["Failed fits in the nested estimate:", *lines] if lines else []
 
     @property
     def outer_std(self) -> float:
@@ -277,6 +327,8 @@ class NestedEvaluation:
         return f"{k} outer folds"
 
     def _ci_text(self) -> str:
+        if not all(math.isfinite(v) for v in self.outer_scores):
+            return "no interval (an outer fold has no score)"
         if self.ci is None:
             return "no interval (fewer than two outer scores)"
         return (f"{self.confidence:.0%} CI [{self.ci[0]:.4f}, {self.ci[1]:.4f}], "
@@ -304,6 +356,7 @@ class NestedEvaluation:
         for name, freq in sorted(self.selection_frequency.items(), key=lambda kv: -kv[1]):
             if freq > 0:
                 lines.append(f"    {name:<28} {freq:.2f}")
+        lines += self.failure_lines()
         return "\n".join(lines)
 
     def to_markdown(self) -> list[str]:
@@ -331,6 +384,9 @@ class NestedEvaluation:
         lines += ["", "| measurement | chosen in share of outer searches |", "|---|---|"]
         lines += [f"| {n} | {v:.2f} |" for n, v in sorted(
             self.selection_frequency.items(), key=lambda kv: -kv[1]) if v > 0]
+        failed = self.failure_lines()
+        if failed:
+            lines += ["", f"**{failed[0]}**", "", *(f"- {t.strip()}" for t in failed[1:])]
         return lines
 
     def __repr__(self) -> str:
@@ -356,7 +412,8 @@ class NestedEvaluation:
         """
         ci = data.get("ci")
         return cls(
-            outer_scores=list(data["outer_scores"]), inner_scores=list(data["inner_scores"]),
+            outer_scores=[math.nan if v is None else float(v) for v in data["outer_scores"]],
+            inner_scores=list(data["inner_scores"]),
             selected=[list(s) for s in data["selected"]], costs=list(data["costs"]),
             selection_frequency=dict(data["selection_frequency"]),
             stability=data.get("stability"), cost_unit=data["cost_unit"],
@@ -365,25 +422,27 @@ class NestedEvaluation:
             confidence=float(data.get("confidence", 0.95)),
             ci=None if ci is None else (float(ci[0]), float(ci[1])),
             test_train_ratio=float(data.get("test_train_ratio", float("nan"))),
+            inner_failed_fits=[int(n) for n in data.get("inner_failed_fits", [])],
+            outer_failures=[dict(f) for f in data.get("outer_failures", [])],
         )
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready description."""
         return {
             "score_kind": "nested",
-            "outer_scores": self.outer_scores,
+            "outer_scores": [v if math.isfinite(v) else None for v in self.outer_scores],
             "repeats": self.repeats,
             "n_repeats": self.n_repeats,
             "n_splits": self.n_splits,
-            "outer_mean": self.outer_mean,
-            "outer_std": self.outer_std,
+            "outer_mean": _finite_or_none(self.outer_mean),
+            "outer_std": _finite_or_none(self.outer_std),
             "ci": None if self.ci is None else list(self.ci),
             "confidence": self.confidence,
             "ci_method": CI_METHOD,
             "test_train_ratio": self.test_train_ratio,
             "inner_scores": self.inner_scores,
-            "inner_mean": self.inner_mean,
-            "optimism": self.optimism,
+            "inner_mean": _finite_or_none(self.inner_mean),
+            "optimism": _finite_or_none(self.optimism),
             "selected": self.selected,
             "costs": self.costs,
             "cost_unit": self.cost_unit,
@@ -391,6 +450,9 @@ class NestedEvaluation:
             "answer_frequency": self.answer_frequency,
             "stability": self.stability,
             "scoring": self.scoring,
+            "inner_failed_fits": self.inner_failed_fits,
+            "n_failed_inner_fits": self.n_failed_inner_fits,
+            "outer_failures": self.outer_failures,
         }
 
 
@@ -480,18 +542,42 @@ def nested_evaluation(
         splits = [(tr, te, i // n_splits) for i, (tr, te, _) in enumerate(splits)]
     estimator = full.estimator  # the user's columns rebuilt, for typed DataFrame columns
     scorer = check_scoring(estimator, scoring=scoring)
+    policy = search_options.get("on_fit_error", "raise")
+    error_score = check_error_score(search_options.get("error_score", math.nan))
     outer_scores, inner_scores, selected, costs, results = [], [], [], [], []
-    for train, test, _ in splits:
+    outer_failures: list[dict[str, Any]] = []
+    for i, (train, test, rep) in enumerate(splits):
         inner = SelectionProblem(
             Xa[train], ya[train], estimator, costs=full.cost_model, cv=inner_cv,
             scoring=scoring, groups=None if g is None else g[train], feature_names=names,
         )
-        res = run_search(inner, strategy, n_jobs=n_jobs, **search_options)
+        try:
+            res = run_search(inner, strategy, n_jobs=n_jobs, **search_options)
+        except FitFailedError as exc:  # say in which outer search
+            raise FitFailedError(f"outer fold {i} (0-based), inner search: {exc}",
+                                 exc.subset, exc.fold, exc.reason) from None
+        if res.failures.get("none_scored"):
+            raise FitFailedError(f"outer fold {i} (0-based): {res.failures['message']}")
         if not res.support and not res.fold_scores:
             raise InputError("the search found no allowed subset in an outer fold "
                              f"({res.stop_reason})")
-        outer_scores.append(_fit_score(estimator, scorer, Xa[train], ya[train], Xa[test],
-                                       ya[test], list(res.support), classification))
+        try:
+            score = _fit_score(estimator, scorer, Xa[train], ya[train], Xa[test], ya[test],
+                               list(res.support), classification)
+            if not math.isfinite(score):
+                raise ValueError(f"the score is {score} (undefined on this test fold)")
+        except Exception as exc:  # noqa: BLE001 - counted and reported, or raised
+            reason = f"{type(exc).__name__}: {exc}"
+            where = f"outer fold {i} (0-based), refit on [{', '.join(res.selected)}]"
+            if policy == "raise":
+                raise FitFailedError(f"{where} failed: {reason}", tuple(res.support), i,
+                                     reason) from None
+            score = error_score
+            outer_failures.append({
+                "outer_fold": i, "repeat": int(rep), "features": list(res.selected),
+                "error": " ".join(reason.split())[:300],
+                "scored_as": None if math.isnan(error_score) else error_score})
+        outer_scores.append(float(score))
         inner_scores.append(res.score_mean)
         selected.append(res.selected)
         costs.append(res.cost)
@@ -518,6 +604,9 @@ def nested_evaluation(
         n_repeats=max(r for _, _, r in splits) + 1,
         n_splits=n_splits,
         confidence=confidence,
-        ci=corrected_t_interval(outer_scores, ratio, confidence),
+        ci=(None if not all(math.isfinite(s) for s in outer_scores)
+            else corrected_t_interval(outer_scores, ratio, confidence)),
         test_train_ratio=ratio,
+        inner_failed_fits=[int(r.failures.get("n_failed_fits", 0)) for r in results],
+        outer_failures=outer_failures,
     )

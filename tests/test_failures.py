@@ -223,3 +223,68 @@ def test_n_jobs_is_capped_at_the_cpu_count():
     assert [e.fold_scores for e in fast] == [e.fold_scores for e in ref]
     with pytest.raises(InputError, match="n_jobs"):
         CrossValidationEvaluator(p, n_jobs=0)
+
+
+# ------------------------------------------------------------------ nested CV
+def _inner_folds_failing(train: np.ndarray) -> int:
+    """Inner KFold(5) folds of the outer training rows ``train`` whose own training rows
+    hold a marked row (original rows 0..19): exactly where column 3 cannot be fitted."""
+    return sum(bool(np.any(train[tr] < 20)) for tr, _ in KFold(5).split(train))
+
+
+def _outer_splits(X, y):
+    # nested_evaluation's outer folds for an int (its documented rule): scikit-learn's
+    # StratifiedKFold, shuffled with the seed.
+    from sklearn.model_selection import StratifiedKFold
+
+    return list(StratifiedKFold(3, shuffle=True, random_state=0).split(X, y))
+
+
+def test_nested_counts_inner_failures_and_never_chooses_by_the_surviving_folds():
+    from featuresift import nested_evaluation
+
+    X, y = _four_of_five_fail()
+    ne = nested_evaluation(X, y, FailsOnMark(), outer_cv=3, inner_cv=KFold(5),
+                           scoring="accuracy", strategy="forward", n_features=1,
+                           on_fit_error="record", **RAW)
+    splits = _outer_splits(X, y)
+    # Column 3 would score 1.0 on its surviving folds; without a score it is never chosen.
+    assert ne.selected == [["x0"]] * 3
+    expected = [_inner_folds_failing(tr) for tr, _ in splits]
+    assert min(expected) > 0 and ne.inner_failed_fits == expected
+    assert ne.n_failed_inner_fits == sum(expected)
+    # The nested scores are the plain refit-and-score of scikit-learn on each outer fold.
+    for (tr, te), got in zip(splits, ne.outer_scores):
+        ref = LogisticRegression().fit(X[tr][:, [0]], y[tr]).score(X[te][:, [0]], y[te])
+        assert got == pytest.approx(ref, abs=1e-12)
+    assert f"inner searches: {sum(expected)} fits failed, in 3 of 3 outer searches" \
+        in ne.summary()
+    assert ne.to_dict()["n_failed_inner_fits"] == sum(expected)
+    assert any("Failed fits in the nested estimate" in line for line in ne.to_markdown())
+
+
+def test_nested_outer_refit_failures_are_scored_with_error_score_or_raise():
+    from featuresift import nested_evaluation
+
+    X, y = _four_of_five_fail()
+    opts = dict(outer_cv=3, inner_cv=KFold(5), scoring="accuracy", strategy="forward",
+                n_features=1, must_include=["x3"], **RAW)
+    # Every outer training part holds marked rows: the refit on x3 fails in each fold and
+    # counts as error_score 0 there -- not left out of the mean.
+    ne = nested_evaluation(X, y, FailsOnMark(), on_fit_error="record", error_score=0.0,
+                           **opts)
+    assert ne.outer_scores == [0.0, 0.0, 0.0] and ne.outer_mean == 0.0
+    assert [f["outer_fold"] for f in ne.outer_failures] == [0, 1, 2]
+    assert all("marked value" in f["error"] and f["scored_as"] == 0.0
+               for f in ne.outer_failures)
+    # Inside each search x3 scores 1.0 where it fits and error_score 0 where it fails.
+    for (tr, _), inner in zip(_outer_splits(X, y), ne.inner_scores):
+        assert inner == pytest.approx((5 - _inner_folds_failing(tr)) / 5)
+    assert "outer fold 0 (repeat 0), refit on x3" in ne.summary()
+    with pytest.raises(FitFailedError, match=r"outer fold 0 \(0-based\), inner search: fit "
+                       r"failed on subset \[x3\], fold 1 of 5"):
+        nested_evaluation(X, y, FailsOnMark(), on_fit_error="raise", **opts)
+    # Under record with error_score NaN no subset of an outer search has a score: a
+    # failure, said as such (not 'no allowed subset').
+    with pytest.raises(FitFailedError, match="no subset could be scored"):
+        nested_evaluation(X, y, FailsOnMark(), on_fit_error="record", **opts)
