@@ -240,11 +240,9 @@ def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:
     cfg = _load(args, output=args.output)
     problem, _ = build_run(cfg)
     relevance = args.relevance or ("anova_f" if cfg.classification else "pearson")
-    import pandas as pd
-
-    X = pd.DataFrame(problem.X, columns=problem.feature_names)
+    # The problem's array itself (names come with the cost model): no copy of the data.
     table = feature_report(
-        X, problem.y, problem.cost_model, relevance=relevance,
+        problem.X, problem.y, problem.cost_model, relevance=relevance,
         task="classification" if cfg.classification else "regression",
     )
     with open_run_folder(cfg, "screen") as folder:

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import gzip
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 
@@ -40,8 +43,7 @@ def _read_frame(spec: DataSpec, ctx: _Context) -> tuple[pd.DataFrame, CsvFormat 
         else:
             fmt = sniff_csv(path, separator=spec.separator, decimal=spec.decimal,
                             encoding=spec.encoding)
-            frame = pd.read_csv(path, sep=fmt.separator, decimal=fmt.decimal,
-                                encoding=fmt.encoding)
+            frame = read_csv_lean(path, fmt, block=_block_filter(spec))
     except InputError as exc:
         raise ctx.rekey(exc, "data.path") from None
     except pd.errors.EmptyDataError:
@@ -65,6 +67,144 @@ def _read_frame(spec: DataSpec, ctx: _Context) -> tuple[pd.DataFrame, CsvFormat 
     if len(frame) == 0:
         raise ctx.error(f"data file {path.name} has a header but no rows", "data.path")
     return frame, fmt
+
+
+LEAN_MIN_BYTES = 16 << 20
+"""CSV files at least this big are read in chunks by :func:`read_csv_lean`."""
+
+_CHUNK_VALUES = 1 << 21
+"""Values parsed per chunk by :func:`read_csv_lean` (about 16 MB of float64)."""
+
+
+def _block_filter(spec: DataSpec):
+    """Which columns may go to the shared float block: the possible candidates."""
+    reserved = {spec.target, *spec.exclude, *spec.categorical}
+    wanted = None if spec.features is None else set(spec.features)
+    return lambda name: name not in reserved and (wanted is None or name in wanted)
+
+
+def _count_lines(path: Path) -> int:
+    """Number of newline bytes in the (decompressed) file: a bound on its rows."""
+    opener = gzip.open if path.name.lower().endswith(".gz") else open
+    count = 0
+    with opener(path, "rb") as fh:
+        while chunk := fh.read(1 << 24):
+            count += chunk.count(b"\n")
+    return count
+
+
+def read_csv_lean(path: Path, fmt: CsvFormat, block=None,
+                  min_bytes: int | None = None) -> pd.DataFrame:
+    """Read a CSV as :func:`pandas.read_csv` does, with its float columns in one buffer.
+
+    A whole-file ``read_csv`` holds the parser's per-chunk arrays, their concatenation
+    and the consolidated frame at once: about three times the size of the data. For a
+    file of at least ``min_bytes`` (default :data:`LEAN_MIN_BYTES`) this reads chunks
+    of rows and writes the float64 columns accepted by ``block(name)`` straight into
+    one C-ordered float64 array (rows x those columns), which the returned frame's
+    columns are views of; :func:`candidate_matrix` then hands that array to the
+    problem without a copy. Other columns are concatenated as ``read_csv`` would.
+    Values are parsed by the same reader with the same settings, so they are the same;
+    when a block column is not float64 in some chunk (text, booleans, a late missing
+    value in an integer column) the file is read again whole, as before.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from featuresift.config.csvformat import sniff_csv
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     p = Path(d, "lots.csv")
+    ...     _ = p.write_text("grade,moisture_pct,ash_pct\\n1,12.5,0.61\\n0,13.1,0.7\\n")
+    ...     frame = read_csv_lean(p, sniff_csv(p), min_bytes=0)
+    >>> X = candidate_matrix(frame, ["moisture_pct", "ash_pct"])
+    >>> frame.dtypes.astype(str).tolist(), X.shape, np.shares_memory(X, frame["ash_pct"].to_numpy())
+    (['int64', 'float64', 'float64'], (2, 2), True)
+    """
+    kwargs = {"sep": fmt.separator, "decimal": fmt.decimal, "encoding": fmt.encoding}
+    limit = LEAN_MIN_BYTES if min_bytes is None else min_bytes
+    if path.stat().st_size < limit or len(fmt.header) < 2:
+        return pd.read_csv(path, **kwargs)
+    rows = max(256, _CHUNK_VALUES // len(fmt.header))
+    X = None
+    names: list[str] = []
+    others: dict[str, list] = {}
+    order: list[str] = []
+    n = 0
+    with pd.read_csv(path, chunksize=rows, **kwargs) as reader:
+        for chunk in reader:
+            if X is None:
+                order = list(chunk.columns)
+                blank = {c for c, raw in zip(order, fmt.header) if not raw.strip()}
+                names = [c for c in order if chunk[c].dtype == np.float64 and c not in blank
+                         and (block is None or block(str(c)))]
+                if not names:
+                    break
+                X = np.empty((_count_lines(path) + 1, len(names)))
+                others = {c: [] for c in order if c not in set(names)}
+            if list(chunk.columns) != order or any(
+                    chunk[c].dtype != np.float64 for c in names) or n + len(chunk) > len(X):
+                X = None
+                break
+            for j, c in enumerate(names):
+                X[n:n + len(chunk), j] = chunk[c].to_numpy()
+            for c, parts in others.items():
+                parts.append(chunk[c])
+            n += len(chunk)
+    if X is None or n == 0:
+        return pd.read_csv(path, **kwargs)
+    X = X[:n]
+    floats = pd.DataFrame(X, columns=names, copy=False)
+    rest = pd.DataFrame({c: pd.concat(parts, ignore_index=True) for c, parts in others.items()})
+    frame = pd.concat([floats, rest], axis=1)[order]
+    del others, rest, chunk
+    _return_free_memory()
+    return frame
+
+
+def _return_free_memory() -> None:
+    """Give the parser's freed chunk buffers back to the system (glibc's malloc_trim).
+
+    glibc keeps freed buffers of a few MB in the process heap, where they would count in
+    the resident size for the rest of the run; elsewhere this does nothing.
+    """
+    try:
+        import ctypes
+
+        ctypes.CDLL("libc.so.6").malloc_trim(0)
+    except (OSError, AttributeError):
+        pass
+
+
+def candidate_matrix(frame: pd.DataFrame, names: list[str]) -> np.ndarray | None:
+    """The C-ordered float64 array whose columns are exactly ``frame[names]``, if any.
+
+    :func:`read_csv_lean` stores the candidate float columns of a big file as views of
+    one array; when ``names`` are exactly that array's columns, in order, the array is
+    returned (no copy); otherwise None.
+    """
+    if not names:
+        return None
+    try:
+        cols = [frame[c] for c in names]
+    except KeyError:
+        return None
+    if any(c.dtype != np.float64 for c in cols):
+        return None
+    first = cols[0].to_numpy()
+    root = first
+    while isinstance(root.base, np.ndarray):
+        root = root.base
+    n, p = len(frame), len(names)
+    if root.ndim != 2 or root.dtype != np.float64 or root.shape[1] != p \
+            or root.shape[0] < n or not root.flags.c_contiguous:
+        return None
+    start = root.__array_interface__["data"][0]
+    for j, col in enumerate(cols):
+        a = col.to_numpy()
+        if a.__array_interface__["data"][0] != start + 8 * j or a.strides != (8 * p,) \
+                or a.shape != (n,):
+            return None
+    return root[:n]
 
 
 def _drop_blank_columns(frame: pd.DataFrame, fmt: CsvFormat, ctx: _Context) -> pd.DataFrame:

@@ -11,7 +11,7 @@ import numpy as np
 
 from featuresift.config.checks import _check_scoring
 from featuresift.config.context import _Context
-from featuresift.config.data import _numeric_column, candidate_frame
+from featuresift.config.data import _numeric_column, candidate_frame, candidate_matrix
 from featuresift.config.load import load_config
 from featuresift.config.schema import RunConfig
 from featuresift.config.sections import SECTIONS
@@ -63,9 +63,12 @@ def build_run(cfg: RunConfig) -> tuple[SelectionProblem, dict[str, Any]]:
     if cfg.data.categorical:  # the model sees category columns (featuresift.columns)
         X = candidate_frame(cfg)
     else:
-        X = np.column_stack(
-            [_numeric_column(frame, c, cfg.data.path.name).to_numpy() for c in cfg.candidates]
-        )
+        # A big CSV's float candidates already share one C-ordered array (read_csv_lean):
+        # use it as it is rather than stacking a copy of every column.
+        X = candidate_matrix(frame, cfg.candidates)
+        if X is None:
+            X = np.column_stack([_numeric_column(frame, c, cfg.data.path.name).to_numpy()
+                                 for c in cfg.candidates])
     y = frame[cfg.data.target].to_numpy()
     groups = None if cfg.cv.group_column is None else frame[cfg.cv.group_column].to_numpy()
     try:

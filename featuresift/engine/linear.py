@@ -124,6 +124,9 @@ TIE_TOL = 1e-8
 rank-based scores) below which a fold is handed to the generic fit."""
 
 _MAX_BLOCK = 2_000_000
+
+_ROW_VALUES = 1 << 21
+"""Values per block of training rows summed into a fold's statistics (16 MB)."""
 """Largest number of floats in one batched prediction array (test rows x subsets x size)."""
 
 
@@ -133,7 +136,7 @@ class _Fold:
 
     G: np.ndarray          # p x p: Gram (regression) or within-class scatter (LDA)
     d: np.ndarray          # sqrt of the diagonal of G (+ alpha): the unit-diagonal scaling
-    Zte: np.ndarray        # test rows, centred as the model centres them
+    Zte: np.ndarray | None  # test rows, centred as the model centres them (None: below)
     yte: np.ndarray
     r: np.ndarray | None = None        # regression right-hand side Z'(y - offset)
     offset: float = 0.0                # regression: mean of y (or 0)
@@ -144,6 +147,8 @@ class _Fold:
     classes: np.ndarray | None = None
     n: int = 0
     ok: bool = True
+    test: np.ndarray | None = None     # without shared steps: test row indices into X ...
+    center: np.ndarray | None = None   # ... and the centre to subtract (None: uncentred)
 
 
 class _Outputs(BaseEstimator):
@@ -253,43 +258,78 @@ class LinearPath:
             if self._plan is not None:
                 Ztr, Zte = self._plan.transform_fold(p.X, train, test)
             else:
-                Ztr, Zte = p.X[train], p.X[test]
+                Ztr, Zte = None, None
         except Exception:  # noqa: BLE001 - the generic path reports the failure
             return _Fold(np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0)), p.y[test], ok=False)
         ytr, yte = p.y[train], p.y[test]
-        if not (np.isfinite(Ztr).all() and np.isfinite(Zte).all()):
-            return _Fold(np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0)), yte, ok=False)
-        if self.kind == "lda":
-            return self._lda_fold(Ztr, ytr, Zte, yte)
-        ytr = ytr.astype(float)
-        if self.fit_intercept:
-            center = Ztr.mean(axis=0)
-            offset = float(ytr.mean())
-        else:
-            center = np.zeros(Ztr.shape[1])
-            offset = 0.0
-        Zc = Ztr - center
-        G = Zc.T @ Zc
-        r = Zc.T @ (ytr - offset)
-        d = np.sqrt(np.diag(G) + self.alpha)
-        return _Fold(G, d, Zte - center, yte, r=r, offset=offset, n=len(ytr))
+        bad = _Fold(np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0)), yte, ok=False)
+        # The statistics are sums over blocks of training rows. Without shared steps the
+        # rows come from X block by block and the test rows are not copied at all (each
+        # block of subsets takes its test columns from X): no fold holds a copy of its
+        # rows, which over the folds would add up to a copy of X, or more.
+        step = max(64, _ROW_VALUES // max(1, p.n_features))
 
-    def _lda_fold(self, Ztr, ytr, Zte, yte) -> _Fold:
+        def blocks():
+            for a in range(0, len(train), step):
+                rows = train[a:a + step] if Ztr is None else slice(a, a + step)
+                yield slice(a, a + step), (p.X[rows] if Ztr is None else Ztr[rows])
+
+        if not all(np.isfinite(Z).all() for _, Z in blocks()) or not np.isfinite(
+                p.X[test] if Zte is None else Zte).all():
+            return bad
+        rows_te = test if Zte is None else None
+        if self.kind == "lda":
+            fold = self._lda_fold(blocks, ytr, Zte, yte)
+            fold.test = rows_te
+            return fold
+        ytr = ytr.astype(float)
+        m = p.n_features
+        center = np.zeros(m)
+        offset = 0.0
+        if self.fit_intercept:
+            for _, Z in blocks():
+                center += Z.sum(axis=0)
+            center /= len(ytr)
+            offset = float(ytr.mean())
+        G = np.zeros((m, m))
+        r = np.zeros(m)
+        for sl, Z in blocks():
+            Z = Z - center
+            G += Z.T @ Z
+            r += Z.T @ (ytr[sl] - offset)
+        d = np.sqrt(np.diag(G) + self.alpha)
+        return _Fold(G, d, None if Zte is None else Zte - center, yte, r=r, offset=offset,
+                     n=len(ytr), test=rows_te, center=None if Zte is not None else center)
+
+    def _lda_fold(self, blocks, ytr, Zte, yte) -> _Fold:
         classes, inv, counts = np.unique(ytr, return_inverse=True, return_counts=True)
         n, K = len(ytr), len(classes)
         bad = _Fold(np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0)), yte, ok=False)
         if K < 2 or n <= K or not np.isin(yte, classes).all():
             return bad
-        means = np.zeros((K, Ztr.shape[1]))
-        np.add.at(means, inv, Ztr)
+        m = self.problem.n_features
+        means = np.zeros((K, m))
+        for sl, Z in blocks():
+            part = inv[sl]
+            for k in range(K):
+                means[k] += Z[part == k].sum(axis=0)
         means /= counts[:, None]
-        Xc = Ztr - means[inv]
-        G = Xc.T @ Xc
+        G = np.zeros((m, m))
+        for sl, Z in blocks():
+            Z = Z - means[inv[sl]]
+            G += Z.T @ Z
         priors = counts / float(n)
         xbar = priors @ means
         return _Fold(G, np.sqrt(np.diag(G)), Zte, yte, A=means - xbar, xbar=xbar,
                      log_priors=np.log(priors), dw=np.sqrt(n * priors / (K - 1)),
                      classes=classes, n=n)
+
+    def _test_columns(self, fold: _Fold, idx: np.ndarray) -> np.ndarray:
+        """The test rows of the columns ``idx`` (B x k), shape (n_test, B, k)."""
+        if fold.Zte is not None:
+            return fold.Zte[:, idx]
+        Zs = self.problem.X[fold.test[:, None, None], idx[None]]
+        return Zs if fold.center is None else Zs - fold.center[idx]
 
     # --------------------------------------------------------------------- scoring
     def score(self, work: list[tuple[tuple[int, ...], int]]) -> list[float | None]:
@@ -354,7 +394,7 @@ class LinearPath:
         spread = d.max(axis=1) / d.min(axis=1)
         ok &= np.sqrt(lam[:, -1] / lam[:, 0]) * spread <= MAX_COND
         w = x[:, :, 0]
-        Zs = fold.Zte[:, idx]                                   # (n_test, B, k)
+        Zs = self._test_columns(fold, idx)                      # (n_test, B, k)
         pred = np.einsum("nbk,bk->bn", Zs, w) + fold.offset
         y = fold.yte
         name = self.score_name
@@ -416,7 +456,7 @@ class LinearPath:
         if K == 2:
             coef = coef[:, 1:, :] - coef[:, :1, :]
             intercept = intercept[:, 1:] - intercept[:, :1]
-        Zs = fold.Zte[:, idx]                                   # (n_test, B, k)
+        Zs = self._test_columns(fold, idx)                      # (n_test, B, k)
         dec = np.einsum("nbk,bck->bnc", Zs, coef) + intercept[:, None, :]
         name = self.score_name
         if name in _LABEL_SCORES or name in _RANK_SCORES:

@@ -84,10 +84,16 @@ def standardize_columns(X: np.ndarray) -> np.ndarray:
     with np.errstate(invalid="ignore"):
         mean = np.nanmean(X, axis=0) if np.isnan(X).any() else X.mean(axis=0)
     Z = X - mean
-    Z[np.isnan(Z)] = 0.0
-    scale = np.sqrt((Z**2).mean(axis=0))
+    # Column blocks keep the temporaries (NaN mask, squares) small: only Z is as big as X.
+    n, p = Z.shape
+    step = max(1, (1 << 20) // max(1, n))
+    scale = np.empty(p)
+    for lo in range(0, p, step):
+        part = Z[:, lo:lo + step]
+        part[np.isnan(part)] = 0.0
+        scale[lo:lo + step] = np.sqrt((part**2).mean(axis=0))
     ok = scale > 0
-    Z[:, ok] /= scale[ok]
+    Z /= np.where(ok, scale, 1.0)
     Z[:, ~ok] = 0.0
     return Z
 

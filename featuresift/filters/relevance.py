@@ -117,15 +117,27 @@ def _columns_by_nan(X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.where(~has)[0], np.where(has)[0]
 
 
+BLOCK_VALUES = 1 << 20
+"""Values per block of columns that the column-wise scorers work on (8 MB of float64)."""
+
+
 def _per_column(X: np.ndarray, block: Callable, *targets: np.ndarray):
-    """Run ``block(X_sub, *targets_sub)`` on the clean columns at once and on each NaN
-    column with its NaN rows deleted. Returns (scores, pvalues)."""
+    """Run ``block(X_sub, *targets_sub)`` on blocks of the clean columns and on each NaN
+    column with its NaN rows deleted. Returns (scores, pvalues).
+
+    Every scorer passed here treats each column on its own, so blocks of columns give
+    the scores of one call on all of them (up to the last bits of a matrix product),
+    while the scorer's temporaries stay at the size of a block (:data:`BLOCK_VALUES`
+    values) rather than several copies of ``X``.
+    """
     p = X.shape[1]
     scores = np.zeros(p)
     pvals = np.ones(p)
     clean, dirty = _columns_by_nan(X)
-    if clean.size:
-        scores[clean], pvals[clean] = block(X[:, clean], *targets)
+    step = max(1, BLOCK_VALUES // max(1, X.shape[0]))
+    for lo in range(0, clean.size, step):
+        cols = clean[lo:lo + step]
+        scores[cols], pvals[cols] = block(X[:, cols], *targets)
     for j in dirty:
         ok = ~np.isnan(X[:, j])
         scores[j], pvals[j] = (v[0] for v in block(X[ok, j:j + 1], *(t[ok] for t in targets)))
