@@ -94,6 +94,35 @@ def test_backward_under_a_tight_budget_removes_a_panel_as_one_unit_then_refills(
     assert res.selected == ["x", "y", "z"]
 
 
+# Hand-worked double swap. Four tests at 1 EUR, budget 2 EUR (two tests). Values:
+# a, b alone 3; a + b 10; c + d 11 (the optimum); b + c and a + d 9; every other
+# subset 1 or less. Greedy takes a, then b (10). From a + b no single add (none
+# affordable), remove (3) or swap (9 at most) improves: a local optimum for single
+# moves. Its two best neighbours, b + c (a -> c) and a + d (b -> d), done at once give
+# c + d.
+PAIR_VALUES = {(0,): 3.0, (1,): 3.0, (2,): 1.0, (3,): 1.0, (0, 1): 10.0, (2, 3): 11.0,
+               (1, 2): 9.0, (0, 3): 9.0, (0, 2): 1.0, (1, 3): 1.0}
+
+
+@pytest.mark.parametrize(("pair_moves", "expected"), [(0, ["a", "b"]), (4, ["c", "d"])])
+def test_paired_moves_reach_an_optimum_two_swaps_away(pair_moves, expected):
+    def crit(s):
+        return PAIR_VALUES.get(s, 0.0)
+
+    costs = CostModel(list("abcd"), dict.fromkeys("abcd", 1.0), unit="EUR")
+    assert _brute_force(crit, costs, 2.0) == (2, 3)
+    ev = CriterionEvaluator(crit, 4, list("abcd"))
+    res = run_search(ev, "greedy-swap", costs=costs, budget=2.0, pick="best",
+                     exhaustive_limit=0, pair_moves=pair_moves)
+    assert res.selected == expected
+    assert "paired move" in res.stop_reason
+    # Restricting swaps to the 2 most promising removals and additions still finds it.
+    ev = CriterionEvaluator(crit, 4, list("abcd"))
+    res = run_search(ev, "greedy-swap", costs=costs, budget=2.0, pick="best",
+                     exhaustive_limit=0, swap_candidates=2)
+    assert res.selected == ["c", "d"]
+
+
 def _random_problem(seed: int, n: int = 8):
     rng = np.random.default_rng(seed)
     names = [f"m{i}" for i in range(n)]
@@ -119,7 +148,7 @@ def test_default_strategy_is_exact_when_enumerated_else_a_local_optimum(seed):
         assert costs.is_feasible(res.support, budget)
         space = SearchSpace(CriterionEvaluator(crit, len(names), names), costs, budget=budget)
         n_allowed = space.allowed_subsets().count()
-        if n_allowed <= 128:
+        if n_allowed <= 64:  # the default exhaustive_limit
             # Enumerated: the brute-force optimum.
             assert res.score_mean == pytest.approx(crit(_brute_force(crit, costs, budget)))
             assert "optimum over all" in res.stop_reason

@@ -15,18 +15,24 @@ Rules, in order
    so the best single item is always among the starting points (the safeguard against
    ratio rules spending the budget on small cheap gains).
 3. **Then local search** from the best subset seen (greedy path and every single
-   measurement included). Each round evaluates, as one batch,
-   every allowed neighbour of the current subset:
+   measurement included), over the allowed neighbours of the current subset:
 
    * **add** one addable feature, or every not-yet-chosen member of one panel;
    * **remove** one feature, or every chosen member of one panel (never down to the empty
      subset, never a ``must_include`` feature);
    * **swap** one chosen feature for one not chosen.
 
-   The search moves to the best neighbour when it is strictly better by
+   Each round evaluates the add and remove moves as one batch and moves to the best of
+   them when it is strictly better by
    :meth:`~featuresift.strategies.base.SearchSpace.rank_key` (objective, then score,
-   lower cost, fewer features, earlier columns) and stops when no neighbour is better:
-   a local optimum for all three kinds of move. Subsets already evaluated are free.
+   lower cost, fewer features, earlier columns); only when none is, the swaps are
+   evaluated (one batch) and the search moves to the best improving one.
+4. **Paired moves at a local optimum.** When no add, remove or swap improves, the
+   changes of the ``pair_moves`` (default 4) best neighbours of that round are combined
+   two by two (e.g. two swaps at once, inside a panel or across panels; only compatible,
+   allowed combinations); the search moves to the best combination if it improves and
+   goes on with step 3, else stops: a local optimum for adds, removes, swaps and these
+   paired moves. Subsets already evaluated are free.
 
 The answer is the best allowed subset seen; the driver's pick rule then applies (so a
 cheaper subset statistically as good can still be preferred). No random numbers are
@@ -36,11 +42,15 @@ Why this default
 ----------------
 Measured on the exhaustive reference suite (``benchmarks/bench_reference.py``: four
 scikit-learn data sets, invented costs with panels and values on hand, six budgets each,
-24 cases; figures in ``benchmarks/README.md``). Greedy alone misses cases that a swap
-repairs; local search from the gain-per-cost path found the same optima as from both
-paths (plain gain and gain per cost) with about a fifth fewer fits, hence the default
-``cost_rule="ratio"`` (``"both"`` stays available). Enumeration below 128 allowed
-subsets costs about what the greedy search would and is exact.
+24 cases; figures and the designs tried in ``benchmarks/README.md``). Greedy alone
+misses cases that a swap repairs; local search from the gain-per-cost path found the
+same optima as from both paths (plain gain and gain per cost) with about a fifth fewer
+fits, hence the default ``cost_rule="ratio"`` (``"both"`` stays available). Trying adds
+and removes before swaps saves the swap batch whenever a cheaper move already improves;
+paired moves reach the optima that need two simultaneous swaps for a few extra subsets;
+enumerating only up to 64 allowed subsets (the greedy search with local search finds
+the optimum of every smaller case of the suite with fewer fits). ``swap_candidates``
+trades the swap guarantee for fewer fits (see the README's table).
 """
 
 from __future__ import annotations
@@ -105,17 +115,88 @@ def neighbourhood(space: SearchSpace, subset: tuple[int, ...],
     return list(out)
 
 
-def local_search(space: SearchSpace, start: Scored, size: int | None = None) -> Scored:
-    """Best-improvement local search over :func:`neighbourhood`; records "move" steps."""
+def _is_swap(subset: tuple[int, ...], other: tuple[int, ...]) -> bool:
+    return len(other) == len(subset) and len(set(other) ^ set(subset)) == 2
+
+
+def _top_swaps(space: SearchSpace, subset: tuple[int, ...], swaps: list[tuple[int, ...]],
+               k: int) -> list[tuple[int, ...]]:
+    """The swaps among the ``k`` most promising removals and the ``k`` most promising
+    additions: removals ranked by the subset left without the feature, additions by the
+    subset with it when evaluated, else by the feature alone (ties: column order)."""
+    base = set(subset)
+    seen = space.visited
+    worst: tuple = (False,)
+
+    def out_key(f: int) -> tuple:
+        s = seen.get(tuple(sorted(base - {f})))
+        return (s.rank_key if s else worst, -f)
+
+    def in_key(g: int) -> tuple:
+        s = seen.get(tuple(sorted(base | {g})))
+        if s is not None:
+            return (1, s.rank_key, -g)
+        one = seen.get((g,))
+        return (0, one.rank_key if one else worst, -g)
+
+    outs = sorted({f for n in swaps for f in base - set(n)}, key=out_key, reverse=True)[:k]
+    ins = sorted({g for n in swaps for g in set(n) - base}, key=in_key, reverse=True)[:k]
+    return [n for n in swaps if base - set(n) <= set(outs) and set(n) - base <= set(ins)]
+
+
+def _paired(space: SearchSpace, subset: tuple[int, ...], scored: list[Scored], m: int,
+            size: int | None) -> list[tuple[int, ...]]:
+    """Allowed unions of the changes of two of the ``m`` best neighbours (best first)."""
+    ranked = sorted(scored, key=lambda x: x.rank_key, reverse=True)[:m]
+    base = set(subset)
+    out: dict[tuple[int, ...], None] = {}
+    for i, a in enumerate(ranked):
+        for b in ranked[i + 1:]:
+            sa, sb = set(a.subset), set(b.subset)
+            add = (sa - base) | (sb - base)
+            drop = (base - sa) | (base - sb)
+            if add & drop:
+                continue
+            key = tuple(sorted((base - drop) | add))
+            if key and (size is None or len(subset) <= len(key) <= size) \
+                    and space.is_allowed(key):
+                out.setdefault(key, None)
+    return list(out)
+
+
+def local_search(space: SearchSpace, start: Scored, size: int | None = None,
+                 pair_moves: int = 4, swap_candidates: int | None = None) -> Scored:
+    """Local search over :func:`neighbourhood` plus paired moves; records "move" steps.
+
+    Each round evaluates the add and remove moves (single features and whole panels)
+    first and moves to the best of them if it improves; only otherwise the swaps (all,
+    or those of :func:`_top_swaps` with ``swap_candidates``) are evaluated. When no
+    neighbour improves, the ``pair_moves`` best neighbours of the round are combined
+    two by two (both changes at once, when compatible and allowed); the search moves to
+    the best combination if it improves and goes on, else stops.
+    """
     current = start
+    paired = False
     while True:
-        batch = neighbourhood(space, current.subset, size)
-        if not batch:
-            break
-        best = space.best_of(space.evaluate(batch))
-        if best is None or space.rank_key(best) <= space.rank_key(current):
+        sub = current.subset
+        batch = neighbourhood(space, sub, size)
+        swaps = [n for n in batch if _is_swap(sub, n)]
+        scored = space.evaluate([n for n in batch if not _is_swap(sub, n)])
+        best = space.best_of(scored)
+        if (best is None or best.rank_key <= current.rank_key) and swaps:
+            if swap_candidates is not None:
+                swaps = _top_swaps(space, sub, swaps, swap_candidates)
+            scored += space.evaluate(swaps)
+            best = space.best_of(scored)
+        if (best is None or best.rank_key <= current.rank_key) and pair_moves > 1 \
+                and not paired:
+            paired = True
+            combos = _paired(space, sub, scored, pair_moves, size)
+            best = space.best_of(space.evaluate(combos)) if combos else None
+        if best is None or best.rank_key <= current.rank_key:
             break
         current = best
+        paired = False
         space.record("move", current.subset)
     return current
 
@@ -126,7 +207,7 @@ class GreedySwapSearch(SearchStrategy):
 
     Parameters
     ----------
-    exhaustive_limit : int, default=128
+    exhaustive_limit : int, default=64
         Enumerate every allowed subset when there are at most this many.
     cost_rule : {"ratio", "both", "gain"}, default="ratio"
         Step rule of the greedy phase (see
@@ -135,6 +216,13 @@ class GreedySwapSearch(SearchStrategy):
         Answer with a subset of exactly this many features (including
         ``must_include``) when one is allowed: only subsets of that size are enumerated,
         the greedy phase stops there and the local search then only swaps.
+    pair_moves : int, default=4
+        At a local optimum, combine the changes of the ``pair_moves`` best neighbours two
+        by two (0 or 1: no paired moves).
+    swap_candidates : int, optional
+        Evaluate only the swaps among this many most promising removals and additions
+        (see :func:`local_search`); fewer fits, but the answer is then a local optimum
+        of the add and remove moves and of those swaps only. None: every swap.
 
     Examples
     --------
@@ -152,9 +240,13 @@ class GreedySwapSearch(SearchStrategy):
 
     name = "greedy-swap"
 
-    def __init__(self, exhaustive_limit: int = 128, cost_rule: str = "ratio",
-                 n_features: int | None = None) -> None:
+    def __init__(self, exhaustive_limit: int = 64, cost_rule: str = "ratio",
+                 n_features: int | None = None, pair_moves: int = 4,
+                 swap_candidates: int | None = None) -> None:
         self.exhaustive_limit = check_int(exhaustive_limit, "exhaustive_limit", minimum=0)
+        self.pair_moves = check_int(pair_moves, "pair_moves", minimum=0)
+        self.swap_candidates = (None if swap_candidates is None
+                                else check_int(swap_candidates, "swap_candidates"))
         ForwardSelection(cost_rule=cost_rule, n_features=n_features)  # validates both
         self.cost_rule = cost_rule
         self.n_features = n_features
@@ -192,8 +284,8 @@ class GreedySwapSearch(SearchStrategy):
             return
         if not space.path or space.path[-1].subset != start.subset:
             space.record("best", start.subset)
-        end = local_search(space, start, size)
-        space.stop_reason = ("local optimum: no add, remove or swap improves on "
+        end = local_search(space, start, size, self.pair_moves, self.swap_candidates)
+        space.stop_reason = ("local optimum: no add, remove, swap or paired move improves on "
                              + ", ".join(space.feature_names[i] for i in end.subset))
         if size is not None:
             space.stop_reason = "local optimum of the swaps at size " + str(len(end.subset))
