@@ -317,6 +317,10 @@ class CostModel:
         return len(self.feature_names)
 
     def _indices(self, subset: Iterable[int | str]) -> list[int]:
+        if type(subset) is tuple and subset and {type(i) for i in subset} == {int}:
+            # The common case (a search's sorted column tuple), checked in bulk.
+            if min(subset) >= 0 and max(subset) < len(self.feature_names):
+                return list(subset)
         out = []
         for item in subset:
             if isinstance(item, str):

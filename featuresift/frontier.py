@@ -61,7 +61,7 @@ BUDGET_LEVELS = ("round", "costs")
 """How default budgets are placed: 1-2-5 round money values, or distinct cost levels."""
 
 _ENGINE_OPTIONS = ("racing", "journal", "chunk_size", "verbose", "on_fit_error",
-                   "share_preprocessing", "fast_path", "error_score")
+                   "share_preprocessing", "fast_path", "pool", "warm_start", "error_score")
 _COST_TOL = 1e-9
 SCORE_KIND = "in-search"
 """What the sweep's scores are: the search's own CV estimates (optimistic)."""
@@ -836,7 +836,7 @@ def budget_sweep(
         An evaluator to share; default a new :class:`CrossValidationEvaluator` built
         with the engine options found in ``search_options`` (``racing``, ``journal``,
         ``chunk_size``, ``verbose``, ``on_fit_error``, ``share_preprocessing``,
-        ``fast_path``, ``error_score``).
+        ``fast_path``, ``pool``, ``warm_start``, ``error_score``).
     **search_options
         Passed to :func:`featuresift.run_search` (objective, pick, limits, strategy
         options...). The noise guard (``guard``) is not run per budget: it is applied

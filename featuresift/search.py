@@ -227,6 +227,8 @@ def run_search(
     on_fit_error: str = "raise",
     share_preprocessing: bool = True,
     fast_path: bool = True,
+    pool: str = "auto",
+    warm_start: bool = False,
     error_score: float = math.nan,
     **strategy_options: Any,
 ) -> SearchResult:
@@ -284,12 +286,15 @@ def run_search(
         Progress: 0 off; 1 one bar for the search (subsets evaluated, current step, best
         score so far, time left) in a notebook or on a terminal, one line per step when
         output is piped; 2 always the bar.
-    racing, journal, chunk_size, on_fit_error, share_preprocessing, fast_path : optional
+    racing, journal, chunk_size, on_fit_error, share_preprocessing, fast_path, pool, \
+warm_start : optional
         Passed to the :class:`CrossValidationEvaluator` built here (racing rule,
         SQLite journal path for resumable runs, fits per parallel task,
         failure policy "raise" or "record", column-wise pipeline steps fitted once per
-        fold, exact scores of OLS/ridge/LDA from per-fold statistics). Ignored when
-        ``problem`` is an evaluator.
+        fold, exact scores of OLS/ridge/LDA from per-fold statistics, where fits run:
+        "auto" / "always" / "never" in the worker pool, logistic-regression fits
+        started from the parent subset's coefficients). Ignored when ``problem`` is an
+        evaluator.
     error_score : float, default=nan
         Under ``on_fit_error="record"``, what a failed fold scores (scikit-learn's
         convention). NaN: a subset with any failed fold (fit error, scorer error, NaN
@@ -348,7 +353,7 @@ def run_search(
             problem, n_jobs=n_jobs, racing=racing, journal=journal, chunk_size=chunk_size,
             verbose=0, on_fit_error=on_fit_error, share_preprocessing=share_preprocessing,
             fast_path=fast_path,  # progress: one bar for the whole search (below)
-            error_score=error_score,
+            pool=pool, warm_start=warm_start, error_score=error_score,
         )
     names = list(cost_model.feature_names)
     try:
@@ -410,6 +415,7 @@ def _guard(spec, evaluator, strat, space, pick, seed, answer, refs, references):
         "chunk_size": evaluator.chunk_size, "on_fit_error": evaluator.on_fit_error,
         "share_preprocessing": evaluator.plan.head is not None,
         "fast_path": evaluator.fast_path is not None,
+        "pool": evaluator.pool.mode, "warm_start": evaluator.warm is not None,
     }
     record.update(run_nested_guard(spec, evaluator.problem, strat, space.objective,
                                    seed=seed, n_jobs=evaluator.n_jobs,

@@ -80,6 +80,9 @@ def test_racing_flag_records_the_rule(tmp_path):
         ({"error_score": float("inf")}, "engine.error_score", "finite"),
         ({"chunk_size": 0}, "engine.chunk_size", ">= 1"),
         ({"share_preprocessing": "yes"}, "engine.share_preprocessing", "true or false"),
+        ({"fast_path": "off"}, "engine.fast_path", "true or false"),
+        ({"pool": "sometimes"}, "engine.pool", "auto, always, never"),
+        ({"warm_start": 1}, "engine.warm_start", "true or false"),
     ],
 )
 def test_bad_engine_settings_exit_2(tmp_path, capsys, engine, key, word):
@@ -140,3 +143,37 @@ def test_error_score_from_yaml_scores_failed_folds(tmp_path):
     assert res["failures"]["error_score"] == 0.25
     assert res["failures"]["n_failed_fits"] > 0 and res["failures"]["n_failed_fits"] % 3 == 0
 
+
+
+@pytest.mark.parametrize("model,engine", [
+    # LDA behind the demo's imputer and scaler: eligible for the fast path.
+    ({"estimator": "sklearn.discriminant_analysis.LinearDiscriminantAnalysis",
+      "preprocessing": ["impute_median", "scale"]}, {"fast_path": False, "pool": "always"}),
+    # The demo's logistic regression: warm starts apply to it.
+    (None, {"warm_start": True, "pool": "never"}),
+])
+def test_fast_path_pool_warm_start_keys_act_as_the_python_arguments(tmp_path, model, engine):
+    from featuresift import run_search
+    from featuresift.config import build_run, load_config
+
+    changes = {"engine": {"journal": False, "progress": False, **engine}, "guard": "off",
+               "n_jobs": 1}
+    if model is not None:
+        changes["model"] = model
+    problem, kwargs = build_run(load_config(_write(tmp_path, **changes)))
+    assert {k: kwargs[k] for k in engine} == engine
+    from_yaml = run_search(problem, **kwargs)
+    plain = {k: v for k, v in kwargs.items() if k not in engine}
+    from_python = run_search(problem, **plain, **engine)
+    stats, ref = from_yaml.extras["engine"], from_python.extras["engine"]
+    assert from_yaml.selected == from_python.selected
+    assert from_yaml.fold_scores == from_python.fold_scores
+    assert stats["pool"]["mode"] == engine["pool"] == ref["pool"]["mode"]
+    if "fast_path" in engine:
+        assert stats["fast_path"] is None and ref["fast_path"] is None
+        assert stats["pool"]["fits_in_process"] == 0   # "always": every fit through joblib
+        default = run_search(problem, **plain).extras["engine"]   # keys left out
+        assert default["fast_path"]["n_scored"] > 0 and default["pool"]["mode"] == "auto"
+    else:
+        assert stats["warm_start"]["n_warm"] == ref["warm_start"]["n_warm"] > 0
+        assert stats["pool"]["fits_in_pool"] == 0

@@ -100,6 +100,42 @@ def test_fold_scores_equal_scikit_learn_fits(data, estimator, scoring, n_subsets
         assert abs(value - ref) <= 1e-9, (s, f, value, ref)
 
 
+@pytest.mark.parametrize("data,estimator", [
+    ("cancer", LDA()),
+    ("wine", make_pipeline(StandardScaler(), LDA())),
+    ("diabetes", Ridge(alpha=0.5)),
+    ("diabetes", LinearRegression()),
+])
+def test_bordered_updates_equal_scikit_learn_fits(data, estimator):
+    # Batches shaped like a forward step (all one-column extensions of a subset), a
+    # backward step (all one-column removals) and exhaustive enumeration (subsets
+    # sharing all but their last column): the path scores them from one smaller
+    # inverse by bordered / rank-one updates. Reference: scikit-learn fits, 1e-9.
+    X, y = _data(data)
+    X = X[:, :10]
+    cv = StratifiedKFold(2) if data != "diabetes" else KFold(2)
+    problem = SelectionProblem(X, y, estimator, cv=cv)
+    path = make_linear_path(problem)
+    p = X.shape[1]
+    base, whole = (1, 4, 6), (0, 2, 3, 5, 7, 9)
+    batches = [
+        [tuple(sorted(base + (j,))) for j in range(p) if j not in base],
+        [tuple(c for c in whole if c != j) for j in whole],
+        [(a, b, c) for a in range(6) for b in range(a + 1, 6) for c in range(b + 1, 6)],
+    ]
+    n_pairs = 0
+    for batch in batches:
+        work = [(s, f) for s in batch for f in range(2)]
+        n_pairs += len(work)
+        for (s, f), value in zip(work, path.score(work)):
+            assert value is not None
+            train, test = problem.splits[f]
+            est = clone(estimator).fit(X[train][:, list(s)], y[train])
+            ref = _reference(problem, est, X[test][:, list(s)], y[test])
+            assert abs(value - ref) <= 1e-9, (s, f, value, ref)
+    assert path.n_updated == n_pairs   # every pair came from an update, none inverted alone
+
+
 def test_singular_within_class_scatter_and_collinear_columns_are_declined():
     X, y = load_breast_cancer(return_X_y=True)
     X = np.column_stack([X[:, :4], X[:, 0] * 2.0 + X[:, 1], np.ones(len(y))])

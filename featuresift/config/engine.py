@@ -11,6 +11,7 @@ from featuresift.config.schema import RunConfig
 from featuresift.config.sections import Section, register_section
 from featuresift.engine.cluster import check_cluster, import_distributed, use_cluster
 from featuresift.engine.evaluator import check_error_score
+from featuresift.engine.pool import POOL_MODES
 from featuresift.engine.racing import make_race
 from featuresift.errors import InputError
 from featuresift.problem import SelectionProblem
@@ -35,6 +36,9 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
                                 #   of worker processes here; or a dask scheduler address
                                 #   such as tcp://10.0.0.5:8786 (featuresift[cluster])
           workers: null         # with cluster: local, worker processes (default: CPUs)
+          fast_path: true       # exact OLS/ridge/LDA scores from per-fold statistics
+          pool: auto            # auto | always | never: fits in worker processes
+          warm_start: false     # logistic regression starts from the parent's coefficients
 
     Under ``cluster`` the fits run on the dask cluster (``n_jobs``, when given, limits
     the concurrent tasks; default every worker thread); answers are those of a local
@@ -42,7 +46,7 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
     """
     d = ctx.mapping(value, "engine", ["journal", "racing", "chunk_size", "on_fit_error",
                                       "error_score", "progress", "share_preprocessing",
-                                      "cluster", "workers"])
+                                      "cluster", "workers", "fast_path", "pool", "warm_start"])
     journal = d.get("journal", True)
     if journal is None or isinstance(journal, bool):
         journal_name = "journal.sqlite" if journal else None
@@ -77,6 +81,9 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
             import_distributed()
     except InputError as exc:
         raise ctx.error(exc.message, f"engine.{exc.key}") from None
+    pool = d.get("pool", "auto")
+    if pool not in POOL_MODES:
+        raise ctx.error(f"expected {', '.join(POOL_MODES)}, got {_show(pool)}", "engine.pool")
     return {
         "journal": journal_name,
         "racing": racing,
@@ -89,6 +96,9 @@ def _parse_engine(value: Any, ctx: _Context) -> dict:
                                            "engine.share_preprocessing"),
         "cluster": cluster,
         "workers": workers,
+        "fast_path": ctx.boolean(d.get("fast_path", True), "engine.fast_path"),
+        "pool": pool,
+        "warm_start": ctx.boolean(d.get("warm_start", False), "engine.warm_start"),
     }
 
 
@@ -100,6 +110,8 @@ def _apply_engine(cfg: RunConfig, value: dict, problem: SelectionProblem, kwargs
     kwargs["error_score"] = value["error_score"]
     kwargs["verbose"] = 1 if value["progress"] else 0
     kwargs["share_preprocessing"] = value["share_preprocessing"]
+    for key in ("fast_path", "pool", "warm_start"):
+        kwargs[key] = value[key]
     if value["cluster"] is not None:
         _check_n_jobs(cfg)
         if "n_jobs" not in cfg.lines and "n_jobs" not in cfg.overridden:

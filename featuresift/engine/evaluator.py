@@ -722,9 +722,12 @@ class CrossValidationEvaluator(BaseEvaluator):
         if self.fast_path is None:
             return self._dispatch(work)
         t0 = time.perf_counter()
+        # Small batched solves: one BLAS thread, as for a fit (extra threads only cost
+        # switching, and more so on a machine whose cores are busy).
+        with _limit_threads(self.inner_threads):
+            scored = self.fast_path.score(work)
         # A non-finite fast score goes to the real fit, whose failure policy then applies.
-        scores = [s if s is None or math.isfinite(s) else None
-                  for s in self.fast_path.score(work)]
+        scores = [s if s is None or math.isfinite(s) else None for s in scored]
         seconds = (time.perf_counter() - t0) / len(work)
         rest = [w for w, s in zip(work, scores) if s is None]
         fitted = iter(self._dispatch(rest) if rest else ())

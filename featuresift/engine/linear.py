@@ -35,7 +35,16 @@ steps, centred, the coefficients solve ``(Z'Z + alpha I) w = Z'(y - mean y)`` an
 prediction is ``mean y + (z - mean z)' w`` (``fit_intercept=False``: no centring),
 exactly the system scikit-learn's ridge solves; for OLS (alpha 0) it is the full-rank
 least-squares solution ``lstsq`` returns. The system is solved after scaling to unit
-diagonal, through its eigen-decomposition.
+diagonal, through the inverse of the unit-diagonal matrix M. Its conditioning is
+certified from that inverse (the smallest eigenvalue is at least ``1 / trace(M^-1)``,
+the largest at most the size k); a subset the bound cannot certify is decided, and
+solved, through its eigen-decomposition instead.
+
+Subsets scored together share work (bordered-matrix, or rank-one, updates): all
+one-column extensions of a subset (a forward step), or subsets sharing all but their
+last column (exhaustive enumeration), get their inverses from the common part's
+inverse bordered by one row and column; all one-column removals from a subset (a
+backward step) from the whole's inverse, downdated, when the whole is well conditioned.
 
 LDA (``solver="svd"``): scikit-learn whitens the class-centred data by the singular
 values of the within-class *correlation* matrix R, keeps directions whose singular value
@@ -123,6 +132,14 @@ TIE_TOL = 1e-8
 """Relative distance to a decision boundary (or between two test decisions, for
 rank-based scores) below which a fold is handed to the generic fit."""
 
+_MAX_COND_DOWNDATE = 1e6
+"""Largest bound on the condition number of a subset's unit-diagonal matrix from whose
+inverse the removals of one column are computed (above it each is inverted on its own)."""
+
+_DENSE_COLUMNS = 64
+"""Up to this many columns, a block's predictions are one product with the whole test
+matrix (kept per fold) instead of a gather of each subset's columns."""
+
 _MAX_BLOCK = 2_000_000
 
 _ROW_VALUES = 1 << 21
@@ -149,6 +166,8 @@ class _Fold:
     ok: bool = True
     test: np.ndarray | None = None     # without shared steps: test row indices into X ...
     center: np.ndarray | None = None   # ... and the centre to subtract (None: uncentred)
+    Zdense: np.ndarray | None = None   # few columns: all test rows x all columns ...
+    Zdense_abs: np.ndarray | None = None   # ... and their absolute values (near ties)
 
 
 class _Outputs(BaseEstimator):
@@ -237,12 +256,14 @@ class LinearPath:
         self._folds: dict[int, _Fold] = {}
         self.n_scored = 0
         self.n_declined = 0
+        self.n_updated = 0
 
     def describe(self) -> dict[str, Any]:
         """What the path computes (for ``stats()`` and reports)."""
         return {"kind": self.kind, "score": self.score_name,
                 "shared_steps": 0 if self.head is None else len(self.head.steps),
-                "n_scored": self.n_scored, "n_declined": self.n_declined}
+                "n_scored": self.n_scored, "n_declined": self.n_declined,
+                "n_updated": self.n_updated}
 
     # ------------------------------------------------------------ fold statistics
     def _fold(self, f: int) -> _Fold:
@@ -324,6 +345,32 @@ class LinearPath:
                      log_priors=np.log(priors), dw=np.sqrt(n * priors / (K - 1)),
                      classes=classes, n=n)
 
+    def _predict(self, fold: _Fold, idx: np.ndarray, coef: np.ndarray,
+                 absolute: bool = False) -> np.ndarray:
+        """``Z[:, S_b] @ coef[b].T`` on the test rows for every row b of ``idx``, shape
+        (B, n_test, C); with ``absolute``, ``|Z|`` instead of ``Z``.
+
+        With few columns in all (at most :data:`_DENSE_COLUMNS`), the coefficients are
+        scattered into full-width rows and the block is one matrix product (BLAS) with
+        the fold's test matrix, kept for the next blocks; otherwise the subsets' columns
+        are gathered.
+        """
+        B, C, k = coef.shape
+        p = len(fold.d)
+        if p > _DENSE_COLUMNS:
+            Zs = self._test_columns(fold, idx)                  # (n_test, B, k)
+            return np.einsum("nbk,bck->bnc", np.abs(Zs) if absolute else Zs, coef)
+        if fold.Zdense is None:
+            full = np.arange(p)[None, :]
+            fold.Zdense = np.ascontiguousarray(self._test_columns(fold, full)[:, 0, :])
+        if absolute and fold.Zdense_abs is None:
+            fold.Zdense_abs = np.abs(fold.Zdense)
+        Z = fold.Zdense_abs if absolute else fold.Zdense
+        W = np.zeros((B, C, p))
+        W[np.arange(B)[:, None, None], np.arange(C)[None, :, None], idx[:, None, :]] = coef
+        out = Z @ W.reshape(B * C, p).T                         # (n_test, B * C)
+        return out.reshape(len(Z), B, C).transpose(1, 0, 2)
+
     def _test_columns(self, fold: _Fold, idx: np.ndarray) -> np.ndarray:
         """The test rows of the columns ``idx`` (B x k), shape (n_test, B, k)."""
         if fold.Zte is not None:
@@ -364,38 +411,158 @@ class LinearPath:
         self.n_declined += len(work) - done
         return out
 
-    def _solve(self, fold: _Fold, idx: np.ndarray, rhs: np.ndarray, alpha: float):
-        """Solve the unit-diagonal systems of a block of subsets; None rows where declined.
-
-        ``rhs`` has shape (B, k, m). Returns (solutions of ``(G_S + alpha I) x = rhs``,
-        ok mask, eigenvalues of the unit-diagonal matrix).
-        """
-        G = fold.G[idx[:, :, None], idx[:, None, :]]
+    def _unit(self, fold: _Fold, cols: np.ndarray, alpha: float) -> np.ndarray:
+        """The unit-diagonal matrices ``D^-1 (G_S + alpha I) D^-1`` of rows of ``cols``."""
+        G = fold.G[cols[:, :, None], cols[:, None, :]]
         if alpha:
-            G = G + alpha * np.eye(idx.shape[1])
-        d = fold.d[idx]
-        ok = (d > 0).all(axis=1)
+            G = G + alpha * np.eye(cols.shape[1])
+        d = fold.d[cols]
         d = np.where(d > 0, d, 1.0)
-        M = G / (d[:, :, None] * d[:, None, :])
-        lam, Q = np.linalg.eigh(M)
-        lo, hi = lam[:, 0], lam[:, -1]
-        ok &= (lo > 0) & (hi <= MAX_COND * np.where(lo > 0, lo, np.inf))
-        lam = np.where(lam > 0, lam, 1.0)
-        y = np.einsum("bji,bjm->bim", Q, rhs / d[:, :, None])
-        x = np.einsum("bij,bjm->bim", Q, y / lam[:, :, None]) / d[:, :, None]
-        return x, ok, lam, d
+        return G / (d[:, :, None] * d[:, None, :])
+
+    def _inverses(self, fold: _Fold, idx: np.ndarray, alpha: float):
+        """Inverses of the unit-diagonal matrices of a block of subsets (same size).
+
+        Where the block's subsets share structure, the inverses come from one smaller
+        inverse by a bordered-matrix (rank-one) update instead of one inversion each:
+
+        * all one-column extensions of a common subset (a forward step), or groups of
+          subsets that share all but their last column (exhaustive enumeration): the
+          common part's inverse ``B^-1`` is bordered by the new column ``b``, with
+          Schur complement ``s = 1 - b' B^-1 b``;
+        * all one-column removals from a common subset (a backward step): the inverse
+          of the whole is downdated (``P^-1 - P^-1 e e' P^-1 / (P^-1)_jj`` restricted to
+          the kept columns), only when the whole is well conditioned.
+
+        Returns ``(idx, inv)``: ``idx`` holds the same column sets, possibly in another
+        order within a row (the order ``inv`` uses); ``inv`` is None when a matrix was
+        singular to working precision (the caller then decomposes each one).
+        """
+        B, k = idx.shape
+        if k >= 2 and B >= 2:
+            p = len(fold.d)
+            counts = np.bincount(idx.ravel(), minlength=p)
+            common = counts == B
+            n_common = int(common.sum())
+            if n_common == k - 1:                               # all extensions of one set
+                extra_mask = ~common[idx]
+                extra = idx[extra_mask]
+                base = np.flatnonzero(common)
+                order = np.concatenate([np.broadcast_to(base, (B, k - 1)), extra[:, None]],
+                                       axis=1)
+                inv = self._bordered(fold, base[None, :], np.zeros(B, dtype=np.intp),
+                                     extra, alpha)
+                if inv is not None:
+                    self.n_updated += B
+                    return order, inv
+            union = np.flatnonzero(counts)
+            if len(union) == k + 1:                             # removals from one set
+                inv = self._downdated(fold, union, idx, alpha)
+                if inv is not None:
+                    self.n_updated += B
+                    return idx, inv
+            prefixes, group = np.unique(idx[:, :-1], axis=0, return_inverse=True)
+            if 2 * len(prefixes) <= B:                          # shared prefixes
+                inv = self._bordered(fold, prefixes, group.ravel(), idx[:, -1], alpha)
+                if inv is not None:
+                    self.n_updated += B
+                    return idx, inv
+        try:
+            return idx, np.linalg.inv(self._unit(fold, idx, alpha))
+        except np.linalg.LinAlgError:
+            return idx, None
+
+    def _bordered(self, fold, bases, group, extra, alpha):
+        """Inverses of ``[bases[group], extra]`` (base columns first) by bordering."""
+        try:
+            Binv = np.linalg.inv(self._unit(fold, bases, alpha))[group]   # (B, m, m)
+        except np.linalg.LinAlgError:
+            return None
+        cols = bases[group]                                                 # (B, m)
+        d = np.where(fold.d > 0, fold.d, 1.0)
+        b = fold.G[cols, extra[:, None]] / (d[cols] * d[extra][:, None])    # (B, m)
+        c = (fold.G[extra, extra] + alpha) / d[extra] ** 2
+        u = np.einsum("bij,bj->bi", Binv, b)
+        s = c - np.einsum("bi,bi->b", b, u)
+        s = np.where(s > 0, s, np.nan)        # not positive definite: NaN, then declined
+        B, m = u.shape
+        inv = np.empty((B, m + 1, m + 1))
+        inv[:, :m, :m] = Binv + u[:, :, None] * u[:, None, :] / s[:, None, None]
+        inv[:, :m, m] = inv[:, m, :m] = -u / s[:, None]
+        inv[:, m, m] = 1.0 / s
+        return inv
+
+    def _downdated(self, fold, union, idx, alpha):
+        """Inverses of ``union`` minus one column each (rows of ``idx``), by downdating."""
+        try:
+            Pinv = np.linalg.inv(self._unit(fold, union[None, :], alpha))[0]
+        except np.linalg.LinAlgError:
+            return None
+        q = len(union)
+        tr = np.trace(Pinv)
+        if not (np.isfinite(tr) and tr > 0 and q * tr <= _MAX_COND_DOWNDATE):
+            return None  # cancellation would cost digits: invert each subset instead
+        pos = np.searchsorted(union, idx)                                   # (B, k)
+        drop = np.ones((len(idx), q), dtype=bool)
+        np.put_along_axis(drop, pos, False, axis=1)
+        j = np.argmax(drop, axis=1)                                         # dropped column
+        e = Pinv[j][np.arange(len(idx))[:, None], pos]                      # (B, k): P^-1[j, kept]
+        sub = Pinv[pos[:, :, None], pos[:, None, :]]
+        return sub - e[:, :, None] * e[:, None, :] / Pinv[j, j][:, None, None]
+
+    def _solve(self, fold: _Fold, idx: np.ndarray, rhs_of, alpha: float,
+               max_cond: np.ndarray | float = MAX_COND, floor: float = 0.0):
+        """Solve the unit-diagonal systems of a block of subsets; ok mask for acceptance.
+
+        ``rhs_of(idx)`` gives the right-hand sides, shape (B, k, m), for an ``idx``
+        (the columns may come back reordered within a row, see :meth:`_inverses`). A row
+        is accepted when its unit-diagonal matrix has smallest eigenvalue ``lo >=
+        floor`` (and > 0) and largest ``hi <= max_cond * lo``. These are decided from
+        the inverse when it proves them (``1/trace(M^-1) <= lo`` and ``hi <= k``);
+        otherwise from an eigen-decomposition of that row's matrix, which also solves
+        it. Returns ``(solutions, ok, idx)``.
+        """
+        B, k = idx.shape
+        max_cond = np.broadcast_to(np.asarray(max_cond, dtype=float), (B,))
+        ok = (fold.d[idx] > 0).all(axis=1)
+        idx, inv = self._inverses(fold, idx, alpha)
+        d = np.where(fold.d[idx] > 0, fold.d[idx], 1.0)
+        rhs = rhs_of(idx) / d[:, :, None]
+        if inv is None:
+            sure = np.zeros(B, dtype=bool)
+            x = np.zeros_like(rhs)
+        else:
+            with np.errstate(all="ignore"):
+                tr = np.einsum("bii->b", inv)
+                sure = (np.isfinite(tr) & (tr > 0) & (k * tr <= max_cond)
+                        & (np.einsum("bii->bi", inv) > 0).all(axis=1) & (tr * floor <= 1.0))
+                x = (inv @ rhs) / d[:, :, None]
+        doubt = np.flatnonzero(ok & ~sure)
+        if doubt.size:
+            sel = idx[doubt]
+            lam, Q = np.linalg.eigh(self._unit(fold, sel, alpha))
+            lo, hi = lam[:, 0], lam[:, -1]
+            ok[doubt] = ((lo > 0) & (hi <= max_cond[doubt] * np.where(lo > 0, lo, np.inf))
+                         & (lo >= floor))
+            lam = np.where(lam > 0, lam, 1.0)
+            y = np.einsum("bji,bjm->bim", Q, rhs[doubt])
+            x[doubt] = np.einsum("bij,bjm->bim", Q, y / lam[:, :, None]) / d[doubt][:, :, None]
+        return x, ok, idx
 
     def _score_block(self, fold: _Fold, idx: np.ndarray) -> list[float | None]:
         if self.kind == "lda":
             return self._lda_block(fold, idx)
-        x, ok, lam, d = self._solve(fold, idx, fold.r[idx][:, :, None], self.alpha)
         # Columns on very different scales: scikit-learn's solvers work on the unscaled
-        # system, whose accuracy (and lstsq's cut-off) then differs from ours.
-        spread = d.max(axis=1) / d.min(axis=1)
-        ok &= np.sqrt(lam[:, -1] / lam[:, 0]) * spread <= MAX_COND
+        # system, whose accuracy (and lstsq's cut-off) then differs from ours; the
+        # condition number allowed shrinks with the spread (sqrt(cond) * spread <= MAX_COND).
+        d = fold.d[idx]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            spread = d.max(axis=1) / d.min(axis=1)
+        limit = np.minimum(MAX_COND, (MAX_COND / spread) ** 2)
+        x, ok, idx = self._solve(fold, idx, lambda c: fold.r[c][:, :, None], self.alpha,
+                                 max_cond=limit)
         w = x[:, :, 0]
-        Zs = self._test_columns(fold, idx)                      # (n_test, B, k)
-        pred = np.einsum("nbk,bk->bn", Zs, w) + fold.offset
+        pred = self._predict(fold, idx, w[:, None, :])[:, :, 0] + fold.offset
         y = fold.yte
         name = self.score_name
         if name in _DIRECT and len(y) > 1:
@@ -416,12 +583,12 @@ class LinearPath:
     def _lda_block(self, fold: _Fold, idx: np.ndarray) -> list[float | None]:
         B, k = idx.shape
         K = len(fold.classes)
-        A = fold.A[:, idx].transpose(1, 2, 0)                    # (B, k, K)
-        # C' = Sigma^-1 A' with Sigma = Sw / n
-        Ct, ok, lam, _ = self._solve(fold, idx, A, 0.0)
-        Ct = Ct * fold.n
+        # C' = Sigma^-1 A' with Sigma = Sw / n (A: class means - mean, (B, k, K))
         floor = max(10.0 * self.tol, 1e-3) ** 2
-        ok &= lam[:, 0] >= floor
+        Ct, ok, idx = self._solve(fold, idx, lambda c: fold.A[:, c].transpose(1, 2, 0), 0.0,
+                                  floor=floor)
+        A = fold.A[:, idx].transpose(1, 2, 0)
+        Ct = Ct * fold.n
         H = np.einsum("bkc,bke->bce", A, Ct)                    # A Sigma^-1 A' (B, K, K)
         dw = fold.dw
         Gm = H * dw[None, :, None] * dw[None, None, :]
@@ -456,11 +623,10 @@ class LinearPath:
         if K == 2:
             coef = coef[:, 1:, :] - coef[:, :1, :]
             intercept = intercept[:, 1:] - intercept[:, :1]
-        Zs = self._test_columns(fold, idx)                      # (n_test, B, k)
-        dec = np.einsum("nbk,bck->bnc", Zs, coef) + intercept[:, None, :]
+        dec = self._predict(fold, idx, coef) + intercept[:, None, :]
         name = self.score_name
         if name in _LABEL_SCORES or name in _RANK_SCORES:
-            size = (np.einsum("nbk,bck->bnc", np.abs(Zs), np.abs(coef))
+            size = (self._predict(fold, idx, np.abs(coef), absolute=True)
                     + np.abs(intercept)[:, None, :])
             ok &= ~self._near_ties(dec, size)
         if name == "accuracy" and len(fold.yte) > 1:

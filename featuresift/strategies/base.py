@@ -76,7 +76,6 @@ import time
 from abc import ABC, abstractmethod
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
-from functools import cached_property
 from typing import Any, ClassVar
 
 import numpy as np
@@ -84,7 +83,7 @@ import numpy as np
 from featuresift._compat import renamed_keywords, warn_renamed
 from featuresift.costs import AllowedSubsets, CostModel
 from featuresift.engine.evaluator import BaseEvaluator, normalise_subset
-from featuresift.engine.records import COMPLETE, Evaluation
+from featuresift.engine.records import COMPLETE, Evaluation, computed_once
 from featuresift.errors import InputError
 from featuresift.objectives import BaseObjective, ScoreObjective
 
@@ -152,7 +151,7 @@ class Scored:
         """Sorted column indices."""
         return self.evaluation.subset
 
-    @cached_property
+    @computed_once
     def mean(self) -> float:
         """Mean CV score."""
         return self.evaluation.mean
@@ -163,7 +162,7 @@ class Scored:
         failed fold without an ``error_score`` leaves the subset without a score)."""
         return self.evaluation.status == COMPLETE
 
-    @cached_property
+    @computed_once
     def rank_key(self) -> tuple:
         """Sort key, larger is better (see :meth:`SearchSpace.rank_key`); computed once."""
         value = self.value if not math.isnan(self.value) else -math.inf
