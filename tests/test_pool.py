@@ -7,6 +7,8 @@ same function fits the same items; nothing else may differ).
 
 from __future__ import annotations
 
+import time
+
 import numpy as np
 import pytest
 from sklearn.datasets import load_breast_cancer
@@ -69,6 +71,30 @@ def test_decision_from_measured_fit_times(monkeypatch):
     policy.observe_pool(100, 0.2)              # the pool: 2 ms per fit, slower than here
     tries = [policy.use_pool(1000, 2) for _ in range(16)]
     assert sum(tries) == 2                     # retried one time in eight
+
+
+def test_workers_start_only_for_a_batch_worth_their_start_up(monkeypatch):
+    # Fake start-up: records the call and marks the pool as running, no processes.
+    started = []
+
+    def fake_start(n_workers, warm_with):
+        started.append(n_workers)
+        pool_module._WARM[n_workers].set()
+
+    monkeypatch.setattr(pool_module, "_WARM", {})
+    monkeypatch.setattr(pool_module, "_start_pool", fake_start)
+    monkeypatch.setattr(pool_module, "_default_backend", lambda: True)
+    policy = pool_module.PoolPolicy()
+    policy.observe(10, 0.1)                    # 10 ms per fit in-process
+    assert not policy.use_pool(150, 2)         # 1.5 s left: below MIN_START_SECONDS
+    assert started == []
+    policy.use_pool(300, 2)                    # 3 s left: the workers are started
+    for _ in range(100):
+        if pool_module._WARM[2].is_set():
+            break
+        time.sleep(0.01)
+    assert started == [2]
+    assert policy.use_pool(150, 2)             # running: 1.5 s is worth a parallel call
 
 
 def test_unknown_pool_mode_is_refused():
