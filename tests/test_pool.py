@@ -84,10 +84,14 @@ def test_workers_start_only_for_a_batch_worth_their_start_up(monkeypatch):
     monkeypatch.setattr(pool_module, "_WARM", {})
     monkeypatch.setattr(pool_module, "_start_pool", fake_start)
     monkeypatch.setattr(pool_module, "_default_backend", lambda: True)
+    idle = [False]
+    monkeypatch.setattr(pool_module, "_idle_core", lambda: idle[0])
     policy = pool_module.PoolPolicy()
-    policy.observe(10, 0.1)                    # 10 ms per fit in-process
-    assert not policy.use_pool(150, 2)         # 1.5 s left: below MIN_START_SECONDS
+    policy.observe(10, 0.4, 0.1)               # 10 ms CPU per fit (40 ms wall: a busy machine)
+    assert not policy.use_pool(150, 2)         # 1.5 s CPU left: below MIN_START_SECONDS
+    assert not policy.use_pool(300, 2)         # 3 s, but no idle core
     assert started == []
+    idle[0] = True
     policy.use_pool(300, 2)                    # 3 s left: the workers are started
     for _ in range(100):
         if pool_module._WARM[2].is_set():

@@ -807,9 +807,10 @@ class CrossValidationEvaluator(BaseEvaluator):
                             bar.update(len(part))
                     self.pool.observe_pool(len(results) - n0, time.perf_counter() - t0)
                     break
-                t0 = time.perf_counter()
+                t0, c0 = time.perf_counter(), time.process_time()
                 part = fit(*args(chunk))
-                self.pool.observe(len(part), time.perf_counter() - t0)
+                self.pool.observe(len(part), time.perf_counter() - t0,
+                                  time.process_time() - c0)
                 results.extend(part)
                 bar.update(len(part))
         except FitFailedError as exc:

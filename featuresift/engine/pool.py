@@ -16,7 +16,9 @@ fit in this process (one BLAS thread, no joblib call) or in the pool:
   busy with other jobs it may not be; the pool is tried again now and then);
 * with joblib's default process backend (loky), a pool that is not running yet is
   started **in the background** the first time a batch is worth its start-up (at least
-  :data:`MIN_START_SECONDS` of estimated work left in the batch), while this process
+  :data:`MIN_START_SECONDS` of estimated CPU time of fits left in the batch) and the
+  machine has an idle core for it (1-minute load average below the CPU count minus
+  one half: on a busy machine workers only take CPU from the fits), while this process
   goes on fitting: the workers' start-up then overlaps with useful work instead of
   adding to it, and a batch switches to the pool as soon as it is up. The pool is
   joblib's reusable executor: it lives on for the next batches, searches and
@@ -42,10 +44,11 @@ True
 
 from __future__ import annotations
 
+import os
 import threading
 from typing import Any
 
-from joblib import effective_n_jobs
+from joblib import cpu_count, effective_n_jobs
 
 __all__ = ["MIN_POOL_SECONDS", "MIN_START_SECONDS", "POOL_MODES", "PoolPolicy"]
 
@@ -60,7 +63,18 @@ processes for. Starting two workers costs each of them a second or two of CPU (P
 NumPy, SciPy, scikit-learn imports): on a machine whose cores are busy that CPU is taken
 from the fits, and a search of small batches (breast-cancer forward selection: under a
 second of fitting per batch) was measured slower with ``n_jobs=2`` than with ``n_jobs=1``
-(55 s against 43 s wall at load average 6)."""
+(55 s against 43 s wall at load average 6). Measured in CPU time: wall time per fit
+grows with the machine's load, CPU time hardly."""
+
+
+def _idle_core() -> bool:
+    """Whether the machine seems to have a core free for a worker (load average below
+    the CPU count minus one half; True where the load average is not available)."""
+    try:
+        load = os.getloadavg()[0]
+    except (AttributeError, OSError):
+        return True
+    return load < cpu_count() - 0.5
 
 _LOCK = threading.Lock()
 _WARM: dict[int, threading.Event] = {}
@@ -108,8 +122,8 @@ class PoolPolicy:
 
     Attributes
     ----------
-    fit_seconds : float or None
-        Running estimate of the time of one fit in this process.
+    fit_seconds, fit_cpu : float or None
+        Running estimates of the wall and CPU time of one fit in this process.
     pool_seconds : float or None
         Running estimate of the pool's wall time per fit.
     n_in_process, n_in_pool : int
@@ -122,17 +136,21 @@ class PoolPolicy:
         self.mode = mode
         self.warm_with = warm_with
         self.fit_seconds: float | None = None
+        self.fit_cpu: float | None = None
         self.pool_seconds: float | None = None
         self._declined = 0
         self.n_in_process = 0
         self.n_in_pool = 0
 
-    def observe(self, n_items: int, seconds: float) -> None:
-        """Record ``n_items`` fits that took ``seconds`` in this process."""
+    def observe(self, n_items: int, seconds: float, cpu_seconds: float | None = None) -> None:
+        """Record ``n_items`` fits that took ``seconds`` (wall) and ``cpu_seconds`` (CPU
+        time; the wall time when not given) in this process."""
         if n_items <= 0:
             return
         per = seconds / n_items
         self.fit_seconds = per if self.fit_seconds is None else 0.5 * (self.fit_seconds + per)
+        cpu = per if cpu_seconds is None else cpu_seconds / n_items
+        self.fit_cpu = cpu if self.fit_cpu is None else 0.5 * (self.fit_cpu + cpu)
         self.n_in_process += n_items
 
     def observe_pool(self, n_items: int, seconds: float) -> None:
@@ -164,8 +182,8 @@ class PoolPolicy:
         with _LOCK:
             event = _WARM.get(workers)
             if event is None:
-                if n_items * self.fit_seconds < MIN_START_SECONDS:
-                    return False  # not worth the workers' start-up
+                if n_items * self.fit_cpu < MIN_START_SECONDS or not _idle_core():
+                    return False  # not worth the workers' start-up, or no core for them
                 event = _WARM[workers] = threading.Event()
                 threading.Thread(target=_start_pool, args=(workers, self.warm_with),
                                  name="featuresift-pool-start", daemon=True).start()
