@@ -161,7 +161,7 @@ def result_repr(res: Any) -> str:
     >>> X, y = load_iris(return_X_y=True)
     >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), n_features=1)
     >>> print(result_repr(res))
-    SearchResult(selected=['x3'], cost=1 / unlimited features, score=0.9600 in-search, strategy='greedy-swap', 6 subsets)
+    SearchResult(selected=['x3'], cost=1 / unlimited features, score=0.9533 in-search, strategy='greedy-swap', 6 subsets)
     """  # noqa: E501
     strategy = res.strategy.get("name") if isinstance(res.strategy, Mapping) else res.strategy
     return (

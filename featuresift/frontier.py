@@ -286,7 +286,7 @@ class Frontier:
     >>> problem = SelectionProblem(X[:, :4], y, GaussianNB(), costs=costs, cv=3)
     >>> fr = budget_sweep(problem, [1, 2], "forward", pick="best")
     >>> fr.budgets, [r.selected for r in fr.results], fr.cost_unit
-    ([1, 2], [['alcohol'], ['alcohol', 'alkalinity']], 'EUR')
+    ([1, 2], [['alcohol'], ['alcohol', 'malic']], 'EUR')
     >>> fr.n_fits, fr.n_fits_without_cache  # the second search reuses the first one's fits
     (27, 45)
     >>> fr.to_frame()["cost"].tolist(), fr.headline_index, fr.best_index

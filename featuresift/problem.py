@@ -27,6 +27,7 @@ from sklearn.model_selection import (
     StratifiedKFold,
     check_cv,
 )
+from sklearn.utils.multiclass import type_of_target
 
 from featuresift._compat import renamed_keywords
 from featuresift.columns import ColumnSpec, TypedColumns, encode_frame, needs_frame
@@ -84,7 +85,7 @@ def make_splitter(
     :class:`StratifiedKFold` / :class:`KFold`, repeated when ``repeats > 1``.
     ``seed`` shuffles the assignment when ``shuffle`` is true. This is what the YAML
     ``cv`` section builds, and what :class:`SelectionProblem` builds for an integer
-    ``cv`` given with ``groups``.
+    ``cv`` (with or without ``groups``; seed 0).
 
     Parameters
     ----------
@@ -184,11 +185,12 @@ class SelectionProblem:
         :func:`~featuresift.costs.make_cost_model` takes). Default: every feature costs 1
         (unit "features"). Kept as the attribute ``cost_model`` (a CostModel).
     cv : int, CV splitter or iterable of (train, test), default=5
-        Cross-validation. An integer with ``groups`` gives grouped folds, stratified for
-        classifiers (:func:`make_splitter`: ``StratifiedGroupKFold`` or ``GroupKFold``,
-        shuffled with seed 0, as the YAML ``cv`` section); an integer without groups is
-        resolved with :func:`sklearn.model_selection.check_cv` (stratified for
-        classifiers). The splits are computed once.
+        Cross-validation. An integer K gives the folds the YAML ``cv`` section gives for
+        ``folds: K`` (:func:`make_splitter`, shuffled with seed 0): ``StratifiedKFold`` for
+        classifiers and ``KFold`` otherwise, or with ``groups`` ``StratifiedGroupKFold`` /
+        ``GroupKFold``. So Python and the command line split the same data alike. For
+        another shuffle pass ``make_splitter(K, classification=..., seed=s)``; for
+        unshuffled folds ``StratifiedKFold(K)``. The splits are computed once.
     scoring : str or callable, optional
         A scikit-learn scorer name, or a callable ``scorer(estimator, X, y)``.
         Default: the estimator's ``score`` method.
@@ -276,13 +278,18 @@ class SelectionProblem:
             raise InputError(
                 f"{type(cv).__name__} needs group labels: pass groups=...", key="groups"
             )
-        if self.groups is not None and isinstance(cv, (int, np.integer)) \
-                and not isinstance(cv, bool):
-            n_groups = np.unique(self.groups).size
-            if n_groups < cv:
-                raise InputError(f"groups has {n_groups} distinct values, fewer than "
-                                 f"cv = {cv} folds", key="groups")
-            splitter = make_splitter(int(cv), classification=self.classification, grouped=True)
+        if isinstance(cv, (int, np.integer)) and not isinstance(cv, bool):
+            # One rule with the YAML `cv` section (cv.shuffle: true, cv.seed: 0): the same
+            # data give the same folds, hence the same answer, in Python and on the CLI.
+            if self.groups is not None and np.unique(self.groups).size < cv:
+                raise InputError(f"groups has {np.unique(self.groups).size} distinct values, "
+                                 f"fewer than cv = {cv} folds", key="groups")
+            # Stratified for class labels, as scikit-learn's check_cv (a target of another
+            # type is reported by the estimator itself, not by the splitter).
+            splitter = make_splitter(
+                int(cv), classification=self.classification, grouped=self.groups is not None,
+                stratified=self.classification
+                and type_of_target(y_arr) in ("binary", "multiclass"))
         else:
             splitter = check_cv(cv, y_arr, classifier=self.classification)
         self.cv = splitter

@@ -75,7 +75,7 @@ class PathRow:
     >>> X, y = load_iris(return_X_y=True)
     >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), "forward", n_features=2)
     >>> [(row.action, row.feature, row.features) for row in res.path]
-    [('add', 'x3', ('x3',)), ('add', 'x2', ('x2', 'x3'))]
+    [('add', 'x3', ('x3',)), ('add', 'x0', ('x0', 'x3'))]
     """
 
     step: int
@@ -238,7 +238,7 @@ class SearchResult:
     >>> res.selected, res.cost, res.success
     (['pw'], 2.0, True)
     >>> round(res.score_mean, 3), len(res.fold_scores)
-    (0.96, 3)
+    (0.953, 3)
     """
 
     selected: list[str]
@@ -443,9 +443,9 @@ class SearchResult:
         >>> X, y = load_iris(return_X_y=True)
         >>> res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), n_features=1)
         >>> res.evaluations_frame()[["features", "n", "cost"]].head(2)
-          features  n  cost
-        0    (x3,)  1   1.0
-        1    (x2,)  1   1.0
+                   features  n  cost
+        0  (x0, x1, x2, x3)  4   4.0
+        1             (x3,)  1   1.0
         """
         import pandas as pd
 

@@ -313,7 +313,7 @@ warm_start : optional
     >>> p = SelectionProblem(X, y, DecisionTreeClassifier(random_state=0), cv=3)
     >>> res = run_search(p, "forward", n_features=2)
     >>> res.selected, res.pick["best"]["features"]   # one-se: cheapest as good as the best
-    (['x3'], ['x0', 'x1', 'x2', 'x3'])
+    (['x3'], ['x2', 'x3'])
     >>> sorted(res.references), res.guard["stage"]
     (['everything', 'free only', 'nothing'], 'in-search screen')
     """

@@ -97,7 +97,9 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
     objective : str, dict or BaseObjective, optional
         How subsets are valued (default "score": mean CV score within the budget).
     cv : int, splitter or iterable, default=5
-        Cross-validation for every subset (stratified for classifiers).
+        Cross-validation for every subset. An integer K splits as the YAML ``cv:
+        {folds: K}`` does: shuffled with seed 0, stratified for classifiers (see
+        :class:`~featuresift.SelectionProblem`).
     scoring : str or callable, optional
         scikit-learn scorer; default the estimator's ``score``.
     max_features : int, optional

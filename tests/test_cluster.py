@@ -26,7 +26,6 @@ from featuresift import SelectionProblem, run_search, use_cluster
 from featuresift.cli import main
 from featuresift.demo import write_demo
 from featuresift.engine import cluster as cluster_module
-from featuresift.engine import pool as pool_module
 from featuresift.engine.evaluator import CrossValidationEvaluator
 from featuresift.errors import InputError
 
@@ -112,28 +111,28 @@ def _cli_result(config: str, tmp_path, name: str, capsys) -> dict:
     return json.loads(next(out.glob("*-run/result.json")).read_text(encoding="utf-8"))
 
 
-def test_yaml_engine_cluster_local_and_address_match_a_local_run(client, tmp_path, capsys,
-                                                                  monkeypatch):
+def test_yaml_engine_cluster_local_and_address_match_a_local_run(client, tmp_path, capsys):
     import dask
-
-    # Every batch goes to the cluster after its first in-process part, however quick the
-    # fits of this small case are (else the pool policy may keep them all here).
-    monkeypatch.setattr(pool_module, "MIN_POOL_SECONDS", 0.0)
 
     plain = _cli_result(_demo_config(tmp_path / "plain", None), tmp_path, "plain", capsys)
     address = client.scheduler.address  # the shared cluster, reached by its address
-    by_address = _cli_result(_demo_config(tmp_path / "addr", {"cluster": address}),
+    # pool: always -- every batch goes to the cluster, however quick the fits of this
+    # small case are (the default policy may keep them all in this process).
+    by_address = _cli_result(_demo_config(tmp_path / "addr", {"cluster": address,
+                                                               "pool": "always"}),
                              tmp_path, "addr", capsys)
     with dask.config.set({"distributed.worker.multiprocessing-method": "fork"}):
         local = _cli_result(_demo_config(tmp_path / "local", {"cluster": "local",
-                                                                 "workers": 2}),
+                                                                 "workers": 2,
+                                                                 "pool": "always"}),
                             tmp_path, "local", capsys)
     for res in (by_address, local):
         assert res["selected"] == plain["selected"]
         assert res["score"]["folds"] == plain["score"]["folds"]
         assert [e["score_mean"] for e in res["evaluations"]] == \
             [e["score_mean"] for e in plain["evaluations"]]
-        assert res["extras"]["engine"]["pool"]["fits_in_pool"] > 0  # the cluster fitted
+        pool = res["extras"]["engine"]["pool"]
+        assert pool["fits_in_process"] == 0 and pool["fits_in_pool"] > 0  # all on the cluster
     assert by_address["extras"]["cluster"] == {"address": address, "workers": None}
     assert local["extras"]["cluster"] == {"address": "local", "workers": 2}
 

@@ -16,6 +16,7 @@ from sklearn.model_selection import (
     GridSearchCV,
     GroupKFold,
     StratifiedGroupKFold,
+    StratifiedKFold,
     cross_validate,
 )
 from sklearn.naive_bayes import GaussianNB
@@ -97,7 +98,10 @@ def test_selector_routes_groups_in_cross_validate_and_grid_search(grouped):
             cross_validate(plain, X, y, cv=GroupKFold(3), params={"groups": g})
 
 
-def test_python_and_cli_give_identical_answers_for_a_grouped_config(tmp_path, grouped):
+@pytest.mark.parametrize("with_groups", [True, False], ids=["grouped", "ungrouped"])
+def test_python_and_cli_give_identical_answers_for_a_config(tmp_path, grouped, with_groups):
+    # Ungrouped too: an integer cv is the YAML cv section's rule (shuffled, seed 0) in
+    # Python, not scikit-learn's unshuffled default.
     X, y, g = grouped
     X = X.copy()
     X[::7, 2] = np.nan  # the imputer has work to do
@@ -108,12 +112,13 @@ def test_python_and_cli_give_identical_answers_for_a_grouped_config(tmp_path, gr
     frame.to_csv(tmp_path / "lots.csv", index=False)
     prices = {"m0": 0.0, "m1": 1.0, "m2": 2.0, "m3": 2.0, "m4": 3.0, "m5": 5.0}
     config = {
-        "data": {"path": "lots.csv", "target": "grade"},
+        "data": {"path": "lots.csv", "target": "grade",
+                 **({} if with_groups else {"exclude": ["farm"]})},
         "costs": {"unit": "EUR", "features": prices},
         "budget": 6.0,
         "model": {"estimator": "sklearn.linear_model.LogisticRegression",
                   "params": {"max_iter": 500}, "preprocessing": ["impute_median", "scale"]},
-        "cv": {"folds": 4, "group_column": "farm"},
+        "cv": {"folds": 4, **({"group_column": "farm"} if with_groups else {})},
         "scoring": "roc_auc",
         "strategy": {"name": "forward"},
         "output": {"folder": "out"},
@@ -131,7 +136,11 @@ def test_python_and_cli_give_identical_answers_for_a_grouped_config(tmp_path, gr
                       ("model", LogisticRegression(max_iter=500))])
     problem = SelectionProblem(frame[names], frame["grade"], model,
                                costs=CostModel(names, prices, unit="EUR"), cv=4,
-                               scoring="roc_auc", groups=frame["farm"])
+                               scoring="roc_auc",
+                               groups=frame["farm"] if with_groups else None)
+    if not with_groups:  # Reference: scikit-learn's StratifiedKFold, shuffled with seed 0.
+        ref = StratifiedKFold(4, shuffle=True, random_state=0).split(X, y)
+        assert all(np.array_equal(a[1], b[1]) for a, b in zip(problem.splits, ref))
     py = run_search(problem, "forward", budget=6.0)
     assert cli["selected"] == py.selected
     assert cli["score"]["folds"] == py.fold_scores

@@ -41,12 +41,14 @@ def test_nested_outer_score_is_refit_on_outer_train_only():
     y = (X[:, 0] + 0.5 * X[:, 3] + rng.normal(scale=0.5, size=90) > 0).astype(int)
     outer = StratifiedKFold(3)
     ne = nested_evaluation(
-        X, y, GaussianNB(), outer_cv=outer, inner_cv=3, scoring="accuracy", n_features=2,
+        X, y, GaussianNB(), outer_cv=outer, inner_cv=StratifiedKFold(3), scoring="accuracy",
+        n_features=2,
         pick="best", references=False,
     )
     # Recompute fold 0 by hand with scikit-learn alone.
     train, test = next(outer.split(X, y))
-    inner = SelectionProblem(X[train], y[train], GaussianNB(), cv=3, scoring="accuracy")
+    inner = SelectionProblem(X[train], y[train], GaussianNB(), cv=StratifiedKFold(3),
+                             scoring="accuracy")
     res = run_search(inner, "forward", n_features=2, pick="best", guard="off",
                      references=False)
     model = clone(GaussianNB()).fit(X[train][:, res.support], y[train])

@@ -3,6 +3,7 @@
 import numpy as np
 import pytest
 from sklearn.datasets import load_breast_cancer
+from sklearn.model_selection import StratifiedKFold
 from sklearn.naive_bayes import GaussianNB
 
 import featuresift.filters  # noqa: F401 - registers redundancy_penalized
@@ -14,7 +15,7 @@ def test_redundancy_objective_binds_and_avoids_a_duplicate():
     # scikit-learn's breast-cancer data with column 0 duplicated as a new last column.
     X, y = load_breast_cancer(return_X_y=True)
     X = np.column_stack([X[:, :8], X[:, 0]])
-    problem = SelectionProblem(X, y, GaussianNB(), cv=3, scoring="accuracy")
+    problem = SelectionProblem(X, y, GaussianNB(), cv=StratifiedKFold(3), scoring="accuracy")
     plain = run_search(problem, "forward", **RAW, n_features=3,
                        objective={"name": "redundancy_penalized", "weight": 0.0})
     assert {0, 8} <= set(plain.support)  # without the penalty both copies are bought

@@ -45,13 +45,13 @@ Relative paths are relative to the folder of the YAML file.
                                 #   module trusted with --trust-module NAME
       params: {max_iter: 2000}      # constructor arguments
       preprocessing: [impute_median, scale]  # steps fitted inside every CV fold
-        cv:
+    cv:
       folds: 5
       repeats: 1                    # > 1: repeated (stratified) k-fold
       stratified: null              # null = stratified for classifiers
       group_column: null            # keep each group's rows in one fold
       shuffle: true
-      seed: 0
+      seed: 0                       # Python: SelectionProblem(cv=K) splits the same way
     scoring: null                   # a name from sklearn.metrics.get_scorer_names();
                                     #   null = the estimator's own score method
     objective: {name: score}        # or {name: penalized, lambda: 0.002}

@@ -69,6 +69,11 @@ def describe_plan(cfg: RunConfig, problem: SelectionProblem | None = None) -> st
                  f"{_plain(cfg.objective)}; pick {cfg.pick}")
     lines.append(f"Search: {cfg.strategy['name']} {_plain(cfg.strategy['options'])}, "
                  f"seed {cfg.seed}, n_jobs {cfg.n_jobs}")
+    cluster = (cfg.extra.get("engine") or {}).get("cluster")
+    if cluster is not None:
+        workers = cfg.extra["engine"].get("workers")
+        lines.append("Fits:   on a dask cluster, " + (
+            f"{workers} local worker processes" if cluster == "local" else cluster))
     lim = cfg.limits
     lines.append(f"Limits: max_features {lim.max_features}, max_evaluations "
                  f"{lim.max_evaluations}, max_time_s {lim.max_time_s}")

@@ -91,7 +91,7 @@ Examples
 >>> path.kind
 'lda'
 >>> fast = [path.score([((0, 2), f)])[0] for f in range(5)]
->>> slow = cross_val_score(LinearDiscriminantAnalysis(), X[:, [0, 2]], y, cv=5)
+>>> slow = cross_val_score(LinearDiscriminantAnalysis(), X[:, [0, 2]], y, cv=p.cv)
 >>> bool(np.allclose(fast, slow, rtol=0, atol=1e-12))
 True
 """
