@@ -134,6 +134,9 @@ def test_yaml_engine_cluster_local_and_address_match_a_local_run(client, tmp_pat
         pool = res["extras"]["engine"]["pool"]
         assert pool["fits_in_process"] == 0 and pool["fits_in_pool"] > 0  # all on the cluster
     assert by_address["extras"]["cluster"] == {"address": address, "workers": None}
+    assert main(["run", _demo_config(tmp_path / "dry", {"cluster": address}), "--dry-run"]) == 0
+    plan = capsys.readouterr().out
+    assert "n_jobs every worker thread" in plan and f"on a dask cluster, {address}" in plan
     assert local["extras"]["cluster"] == {"address": "local", "workers": 2}
 
 

@@ -67,9 +67,12 @@ def describe_plan(cfg: RunConfig, problem: SelectionProblem | None = None) -> st
     scorer = "the objective's own scorer" if own else (cfg.scoring or "estimator score method")
     lines.append(f"Score:  {scorer}; objective "
                  f"{_plain(cfg.objective)}; pick {cfg.pick}")
-    lines.append(f"Search: {cfg.strategy['name']} {_plain(cfg.strategy['options'])}, "
-                 f"seed {cfg.seed}, n_jobs {cfg.n_jobs}")
     cluster = (cfg.extra.get("engine") or {}).get("cluster")
+    jobs = cfg.n_jobs
+    if cluster is not None and "n_jobs" not in cfg.lines and "n_jobs" not in cfg.overridden:
+        jobs = "every worker thread"  # as engine's apply hook sets it
+    lines.append(f"Search: {cfg.strategy['name']} {_plain(cfg.strategy['options'])}, "
+                 f"seed {cfg.seed}, n_jobs {jobs}")
     if cluster is not None:
         workers = cfg.extra["engine"].get("workers")
         lines.append("Fits:   on a dask cluster, " + (
