@@ -134,9 +134,11 @@ def main(argv=None) -> int:
     ap.add_argument("--cols", type=int, default=1_000)
     ap.add_argument("--repeats", type=int, default=3)
     ap.add_argument("--keep", metavar="DIR", help="write the data here and keep it")
+    ap.add_argument("--source", metavar="DIR",
+                    help="measure the featuresift checkout in DIR (e.g. an older commit)")
     args = ap.parse_args(argv)
     env = dict(os.environ)
-    here = Path(__file__).resolve().parent.parent
+    here = Path(args.source).resolve() if args.source else Path(__file__).resolve().parent.parent
     env["PYTHONPATH"] = str(here) + (os.pathsep + env["PYTHONPATH"]
                                      if env.get("PYTHONPATH") else "")
     fs = [sys.executable, "-m", "featuresift"]

@@ -72,8 +72,8 @@ def _read_frame(spec: DataSpec, ctx: _Context) -> tuple[pd.DataFrame, CsvFormat 
 LEAN_MIN_BYTES = 16 << 20
 """CSV files at least this big are read in chunks by :func:`read_csv_lean`."""
 
-_CHUNK_VALUES = 1 << 21
-"""Values parsed per chunk by :func:`read_csv_lean` (about 16 MB of float64)."""
+_CHUNK_VALUES = 1 << 19
+"""Values parsed per chunk by :func:`read_csv_lean` (about 4 MB of float64)."""
 
 
 def _block_filter(spec: DataSpec):

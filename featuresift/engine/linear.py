@@ -99,6 +99,7 @@ True
 from __future__ import annotations
 
 from dataclasses import dataclass
+from itertools import chain
 from typing import Any
 
 import numpy as np
@@ -140,11 +141,11 @@ _DENSE_COLUMNS = 64
 """Up to this many columns, a block's predictions are one product with the whole test
 matrix (kept per fold) instead of a gather of each subset's columns."""
 
-_MAX_BLOCK = 2_000_000
-
-_ROW_VALUES = 1 << 21
-"""Values per block of training rows summed into a fold's statistics (16 MB)."""
+_MAX_BLOCK = 500_000
 """Largest number of floats in one batched prediction array (test rows x subsets x size)."""
+
+_ROW_VALUES = 1 << 19
+"""Values per block of training rows summed into a fold's statistics (4 MB)."""
 
 
 @dataclass
@@ -290,13 +291,12 @@ class LinearPath:
         # rows, which over the folds would add up to a copy of X, or more.
         step = max(64, _ROW_VALUES // max(1, p.n_features))
 
-        def blocks():
-            for a in range(0, len(train), step):
-                rows = train[a:a + step] if Ztr is None else slice(a, a + step)
-                yield slice(a, a + step), (p.X[rows] if Ztr is None else Ztr[rows])
+        def blocks(index=train, Z=Ztr):
+            for a in range(0, len(index), step):
+                rows = index[a:a + step] if Z is None else slice(a, a + step)
+                yield slice(a, a + step), (p.X[rows] if Z is None else Z[rows])
 
-        if not all(np.isfinite(Z).all() for _, Z in blocks()) or not np.isfinite(
-                p.X[test] if Zte is None else Zte).all():
+        if not all(np.isfinite(Z).all() for _, Z in chain(blocks(), blocks(test, Zte))):
             return bad
         rows_te = test if Zte is None else None
         if self.kind == "lda":
