@@ -640,11 +640,14 @@ class SearchResult:
         lines.append("")
         lines.append("Path:")
         show_failed = any(r.n_failed_folds for r in self.path)
-        lines.append(f"  {'step':>4}  {'action':<8} {'feature':<24} {'n':>3} "
+        wa = max([8, *(len(r.action) for r in self.path)])
+        wf = max([24, *(len(r.feature or "-") for r in self.path)])
+        lines.append(f"  {'step':>4}  {'action':<{wa}} {'feature':<{wf}} {'n':>3} "
                      f"{'score':>8} {'cost':>9}" + ("  failed folds" if show_failed else ""))
         for r in self.path:
             lines.append(
-                f"  {r.step:>4}  {r.action:<8} {(r.feature or '-'):<24} {len(r.features):>3} "
+                f"  {r.step:>4}  {r.action:<{wa}} {(r.feature or '-'):<{wf}} "
+                f"{len(r.features):>3} "
                 f"{r.score_mean:>8.4f} {r.cost:>9.2f}"
                 + (f"  {r.n_failed_folds:>12}" if show_failed else "")
             )

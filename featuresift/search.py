@@ -243,7 +243,8 @@ def run_search(
         Registered name ("greedy-swap", "forward", "backward", ...), ``{"name": ..., **options}``
         or an instance. Extra keyword arguments are passed as strategy options.
     costs : CostModel or mapping, optional
-        Needed only when ``problem`` is an evaluator (a problem carries its own costs);
+        Only when ``problem`` is an evaluator: a problem carries its own costs, and
+        giving other costs here with a problem is an error;
         a :class:`CostModel` or YAML's ``{"features":..., "panels":..., "unit":...}``;
         default every feature costs 1.
     budget : float, optional
@@ -322,6 +323,12 @@ warm_start : optional
     t0 = time.perf_counter()
     objective = make_objective(objective)
     if isinstance(problem, SelectionProblem):
+        if costs is not None and costs is not problem.cost_model:
+            # Never silently ignored: the problem's own costs are the ones used.
+            raise InputError(
+                "costs: a SelectionProblem carries its own costs; give them to "
+                "SelectionProblem(..., costs=...) (run_search's costs= is for evaluators)",
+                key="costs")
         problem, objective = prepare_for_objective(problem, objective)
         required = objective.required_scorer()
         evaluator: BaseEvaluator | None = None  # built below, after the input checks

@@ -182,3 +182,21 @@ def test_noise_guard_on_pure_noise_and_on_signal():
     # With 3 folds (2 degrees of freedom) stage 1 cannot accept after the Bonferroni
     # correction, so the nested stage decides, and its honest score is high.
     assert kept.guard["stage"] == "nested" and kept.guard["nested_mean"] > 0.8
+
+
+def test_run_search_refuses_costs_beside_a_problem_that_has_its_own():
+    # Regression: costs= given to run_search with a SelectionProblem were ignored and
+    # every measurement cost 1, so a budget of 6 bought what costs 10 here.
+    from sklearn.datasets import load_iris
+    from sklearn.naive_bayes import GaussianNB
+
+    from featuresift import SelectionProblem
+
+    X, y = load_iris(return_X_y=True)  # scikit-learn's iris data
+    prices = {"features": {"x0": 1, "x1": 2, "x2": 3, "x3": 4}}
+    with pytest.raises(InputError, match="costs: a SelectionProblem carries its own costs"):
+        run_search(SelectionProblem(X, y, GaussianNB(), cv=3), "forward", costs=prices,
+                   budget=6)
+    res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3, costs=prices), "forward",
+                     budget=6, guard="off")
+    assert res.cost <= 6 and res.cost == sum(prices["features"][f] for f in res.selected)
