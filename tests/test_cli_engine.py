@@ -28,6 +28,7 @@ def _write(tmp_path, **changes):
     cfg["cv"] = {"folds": 3, "seed": 0}
     cfg["strategy"] = {"name": "forward", "options": {"n_features": 3}}
     cfg["output"] = {"folder": "out"}
+    cfg["guard"] = "off"  # these tests are about the engine; the guard has its own
     cfg.update(changes)
     path = tmp_path / "run.yaml"
     path.write_text(yaml.safe_dump(cfg), encoding="utf-8")

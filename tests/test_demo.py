@@ -132,7 +132,7 @@ def test_small_search_stays_within_budget(grain_small):
         costs=_cost_model(measured),
         cv=StratifiedKFold(3, shuffle=True, random_state=0), scoring="roc_auc",
     )
-    result = run_search(problem, "forward", budget=8.0, max_features=3)
+    result = run_search(problem, "forward", budget=8.0, max_features=3, guard="off")
     assert result.success
     assert 0 < len(result.selected) <= 3
     assert result.cost <= 8.0

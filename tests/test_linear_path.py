@@ -205,7 +205,7 @@ def test_same_choices_with_and_without_fast_path(grain_small):
         problem = SelectionProblem(X, y, est, costs=costs, cv=StratifiedKFold(3),
                                    scoring="roc_auc")
         runs.append(run_search(problem, "forward", budget=60, max_features=4,
-                               fast_path=fast))
+                               fast_path=fast, guard="off"))
     assert runs[0].support == runs[1].support
     assert [r.features for r in runs[0].path] == [r.features for r in runs[1].path]
     assert runs[0].extras["engine"]["fast_path"]["n_scored"] > 0
