@@ -127,3 +127,20 @@ def test_warm_starts_save_iterations_and_do_not_depend_on_where_fits_run():
     p = SelectionProblem(X[:, :4], y, make_pipeline(StandardScaler(), LogisticRegression(
         solver="liblinear")), cv=3)
     assert CrossValidationEvaluator(p, warm_start=True).stats()["warm_start"] is None
+
+
+def test_rest_of_a_batch_stays_in_process_unless_workers_are_starting(monkeypatch):
+    # A batch is fitted as one in-process part once nothing can move it to the pool;
+    # only workers still starting in the background can (common practice: joblib's
+    # reusable executor starts asynchronously here).
+    import threading
+
+    monkeypatch.setattr(pool_module, "_WARM", {})
+    policy = pool_module.PoolPolicy()
+    assert not policy.may_switch(1) and not policy.may_switch(2)   # no pool starting
+    pool_module._WARM[2] = event = threading.Event()
+    assert policy.may_switch(2)                                     # starting: may switch
+    event.set()
+    assert not policy.may_switch(2)                                 # running: decided
+    assert pool_module.PoolPolicy("always").may_switch(2)
+    assert not pool_module.PoolPolicy("never").may_switch(2)

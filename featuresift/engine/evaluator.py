@@ -807,12 +807,18 @@ class CrossValidationEvaluator(BaseEvaluator):
                             bar.update(len(part))
                     self.pool.observe_pool(len(results) - n0, time.perf_counter() - t0)
                     break
+                if i > 0 and not self.pool.may_switch(n_jobs):
+                    # Nothing can move the rest of this batch to the pool: fit it as one
+                    # in-process part (fewer parts, fewer shared-preprocessing refits).
+                    chunk = [item for c in chunks[i:] for item in c]
                 t0, c0 = time.perf_counter(), time.process_time()
                 part = fit(*args(chunk))
                 self.pool.observe(len(part), time.perf_counter() - t0,
                                   time.process_time() - c0)
                 results.extend(part)
                 bar.update(len(part))
+                if len(results) == len(work):
+                    break
         except FitFailedError as exc:
             if exc.subset is None:
                 raise

@@ -189,6 +189,15 @@ class PoolPolicy:
                                  name="featuresift-pool-start", daemon=True).start()
         return event.is_set()
 
+    def may_switch(self, n_jobs: int | None) -> bool:
+        """Whether a later part of the current batch could still go to the pool: only
+        while workers are starting in the background (the remaining work only shrinks,
+        so the other reasons to stay in-process hold for the rest of the batch)."""
+        if self.mode != "auto" or effective_n_jobs(n_jobs) <= 1:
+            return self.mode == "always"
+        event = _WARM.get(effective_n_jobs(n_jobs))
+        return event is not None and not event.is_set()
+
     def describe(self) -> dict[str, Any]:
         """Counters for ``stats()``."""
         return {"mode": self.mode, "fits_in_process": self.n_in_process,
