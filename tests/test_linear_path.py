@@ -217,3 +217,29 @@ def test_same_choices_with_and_without_fast_path(grain_small):
     a = run_search(problem, "exhaustive", fast_path=True)
     b = run_search(problem, "exhaustive", fast_path=False)
     assert a.support == b.support and a.stop_reason == "optimum over all 63 allowed subsets"
+
+
+def test_wide_subsets_scored_in_row_blocks_give_the_same_bits_and_match_sklearn(monkeypatch):
+    # More than 64 columns (gathered test columns) and a tiny block size, so every
+    # subset's test rows are gathered a few rows at a time: the scores must not change,
+    # and they equal scikit-learn's LDA fits (reference implementation).
+    import featuresift.engine.linear as linear
+
+    rng = np.random.default_rng(3)
+    X = rng.normal(size=(120, 70))
+    y = (X[:, 0] + X[:, 1] + rng.normal(size=120) > 0).astype(int)
+    est = make_pipeline(StandardScaler(), LDA())
+    work = [((0, 1, 2), f) for f in range(3)] + [(tuple(range(60)), f) for f in range(3)]
+
+    def scores():
+        problem = SelectionProblem(X, y, est, cv=StratifiedKFold(3), scoring="accuracy")
+        return make_linear_path(problem).score(work), problem
+
+    whole, problem = scores()
+    monkeypatch.setattr(linear, "_MAX_BLOCK", 50)
+    blocked, _ = scores()
+    assert whole == blocked and None not in whole
+    for (cols, f), got in zip(work, whole):
+        train, test = problem.splits[f]
+        model = clone(est).fit(X[train][:, cols], y[train])
+        assert got == pytest.approx(model.score(X[test][:, cols], y[test]), abs=1e-9)

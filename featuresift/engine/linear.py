@@ -358,8 +358,18 @@ class LinearPath:
         B, C, k = coef.shape
         p = len(fold.d)
         if p > _DENSE_COLUMNS:
-            Zs = self._test_columns(fold, idx)                  # (n_test, B, k)
-            return np.einsum("nbk,bck->bnc", np.abs(Zs) if absolute else Zs, coef)
+            # Blocks of test rows of at most _MAX_BLOCK values: a subset of a thousand
+            # columns does not gather all its test values at once (rows are independent,
+            # the sum over k runs in the same order: the same bits).
+            n_test = len(fold.yte)
+            out = np.empty((B, n_test, C))
+            rows = max(1, _MAX_BLOCK // max(1, B * k))
+            for r0 in range(0, n_test, rows):
+                Zs = self._test_columns(fold, idx, slice(r0, r0 + rows))  # fresh array
+                if absolute:
+                    np.abs(Zs, out=Zs)
+                out[:, r0:r0 + rows] = np.einsum("nbk,bck->bnc", Zs, coef)
+            return out
         if fold.Zdense is None:
             full = np.arange(p)[None, :]
             fold.Zdense = np.ascontiguousarray(self._test_columns(fold, full)[:, 0, :])
@@ -371,12 +381,16 @@ class LinearPath:
         out = Z @ W.reshape(B * C, p).T                         # (n_test, B * C)
         return out.reshape(len(Z), B, C).transpose(1, 0, 2)
 
-    def _test_columns(self, fold: _Fold, idx: np.ndarray) -> np.ndarray:
-        """The test rows of the columns ``idx`` (B x k), shape (n_test, B, k)."""
+    def _test_columns(self, fold: _Fold, idx: np.ndarray,
+                      rows: slice = slice(None)) -> np.ndarray:
+        """The test rows (or a slice of them) of the columns ``idx`` (B x k), shape
+        (n_rows, B, k): always a new array."""
         if fold.Zte is not None:
-            return fold.Zte[:, idx]
-        Zs = self.problem.X[fold.test[:, None, None], idx[None]]
-        return Zs if fold.center is None else Zs - fold.center[idx]
+            return fold.Zte[rows][:, idx]
+        Zs = self.problem.X[fold.test[rows][:, None, None], idx[None]]   # a fresh array
+        if fold.center is not None:
+            Zs -= fold.center[idx]      # in place: no second (n_test, B, k) temporary
+        return Zs
 
     # --------------------------------------------------------------------- scoring
     def score(self, work: list[tuple[tuple[int, ...], int]]) -> list[float | None]:
@@ -413,12 +427,13 @@ class LinearPath:
 
     def _unit(self, fold: _Fold, cols: np.ndarray, alpha: float) -> np.ndarray:
         """The unit-diagonal matrices ``D^-1 (G_S + alpha I) D^-1`` of rows of ``cols``."""
-        G = fold.G[cols[:, :, None], cols[:, None, :]]
+        G = fold.G[cols[:, :, None], cols[:, None, :]]            # a fresh array
         if alpha:
-            G = G + alpha * np.eye(cols.shape[1])
+            G += alpha * np.eye(cols.shape[1])
         d = fold.d[cols]
         d = np.where(d > 0, d, 1.0)
-        return G / (d[:, :, None] * d[:, None, :])
+        G /= d[:, :, None] * d[:, None, :]      # in place, the same bits as G / (d d')
+        return G
 
     def _inverses(self, fold: _Fold, idx: np.ndarray, alpha: float):
         """Inverses of the unit-diagonal matrices of a block of subsets (same size).
@@ -537,6 +552,7 @@ class LinearPath:
                 sure = (np.isfinite(tr) & (tr > 0) & (k * tr <= max_cond)
                         & (np.einsum("bii->bi", inv) > 0).all(axis=1) & (tr * floor <= 1.0))
                 x = (inv @ rhs) / d[:, :, None]
+        inv = None  # freed before any eigen-decomposition (large subsets: k x k each)
         doubt = np.flatnonzero(ok & ~sure)
         if doubt.size:
             sel = idx[doubt]
