@@ -58,6 +58,9 @@ _PICK_WORDS = {
               "(Breiman et al. 1984)",
 }
 
+_ONE_SE_FROM_STRATEGY = ("one-se: the cheapest subset within one standard error of the "
+                         "strategy's answer (its stopping rule chose it; Breiman et al. 1984)")
+
 REFERENCES = ("nothing", "free only", "everything")
 """Reference subsets evaluated in every run, beside the answer.
 
@@ -150,13 +153,11 @@ def _pick(space: SearchSpace, rule: str, refs: dict[str, Scored]) -> tuple[Score
                     "score_sem": best.evaluation.sem}
     # The rule's yardstick: the best allowed subset evaluated, or, when the strategy
     # named its own answer (a stopping rule such as ``tol`` or ``n_features``), that one.
-    overall = space.best_of(allowed)
-    info["basis"] = ("strategy's answer" if chosen is not None and best is chosen
-                     and overall is not None and overall.rank_key > chosen.rank_key
-                     else "best evaluated")
-    if info["basis"] == "strategy's answer":
-        info["description"] = info["description"].replace(
-            "of the best", "of the strategy's answer (its stopping rule chose it)")
+    info["basis"] = "best evaluated"
+    if best is chosen and space.best_of(allowed).rank_key > chosen.rank_key:
+        info["basis"] = "strategy's answer"
+        if rule == "one-se":
+            info["description"] = _ONE_SE_FROM_STRATEGY
     if rule == "best":
         return best, info
     threshold = best.value - best.evaluation.sem

@@ -131,8 +131,9 @@ def test_warm_starts_save_iterations_and_do_not_depend_on_where_fits_run():
 
 def test_rest_of_a_batch_stays_in_process_unless_workers_are_starting(monkeypatch):
     # A batch is fitted as one in-process part once nothing can move it to the pool;
-    # only workers still starting in the background can (common practice: joblib's
-    # reusable executor starts asynchronously here).
+    # only workers still starting in the background (PoolPolicy starts joblib's reusable
+    # executor in a thread) can. Merging the parts too early would keep a batch off a
+    # pool that comes up mid-batch; never merging splits n_jobs=2 work into more parts.
     import threading
 
     monkeypatch.setattr(pool_module, "_WARM", {})

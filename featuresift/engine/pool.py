@@ -193,9 +193,10 @@ class PoolPolicy:
         """Whether a later part of the current batch could still go to the pool: only
         while workers are starting in the background (the remaining work only shrinks,
         so the other reasons to stay in-process hold for the rest of the batch)."""
-        if self.mode != "auto" or effective_n_jobs(n_jobs) <= 1:
+        workers = effective_n_jobs(n_jobs)
+        if self.mode != "auto" or workers <= 1:
             return self.mode == "always"
-        event = _WARM.get(effective_n_jobs(n_jobs))
+        event = _WARM.get(workers)
         return event is not None and not event.is_set()
 
     def describe(self) -> dict[str, Any]:
