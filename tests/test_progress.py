@@ -52,3 +52,15 @@ def test_selector_verbose(problem, monkeypatch):
                         strategy={"name": "forward", "options": {"n_features": 2}}
                         ).fit(problem.X, problem.y)
     assert out.getvalue().count("forward step") == 2
+
+
+def test_best_so_far_counts_only_affordable_subsets(problem, capsys, monkeypatch):
+    # The 'everything' reference (4 measurements) is evaluated but not allowed at
+    # budget 1; the progress line once showed its score as 'best'.
+    monkeypatch.setattr(progress, "interactive", lambda: False)
+    res = run_search(problem, "forward", budget=1, verbose=1)
+    last = capsys.readouterr().err.strip().splitlines()[-1]
+    frame = res.evaluations_frame()
+    affordable = frame[(frame["n"] <= 1) & (frame["status"] == "complete")]
+    assert f"best {affordable['mean'].max():.4f} in-search" in last
+    assert frame["mean"].max() > affordable["mean"].max()  # the case this guards

@@ -469,7 +469,9 @@ class SearchSpace:
                 self.visited[k] = sc
             out.append(sc)
         if self.progress is not None:
-            done = [s.mean for s in out if s.complete]
+            # The best an answer can be: complete and allowed (budget and limits); the
+            # 'everything' reference and over-budget neighbours are not candidates.
+            done = [s.mean for k, s in zip(keys, out) if s.complete and self.is_allowed(k)]
             self.progress.evaluated(self.n_evaluations, max(done) if done else None)
         return out
 
