@@ -21,3 +21,18 @@ def test_tolerance_rejected_candidate_is_not_the_answer():
     ev0 = CriterionEvaluator(lambda s: sum(weights[i] for i in s), 4, names)
     res0 = run_search(ev0, "forward", costs=CostModel.uniform(names), tol=0.0)
     assert res0.selected == ["a", "b", "c"]
+
+
+def test_ratio_path_stops_only_when_no_candidate_gains_more_than_tol():
+    # Additive criterion with prices: c (price 1) gains 0.3, a (price 0.01) 0.001 and
+    # b (price 10) 0.05. After c, a has the best gain per cost (0.1 against 0.005) but
+    # gains less than tol, so the ratio path must take b rather than stop: its stop
+    # reason, "no candidate improves by more than tol", must be true of every candidate.
+    weights = {0: 0.001, 1: 0.05, 2: 0.3}
+    names = ["a", "b", "c"]
+    cm = CostModel(names, {"a": 0.01, "b": 10.0, "c": 1.0})
+    ev = CriterionEvaluator(lambda s: sum(weights[i] for i in s), 3, names)
+    res = run_search(ev, "forward", costs=cm, budget=11.005, tol=0.002,
+                     cost_rule="ratio", pick="best")
+    assert [row.features for row in res.path] == [("c",), ("b", "c")]
+    assert res.selected == ["b", "c"]

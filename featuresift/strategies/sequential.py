@@ -181,7 +181,14 @@ def forward_path(
         if not feats:
             return now, path, "no affordable feature left to add"
         moves = list(zip(feats, space.evaluate([current + (f,) for f in feats])))
-        extra = {space.cost_model.marginal_cost(current, f) for f in feats}
+        if tol is not None and now is not None:
+            # Only steps that improve by more than tol may be taken. The ratio rule must
+            # choose among those: a free feature gaining 0.001 would otherwise win on
+            # gain per cost and end the path although a dearer one gains 0.02.
+            moves = [(f, s) for f, s in moves if _value(s) - _value(now) > tol]
+            if not moves:
+                return now, path, f"no candidate improves the objective by more than {tol:g}"
+        extra = {space.cost_model.marginal_cost(current, f) for f, _ in moves}
         if rule == "gain" or len(extra) == 1:
             # With one marginal cost for all, gain per cost ranks exactly as gain does.
             f, best = best_step(space, moves)
@@ -192,8 +199,6 @@ def forward_path(
             else:
                 base = _value(now)
             f, best = best_ratio_step(space, current, base, moves)
-        if tol is not None and now is not None and _value(best) - _value(now) <= tol:
-            return now, path, f"no candidate improves the objective by more than {tol:g}"
         current, now = best.subset, best
         path.append(current)
         if shadowing and follow is not None and len(path) <= len(follow) \
