@@ -28,7 +28,15 @@ from featuresift.guard import DEFAULT_GUARD
 from featuresift.problem import SelectionProblem
 from featuresift.search import DEFAULT_PICK, run_search
 
-__all__ = ["MeasurementSelector", "build_cost_model"]
+__all__ = ["MeasurementSelector", "BuyNothingWarning", "build_cost_model"]
+
+
+class BuyNothingWarning(UserWarning):
+    """The selector's answer is to buy no measurement: ``transform`` gives 0 columns.
+
+    Emitted by :meth:`MeasurementSelector.fit` with the reason (the noise guard's test,
+    the pick rule, the budget) and how to proceed, and again, briefly, by ``transform``.
+    """
 
 
 def _typed_frame(X: Any) -> bool:
@@ -52,6 +60,62 @@ def _accepts_nan(estimator: Any) -> bool:
         return bool(get_tags(estimator).input_tags.allow_nan)
     except (AttributeError, TypeError, ValueError):
         return False
+
+
+def _has_text_columns(X: Any) -> bool:
+    """A DataFrame with a categorical, text or other non-numeric column."""
+    if not (hasattr(X, "columns") and hasattr(X, "dtypes")):
+        return False
+    import pandas as pd
+
+    return any(isinstance(d, pd.CategoricalDtype)
+               or not (pd.api.types.is_numeric_dtype(d) or pd.api.types.is_bool_dtype(d))
+               for d in X.dtypes)
+
+
+def buy_nothing_message(result: Any) -> str:
+    """Why a search's answer buys no measurement, and what to do next.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace as NS
+    >>> res = NS(guard={"decision": "replaced by 'nothing': ...", "p_value": 0.054,
+    ...                 "alpha": 0.05, "replaced": ["ph"], "folds": 5},
+    ...          pick={}, budget=None, cost_unit="EUR", scoring="accuracy")
+    >>> print(buy_nothing_message(res).split(". ")[0])
+    No measurement is worth buying here: the noise guard found no evidence that the \
+search's answer (ph) beats buying nothing on 5 outer folds the search never saw \
+(one-sided paired t-test p = 0.054 > alpha 0.05)
+    """
+    guard = getattr(result, "guard", None) or {}
+    pick = getattr(result, "pick", None) or {}
+    best = pick.get("best") or {}
+    if guard.get("replaced") is not None and "p_value" in guard:
+        why = ("the noise guard found no evidence that the search's answer "
+               f"({', '.join(guard['replaced'])}) beats buying nothing on "
+               f"{guard.get('folds')} outer folds the search never saw (one-sided paired "
+               f"t-test p = {guard['p_value']:.3g} > alpha {guard.get('alpha')})")
+        how = ("more rows (or groups) may show an effect; guard='off' keeps the search's "
+               "answer, whose in-search score is optimistic")
+    elif best.get("features") and pick.get("rule") == "one-se":
+        nothing = (getattr(result, "references", None) or {}).get("nothing") or {}
+        against = (f" against {nothing['score_mean']:.4f} for nothing"
+                   if nothing.get("score_mean") is not None else "")
+        why = (f"the best set found ({', '.join(best['features'])}, in-search "
+               f"{result.scoring} {best['score_mean']:.4f} ± {best['score_sem']:.4f} s.e."
+               f"{against}) is within one standard error of buying nothing, and the "
+               "one-SE pick takes the cheapest such set")
+        how = "pick='best' takes the best set found instead"
+    elif result.budget is not None and not best.get("features"):
+        why = (f"no measurement set affordable within the budget of {result.budget:g} "
+               f"{result.cost_unit} scored better than buying nothing")
+        how = "a larger budget or other candidates may change that"
+    else:
+        why = "no measurement set scored better than buying nothing"
+        how = "other candidates, more rows or another model may change that"
+    return (f"No measurement is worth buying here: {why}. transform() will return 0 "
+            f"columns, on which no model can be fitted. To go on: {how}; or model without "
+            "these measurements (the answer 'buy nothing' is the result).")
 
 
 def build_cost_model(
@@ -113,7 +177,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         Noise guard (see :mod:`featuresift.guard`): keep measurements only if they beat
         buying nothing on outer folds the search never saw (about 5x the fits of the
         search; "off" to skip, e.g. inside a grid search). When the answer is to buy
-        nothing, ``transform`` returns zero columns (scikit-learn warns).
+        nothing, ``fit`` warns (:class:`BuyNothingWarning`, saying why and how to go
+        on) and ``transform`` returns zero columns.
     seed : int, optional, default=0
         Seed of stochastic strategies (recorded in ``result_.seed``).
     n_jobs : int, optional
@@ -306,7 +371,33 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         self.score_ = float(result.score_mean)
         self.cost_model_ = cost_model
         self.result_ = result
+        if not support.any():
+            warnings.warn(f"MeasurementSelector: {buy_nothing_message(result)}",
+                          BuyNothingWarning, stacklevel=2)
         return self
+
+    def transform(self, X: Any) -> Any:
+        """Keep the chosen columns of ``X``.
+
+        A DataFrame with categorical or text columns comes back as a DataFrame of the
+        chosen columns with their dtypes (no numeric array could hold them); other input
+        as scikit-learn's selectors return it (see ``set_output``). When the answer is to
+        buy nothing, 0 columns, with a :class:`BuyNothingWarning`.
+        """
+        if _has_text_columns(X):
+            validate_data(self, X, skip_check_array=True, reset=False)
+            return self._transform(X)
+        return super().transform(X)
+
+    def _transform(self, X: Any) -> Any:
+        mask = self.get_support()
+        if not mask.any():  # said here in our words instead of scikit-learn's generic ones
+            warnings.warn("MeasurementSelector chose no measurement (buy nothing, see "
+                          "result_.headline()): transform returns 0 columns",
+                          BuyNothingWarning, stacklevel=3)
+            return X.iloc[:, :0] if hasattr(X, "iloc") else np.empty(
+                (X.shape[0], 0), dtype=getattr(X, "dtype", float))
+        return super()._transform(X)
 
     def _get_support_mask(self) -> np.ndarray:
         check_is_fitted(self, "support_")

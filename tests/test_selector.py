@@ -5,8 +5,10 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from scipy.stats import sem, ttest_rel
 from sklearn.base import clone
 from sklearn.datasets import load_iris, make_classification
+from sklearn.ensemble import HistGradientBoostingClassifier
 from sklearn.impute import SimpleImputer
 from sklearn.linear_model import LogisticRegression
 from sklearn.naive_bayes import GaussianNB
@@ -16,7 +18,7 @@ from sklearn.utils.estimator_checks import parametrize_with_checks
 from featuresift.errors import InputError
 from featuresift.problem import SelectionProblem
 from featuresift.search import run_search
-from featuresift.selector import MeasurementSelector, build_cost_model
+from featuresift.selector import BuyNothingWarning, MeasurementSelector, build_cost_model
 
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
 
@@ -175,3 +177,50 @@ def test_old_argument_names_still_work_with_a_deprecation_warning(iris_frame):
     assert old.selected_features_ == new.selected_features_
     assert old.result_.to_dict()["path"] == new.result_.to_dict()["path"]
     assert new.result_.seed == 0 and new.result_.cost_unit == "EUR"
+
+
+def test_buy_nothing_warns_at_fit_with_the_reason_and_a_way_on():
+    rng = np.random.default_rng(0)
+    X, y = rng.normal(size=(80, 4)), rng.integers(0, 2, 80)  # pure noise
+    sel = MeasurementSelector(LogisticRegression(), cv=3)
+    with pytest.warns(BuyNothingWarning) as record:
+        sel.fit(X, y)
+    guard = sel.result_.guard
+    # Reference: scipy's one-sided paired t-test on the guard's outer-fold values.
+    p = ttest_rel(guard["outer_objective_answer"], guard["outer_objective_fallback"],
+                  alternative="greater").pvalue
+    assert guard["p_value"] == pytest.approx(p, rel=1e-12) and p > 0.05
+    text = str(record[0].message)
+    assert f"p = {p:.3g}" in text and "guard='off'" in text and "0 columns" in text
+    with pytest.warns(BuyNothingWarning):  # our words, not scikit-learn's generic ones
+        assert sel.transform(X).shape == (80, 0)
+
+
+def test_buy_nothing_by_the_one_se_pick_says_so_and_pick_best_goes_on():
+    rng = np.random.default_rng(1)
+    X, y = rng.normal(size=(80, 4)), rng.integers(0, 2, 80)  # pure noise
+    sel = MeasurementSelector(LogisticRegression(), cv=3, guard="off")
+    with pytest.warns(BuyNothingWarning, match="within one standard error") as record:
+        sel.fit(X, y)
+    best, nothing = sel.result_.pick["best"], sel.result_.references["nothing"]
+    # Reference: scipy's standard error of the prior-only model's fold scores.
+    assert nothing["score_sem"] == pytest.approx(sem(nothing["fold_scores"]), rel=1e-12)
+    assert best["features"] and nothing["score_mean"] >= best["score_mean"] - best["score_sem"]
+    assert "pick='best'" in str(record[0].message)
+    advised = clone(sel).set_params(pick="best").fit(X, y)  # the advice works
+    assert advised.selected_features_ == best["features"]
+
+
+def test_transform_keeps_a_categorical_frame_in_default_output():
+    rng = np.random.default_rng(2)
+    breed = rng.choice(["holstein", "jersey"], 90)
+    X = pd.DataFrame({"breed": pd.Categorical(breed), "fat": rng.normal(size=90),
+                      "noise": rng.normal(size=90)})
+    y = (breed == "jersey").astype(int)
+    model = HistGradientBoostingClassifier(categorical_features="from_dtype", max_iter=5)
+    sel = MeasurementSelector(model, cv=3, max_features=1, guard="off").fit(X, y)
+    out = sel.transform(X)  # scikit-learn's default path cannot cast category to float
+    # Reference: pandas' own column selection keeps the user's dtypes.
+    pd.testing.assert_frame_equal(out, X[["breed"]])
+    with pytest.raises(ValueError, match="feature names"):
+        sel.transform(X[["fat", "breed", "noise"]])
