@@ -138,6 +138,32 @@ def _is_group_splitter(cv: Any) -> bool:
         return "Group" in type(cv).__name__
 
 
+def _refuse_missing(values: np.ndarray, name: str, what: str, remedy: str) -> None:
+    """An :class:`InputError` naming ``name`` and the rows when a value is missing.
+
+    Missing: NaN, None, ``pd.NA`` or ``NaT`` (``pandas.isna``), as in a nullable column.
+
+    Examples
+    --------
+    >>> _refuse_missing(np.array([1.0, float("nan")]), "y", "a target value", "fill it")
+    Traceback (most recent call last):
+    ...
+    featuresift.errors.InputError: y: y has 1 missing value (row 1): every row needs a \
+target value; fill it
+    """
+    import pandas as pd
+
+    if values.dtype.kind in "biuUS":  # these dtypes cannot hold a missing value
+        return
+    rows = np.flatnonzero(pd.isna(values))
+    if rows.size:
+        shown = ", ".join(str(r) for r in rows[:5]) + (", ..." if rows.size > 5 else "")
+        raise InputError(
+            f"{name} has {rows.size} missing value{'s' * (rows.size != 1)} "
+            f"(row{'s' * (rows.size != 1)} {shown}): every row needs {what}; {remedy}",
+            key=name)
+
+
 _ADDRESS = re.compile(r" at 0x[0-9a-fA-F]+")
 
 
@@ -240,6 +266,7 @@ class SelectionProblem:
             raise InputError(
                 f"y must be 1-dimensional with {X_arr.shape[0]} values, got shape {y_arr.shape}"
             )
+        _refuse_missing(y_arr, "y", "a target value", "drop those rows or fill the target")
         if not hasattr(estimator, "fit"):
             raise InputError(f"estimator must have a fit method, got {estimator!r}")
         self.classification = bool(is_classifier(estimator))
@@ -274,6 +301,9 @@ class SelectionProblem:
                 f"groups has {self.groups.shape[0]} values for {X_arr.shape[0]} rows of X",
                 key="groups",
             )
+        if self.groups is not None:
+            _refuse_missing(self.groups, "groups", "a group label",
+                            "give those rows a label (their own group if unknown)")
         if self.groups is None and _is_group_splitter(cv):
             raise InputError(
                 f"{type(cv).__name__} needs group labels: pass groups=...", key="groups"

@@ -15,6 +15,7 @@ from sklearn.preprocessing import OneHotEncoder, StandardScaler
 
 from featuresift import SelectionProblem, nested_evaluation, run_search
 from featuresift.engine.evaluator import CrossValidationEvaluator
+from featuresift.errors import InputError
 from featuresift.selector import MeasurementSelector
 
 pytestmark = pytest.mark.usefixtures("single_blas_thread")
@@ -161,3 +162,19 @@ def test_relevance_scores_categorical_columns_by_contingency_table(lab):
 
     assert rel.scores[0] == pytest.approx(f_classif(X[["ph"]], y)[0][0], rel=1e-10)
     assert rel.pvalues[1] < 1e-6 < rel.pvalues[2]  # grade decides y, site does not
+
+
+def test_missing_target_or_group_is_named_with_its_rows(lab):
+    frame, y = lab
+    model = make_pipeline(SimpleImputer(), LogisticRegression())
+    target = pd.Series(y, dtype="Int64")
+    target[[4, 9]] = pd.NA
+    # Reference: the rows pandas.isna finds (before: scikit-learn's "Input contains NaN").
+    rows = np.flatnonzero(pd.isna(target)).tolist()
+    with pytest.raises(InputError, match=rf"y has 2 missing values \(rows {rows[0]}, "
+                                         rf"{rows[1]}\)"):
+        SelectionProblem(frame[["ph"]], target, model, cv=3)
+    farms = pd.Series(np.arange(len(y)) % 6, dtype="Int64").astype("string")
+    farms[7] = pd.NA  # before: "TypeError: boolean value of NA is ambiguous"
+    with pytest.raises(InputError, match=r"groups has 1 missing value \(row 7\)"):
+        MeasurementSelector(model, cv=3).fit(frame[["ph"]], y, groups=farms)
