@@ -164,11 +164,14 @@ def result_repr(res: Any) -> str:
     SearchResult(selected=['x3'], cost=1 / unlimited features, score=0.9533 in-search, strategy='greedy-swap', 6 subsets)
     """  # noqa: E501
     strategy = res.strategy.get("name") if isinstance(res.strategy, Mapping) else res.strategy
+    guard = getattr(res, "guard", None) or {}
+    nested = guard.get("nested_mean") if isinstance(guard, Mapping) else None
     return (
         f"SearchResult(selected={short_list(res.selected)}, "
         f"cost={_money(res.cost)} / {_money(res.budget)} {res.cost_unit}, "
-        f"score={_f(res.score_mean)} in-search, strategy={strategy!r}, "
-        f"{res.n_evaluations} subsets)"
+        f"score={_f(res.score_mean)} in-search"
+        + (f" ({_f(nested)} nested, noise guard)" if nested is not None else "")
+        + f", strategy={strategy!r}, {res.n_evaluations} subsets)"
     )
 
 
@@ -270,11 +273,30 @@ def frontier_repr(fr: Any) -> str:
     scores = [r.score_mean for r in fr.results if math.isfinite(r.score_mean)]
     lo_b = min((b for b in fr.budgets if b is not None), default=None)
     hi_b = None if any(b is None for b in fr.budgets) else max(fr.budgets, default=None)
-    span = (f"cost {min(costs):g}-{max(costs):g} {fr.cost_unit}, " if costs else "")
-    score = (f"{fr.scoring} {_f(min(scores))}-{_f(max(scores))} in-search, "
-             if scores else "")
+    span = (f"cost {_span(costs, '{:g}')} {fr.cost_unit}, " if costs else "")
+    score = (f"{fr.scoring} {_span(scores, '{:.4f}')} in-search, " if scores else "")
     return (f"Frontier({len(fr.budgets)} budgets from {_money(lo_b)} to {_money(hi_b)} "
-            f"{fr.cost_unit}, {span}{score}{sum(_efficient_flags(fr))} cost-efficient)")
+            f"{fr.cost_unit}, {span}{score}{sum(_efficient_flags(fr))} cost-efficient"
+            f"{_frontier_headline(fr)})")
+
+
+def _span(values: Sequence[float], fmt: str) -> str:
+    lo, hi = fmt.format(min(values)), fmt.format(max(values))
+    return lo if lo == hi else f"{lo}-{hi}"
+
+
+def _frontier_headline(fr: Any) -> str:
+    """``, headline ['a', 'b'] at 2 EUR`` (or the reference it is); empty if none."""
+    try:
+        key = fr.headline_key
+    except AttributeError:  # a stand-in without the pick (doctest)
+        return ""
+    if key is None:
+        return ", no point fits the budget"
+    if isinstance(key, str):
+        return f", headline reference {key!r}"
+    r = fr.results[key]
+    return f", headline {short_list(r.selected, 3)} at {r.cost:g} {fr.cost_unit}"
 
 
 def frontier_html(fr: Any) -> str:
@@ -298,9 +320,14 @@ def frontier_html(fr: Any) -> str:
         ne = fr.nested
         parts.append(_p("At the headline's budget: " + score_text(
             ne.outer_mean, ne.scoring, "nested", _sem(ne.outer_std, len(ne.outer_scores)))))
+    if hasattr(fr, "_describe"):
+        within = "unlimited" if fr.budget is None else f"{fr.budget:g} {fr.cost_unit}"
+        parts.insert(0, _p(f"Headline (pick '{fr.pick}' within budget {within}): "
+                           + fr._describe(fr.headline_key)))
     refs = references_of(fr.results[-1]) if fr.results else []
     if refs:
-        parts.append(_table(["reference", f"cost ({fr.cost_unit})", "score"],
+        parts.append(_table(["reference", f"cost ({fr.cost_unit})",
+                             f"score ({score_kind_label('in-search')})"],
                             [(n, _money(c) if c is not None else "-", _f(s))
                              for n, c, s in refs], caption="Beside the references"))
     parts.append(_p(f"{fr.n_fits} model fits for the sweep "
@@ -313,11 +340,14 @@ def nested_repr(ne: Any) -> str:
     """One line: outer folds, nested score, in-search score, optimism, mean cost."""
     import numpy as np
 
+    ci = getattr(ne, "ci", None)
+    interval = "" if ci is None else (
+        f" ({getattr(ne, 'confidence', 0.95):.0%} CI {_f(ci[0], 3)}-{_f(ci[1], 3)})")
     return (
         f"NestedEvaluation({len(ne.outer_scores)} outer folds, "
-        f"{ne.scoring} {_f(ne.outer_mean)} ± {_f(ne.outer_std)} nested, "
+        f"{ne.scoring} {_f(ne.outer_mean)}{interval} nested, "
         f"{_f(float(np.mean(ne.inner_scores)))} in-search, optimism {ne.optimism:+.4f}, "
-        f"mean cost {float(np.mean(ne.costs)):g} {ne.cost_unit})"
+        f"mean cost {float(np.mean(ne.costs)):.4g} {ne.cost_unit})"
     )
 
 
@@ -327,7 +357,8 @@ def nested_html(ne: Any) -> str:
 
     parts = [
         _p("Score: " + score_text(ne.outer_mean, ne.scoring, "nested",
-                                  _sem(ne.outer_std, len(ne.outer_scores)))),
+                                  _sem(ne.outer_std, len(ne.outer_scores)))
+           + ("; " + ne._ci_text() if hasattr(ne, "_ci_text") else "")),
         _p("The search's own score: " + score_text(float(np.mean(ne.inner_scores)),
                                                    ne.scoring, "in-search")
            + f"; optimism {ne.optimism:+.4f}."),
@@ -359,11 +390,14 @@ def problem_repr(p: Any) -> str:
     scoring = p.scoring if isinstance(p.scoring, str) or p.scoring is None else (
         getattr(p.scoring, "__name__", type(p.scoring).__name__))
     cm = p.cost_model
+    name = _estimator_name(p.estimator)
+    if len(name) > 60:  # a long pipeline: its last step says what model it is
+        name = f"Pipeline({name.count(' > ') + 1} steps > {name.rsplit(' > ', 1)[-1]}"
     return (
         f"SelectionProblem(n_samples={p.n_samples}, n_features={p.n_features}, "
-        f"estimator={_estimator_name(p.estimator)}, cv={type(p.cv).__name__} "
+        f"estimator={name}, cv={type(p.cv).__name__} "
         f"({len(p.splits)} splits{', grouped' if p.groups is not None else ''}), "
-        f"scoring={scoring!r}, costs={cm!r})"
+        f"scoring={scoring!r}, costs: {len(cm.panels)} panel(s), unit {cm.unit!r})"
     )
 
 

@@ -51,7 +51,7 @@ from featuresift.engine.journal import reuse_message
 from featuresift.errors import InputError
 from featuresift.outputs import PLOTS_HINT, RunFolder, plots_available, write_files
 from featuresift.problem import SelectionProblem
-from featuresift.result import SearchResult, score_label
+from featuresift.result import SearchResult, load_json, score_label
 from featuresift.search import prepare_for_objective, run_search
 
 __all__ = ["Frontier", "budget_sweep", "default_budgets", "round_budgets", "cost_levels",
@@ -558,11 +558,7 @@ class Frontier:
         >>> Frontier.from_json(fr.to_json()).to_dict() == fr.to_dict()
         True
         """
-        if isinstance(text, os.PathLike) or (
-            isinstance(text, str) and not text.lstrip().startswith("{")
-        ):
-            text = Path(text).read_text(encoding="utf-8")
-        return cls.from_dict(json.loads(text))
+        return cls.from_dict(load_json(text))
 
     def __repr__(self) -> str:
         from featuresift.display import frontier_repr

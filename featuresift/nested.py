@@ -29,7 +29,9 @@ from __future__ import annotations
 
 import copy
 import inspect
+import json
 import math
+import os
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -45,7 +47,7 @@ from featuresift.costs import CostModel  # noqa: F401 - the docstring examples u
 from featuresift.engine.evaluator import check_error_score
 from featuresift.errors import FitFailedError, InputError
 from featuresift.problem import SelectionProblem
-from featuresift.result import SearchResult, score_label
+from featuresift.result import SearchResult, _json_safe, load_json, score_label
 from featuresift.search import run_search
 from featuresift.stability import nogueira_stability
 
@@ -413,7 +415,7 @@ class NestedEvaluation:
         ci = data.get("ci")
         return cls(
             outer_scores=[math.nan if v is None else float(v) for v in data["outer_scores"]],
-            inner_scores=list(data["inner_scores"]),
+            inner_scores=[math.nan if v is None else float(v) for v in data["inner_scores"]],
             selected=[list(s) for s in data["selected"]], costs=list(data["costs"]),
             selection_frequency=dict(data["selection_frequency"]),
             stability=data.get("stability"), cost_unit=data["cost_unit"],
@@ -421,10 +423,27 @@ class NestedEvaluation:
             n_repeats=int(data.get("n_repeats", 1)), n_splits=int(data.get("n_splits", 0)),
             confidence=float(data.get("confidence", 0.95)),
             ci=None if ci is None else (float(ci[0]), float(ci[1])),
-            test_train_ratio=float(data.get("test_train_ratio", float("nan"))),
+            test_train_ratio=float(data.get("test_train_ratio") or math.nan),
             inner_failed_fits=[int(n) for n in data.get("inner_failed_fits", [])],
             outer_failures=[dict(f) for f in data.get("outer_failures", [])],
         )
+
+    def to_json(self, indent: int = 2) -> str:
+        """The evaluation as a JSON string (what ``nested.json`` holds; strict JSON)."""
+        return json.dumps(_json_safe(self.to_dict()), indent=indent, allow_nan=False)
+
+    @classmethod
+    def from_json(cls, text: str | os.PathLike) -> NestedEvaluation:
+        """Load an evaluation from a JSON string or a ``nested.json`` file.
+
+        Examples
+        --------
+        >>> ne = NestedEvaluation([0.8, 0.9], [0.85, 0.95], [["a"], ["a"]], [1.0, 1.0],
+        ...                       {"a": 1.0}, None, "EUR", "accuracy")
+        >>> NestedEvaluation.from_json(ne.to_json()).to_json() == ne.to_json()
+        True
+        """
+        return cls.from_dict(load_json(text))
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready description."""

@@ -405,11 +405,7 @@ class SearchResult:
         >>> res.selected, res.score_mean, res.fold_scores
         (['ph'], 0.8, [0.7, 0.9])
         """
-        if isinstance(text, os.PathLike) or (
-            isinstance(text, str) and not text.lstrip().startswith("{")
-        ):
-            text = Path(text).read_text(encoding="utf-8")
-        return cls.from_dict(json.loads(text))
+        return cls.from_dict(load_json(text))
 
     def to_json(self, indent: int = 2) -> str:
         """The result as a JSON string."""
@@ -701,6 +697,21 @@ class SearchResult:
 
     def __str__(self) -> str:
         return self.summary()
+
+
+def load_json(text: str | os.PathLike) -> Any:
+    """The data of a JSON string, or of the JSON file at a path (``from_json`` of results).
+
+    Examples
+    --------
+    >>> load_json('{"selected": ["ph"]}')
+    {'selected': ['ph']}
+    """
+    if isinstance(text, os.PathLike) or (
+        isinstance(text, str) and not text.lstrip().startswith("{")
+    ):
+        text = Path(text).read_text(encoding="utf-8")
+    return json.loads(text)
 
 
 def _nan(x: float | None) -> float:

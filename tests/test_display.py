@@ -160,3 +160,37 @@ def test_html_shows_the_references_beside_the_answer(objects):
     assert "Beside the references" in html
     for name, ref in refs.items():
         assert f"<td>{name}</td>" in html and f"{ref['score_mean']:.4f}" in html
+
+
+def test_reprs_say_the_nested_score_the_headline_and_the_interval(objects):
+    import dataclasses
+
+    from scipy import stats
+
+    guarded = dataclasses.replace(objects["result"], guard={
+        "name": "nested", "nested_scores": [0.9, 0.94, 0.92], "nested_mean": 0.92})
+    # Reference: numpy's mean of the guard's outer-fold scores, labelled nested.
+    assert f"{np.mean([0.9, 0.94, 0.92]):.4f} nested" in repr(guarded)
+    fr = objects["frontier"]
+    head = fr.results[fr.headline_index]
+    assert f"headline {head.selected[:3]!r}"[:-1] in repr(fr)
+    assert f"at {head.cost:g} EUR" in repr(fr) and "Headline (pick" in fr._repr_html_()
+    ne = objects["nested"]
+    k, s = len(ne.outer_scores), np.std(ne.outer_scores, ddof=1)
+    # Reference: the corrected resampled t interval (Nadeau & Bengio 2003) from scipy's t.
+    half = stats.t.ppf(0.975, k - 1) * math.sqrt((1 / k + ne.test_train_ratio) * s**2)
+    assert (f"95% CI {np.mean(ne.outer_scores) - half:.3f}-"
+            f"{np.mean(ne.outer_scores) + half:.3f}") in repr(ne)
+    again = type(ne).from_json(ne.to_json())
+    assert repr(again) == repr(ne) and again._repr_html_() == ne._repr_html_()
+
+
+def test_problem_repr_stays_short_with_a_long_pipeline():
+    from sklearn.impute import SimpleImputer
+    from sklearn.pipeline import make_pipeline
+    from sklearn.preprocessing import MinMaxScaler, StandardScaler
+
+    X, y = load_iris(return_X_y=True)
+    model = make_pipeline(SimpleImputer(), StandardScaler(), MinMaxScaler(), GaussianNB())
+    text = repr(SelectionProblem(X, y, model, cv=3, groups=np.arange(150) % 5))
+    assert len(text) < 200 and "GaussianNB" in text and "grouped" in text, text
