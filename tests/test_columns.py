@@ -143,6 +143,8 @@ def test_yaml_categorical_columns_with_one_hot_match_python(tmp_path, lab):
 
 def test_relevance_scores_categorical_columns_by_contingency_table(lab):
     from scipy.stats import chi2_contingency
+    from scipy.stats import f as f_dist
+    from sklearn.metrics import mutual_info_score
 
     from featuresift.filters import relevance_scores
 
@@ -150,13 +152,22 @@ def test_relevance_scores_categorical_columns_by_contingency_table(lab):
     X = frame[["ph", "grade", "site"]].copy()
     X.loc[X.index[::11], "grade"] = np.nan  # a missing category is left out of the table
     rel = relevance_scores(X, y, "anova_f")
+    chi2 = relevance_scores(X, y, "chi2")
+    mi = relevance_scores(X, y, "mutual_info")
     for j, col in ((1, "grade"), (2, "site")):
         keep = X[col].notna().to_numpy()
         table = pd.crosstab(X[col][keep].astype(str), y[keep]).to_numpy()
         # Reference: scipy's test of independence, without the continuity correction.
         stat, p, _, _ = chi2_contingency(table, correction=False)
-        assert rel.scores[j] == pytest.approx(stat, rel=1e-12)
+        assert chi2.scores[j] == pytest.approx(stat, rel=1e-12)
         assert rel.pvalues[j] == pytest.approx(p, rel=1e-9)
+        # On ANOVA's scale: the F(k - 1, n - k) with that p-value (scipy's F law), so it
+        # ranks beside the numeric columns' F (it was the chi-square statistic).
+        k, n = 2, int(keep.sum())
+        assert f_dist.sf(rel.scores[j], k - 1, n - k) == pytest.approx(p, rel=1e-6)
+        # On mutual information's scale: scikit-learn's plug-in MI of the table, in nats.
+        assert mi.scores[j] == pytest.approx(
+            mutual_info_score(X[col][keep].astype(str), y[keep]), rel=1e-10)
     # The numeric column keeps the scorer's own statistic (ANOVA F, scikit-learn's f_classif).
     from sklearn.feature_selection import f_classif
 
@@ -178,3 +189,16 @@ def test_missing_target_or_group_is_named_with_its_rows(lab):
     farms[7] = pd.NA  # before: "TypeError: boolean value of NA is ambiguous"
     with pytest.raises(InputError, match=r"groups has 1 missing value \(row 7\)"):
         MeasurementSelector(model, cv=3).fit(frame[["ph"]], y, groups=farms)
+
+
+def test_screen_and_report_score_categories_by_table_whatever_their_order(lab):
+    from featuresift.filters import feature_report, prescreen, relevance_scores
+
+    frame, y = lab
+    X = frame[["ph", "grade", "noise"]]
+    other = X.assign(grade=X["grade"].cat.reorder_categories(["C", "A", "B"]))
+    rel = relevance_scores(X, y, "anova_f").scores[1]
+    for data in (X, other):  # before: ANOVA F of the codes, which move with the order
+        assert prescreen(data, y, keep=2).table["relevance"][1] == pytest.approx(rel)
+        report = feature_report(data, y).set_index("feature")
+        assert report.loc["grade", "relevance"] == pytest.approx(rel)

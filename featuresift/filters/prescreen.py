@@ -49,7 +49,7 @@ from featuresift.filters._common import (
     resolve_cost_model,
     unit_costs,
 )
-from featuresift.filters.relevance import relevance_scores
+from featuresift.filters.relevance import categorical_columns, relevance_scores
 
 __all__ = ["ScreenResult", "prescreen", "benjamini_hochberg", "ScreenedEstimator",
            "screened_search", "SCREEN_RULES"]
@@ -192,7 +192,8 @@ def prescreen(
         raise InputError(f"screen rule '{rule}' needs keep (the number of columns to keep)")
     if rule == "fdr" and not (isinstance(alpha, (int, float)) and 0 < alpha < 1):
         raise InputError(f"alpha must be in (0, 1), got {alpha!r}")
-    rel = relevance_scores(Xa, ya, relevance, task=task, **(relevance_options or {}))
+    rel = relevance_scores(Xa, ya, relevance, task=task, categorical=categorical_columns(X),
+                           **(relevance_options or {}))
     costs = unit_costs(cm, cost_basis)
     ratio = per_cost(rel.scores, costs)
     p = Xa.shape[1]

@@ -69,7 +69,8 @@ method - a wrapper search - finds such pairs.
 from __future__ import annotations
 
 import inspect
-from collections.abc import Callable
+import math
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -700,7 +701,7 @@ def _split_spec(spec: Any) -> tuple[Any, dict]:
 
 def relevance_scores(
     X: Any, y: Any, scorer: str | dict | ScorerFn = "anova_f", task: str | None = None,
-    **options: Any,
+    *, categorical: Sequence[int] | None = None, **options: Any,
 ) -> Relevance:
     """Score every column with a registered scorer (name or mapping) or a callable.
 
@@ -713,12 +714,26 @@ def relevance_scores(
         ``scorer(X, y, **options) -> (scores, pvalues_or_None)``.
     task : {"classification", "regression"}, optional
         Inferred from ``y`` when not given; passed on to scorers that accept it.
+    categorical : sequence of int, optional
+        Positions of categorical (or text) columns when ``X`` holds their codes as
+        numbers; default: a DataFrame's category and text columns.
     **options
         Passed to the scorer.
 
     Returns
     -------
     Relevance
+
+    Notes
+    -----
+    Categories have no order or scale, so a categorical column is judged by its
+    category-by-class table (category-by-quantile-bin of ``y`` for a numeric target):
+    the p-value is the Pearson chi-square test's, and the score is put on the scorer's
+    own scale so that columns still rank together: the chi-square statistic for
+    ``chi2`` / ``chi2_frequency``, the table's plug-in mutual information (nats) for
+    ``mutual_info``, and for ``anova_f``, ``pearson`` and ``spearman`` the statistic
+    (F, or ``|r|``) whose p-value equals the table test's. Other scorers score the codes
+    as they are.
 
     Examples
     --------
@@ -729,7 +744,7 @@ def relevance_scores(
     2
     """
     Xa, ya, _ = check_xy(X, y)
-    categorical = _categorical_columns(X)
+    categorical = categorical_columns(X) if categorical is None else list(categorical)
     name, spec_opts = _split_spec(scorer)
     opts = {**spec_opts, **options}
     task = infer_task(ya, task)
@@ -763,14 +778,63 @@ def relevance_scores(
     if scores.shape != (p,) or (pvalues is not None and pvalues.shape != (p,)):
         raise InputError(f"relevance scorer '{label}' returned {scores.shape[0]} scores for "
                          f"{p} columns")
-    for j in categorical:  # categories have no order or scale: a contingency table
-        scores[j], pj = categorical_chi_square(Xa[:, j], ya, task)
-        if pvalues is not None:
-            pvalues[j] = pj
+    if label in _TABLE_SCALES:
+        for j in categorical:  # categories have no order or scale: a contingency table
+            scores[j], pj = _TABLE_SCALES[label](Xa[:, j], ya, task)
+            if pvalues is not None:
+                pvalues[j] = pj
     return Relevance(scores, pvalues, label, task)
 
 
-def _categorical_columns(X: Any) -> list[int]:
+def _table_target(codes: np.ndarray, y: np.ndarray, task: str,
+                  n_bins: int = 5) -> tuple[np.ndarray, np.ndarray]:
+    """Integer levels of a categorical column and of ``y`` (``n_bins`` quantile bins if
+    numeric), rows with a missing category left out."""
+    ok = ~np.isnan(codes)
+    target = y[ok]
+    if task == "regression":
+        target = discretize_matrix(np.asarray(target, dtype=float)[:, None], n_bins,
+                                   DEFAULT_MAX_LEVELS)[:, 0]
+    return codes[ok].astype(int), np.unique(target, return_inverse=True)[1]
+
+
+def _table_as_f(codes: np.ndarray, y: np.ndarray, task: str) -> tuple[float, float]:
+    """The F(k - 1, n - k) statistic with the table test's p-value (``anova_f``)."""
+    stat, p = categorical_chi_square(codes, y, task)
+    n = int((~np.isnan(codes)).sum())
+    k = np.unique(y[~np.isnan(codes)]).size
+    if k < 2 or n <= k:
+        return 0.0, p
+    return float(stats.f.isf(max(p, 1e-300), k - 1, n - k)), p
+
+
+def _table_as_r(codes: np.ndarray, y: np.ndarray, task: str) -> tuple[float, float]:
+    """The ``|r|`` whose two-sided t(n - 2) p-value is the table test's (correlations)."""
+    stat, p = categorical_chi_square(codes, y, task)
+    df = int((~np.isnan(codes)).sum()) - 2
+    if df < 1:
+        return 0.0, p
+    t = float(stats.t.isf(max(p, 1e-300) / 2, df))
+    return t / math.sqrt(df + t * t), p
+
+
+def _table_as_mi(codes: np.ndarray, y: np.ndarray, task: str) -> tuple[float, float]:
+    """The table's plug-in mutual information (nats) and its chi-square p-value."""
+    _, p = categorical_chi_square(codes, y, task)
+    levels, target = _table_target(codes, y, task)
+    return plugin_mutual_info(levels, target), p
+
+
+_TABLE_SCALES: dict[str, Callable] = {
+    "chi2": lambda c, y, task: categorical_chi_square(c, y, task),
+    "chi2_frequency": lambda c, y, task: categorical_chi_square(c, y, task),
+    "anova_f": _table_as_f, "pearson": _table_as_r, "spearman": _table_as_r,
+    "mutual_info": _table_as_mi,
+}
+"""How a categorical column's table test is put on each scorer's scale (by name)."""
+
+
+def categorical_columns(X: Any) -> list[int]:
     """Positions of a DataFrame's category and text columns (none for arrays)."""
     if not (hasattr(X, "dtypes") and hasattr(X, "columns")):
         return []
@@ -794,14 +858,9 @@ def categorical_chi_square(codes: np.ndarray, y: np.ndarray, task: str,
     >>> round(stat, 4)
     3.0
     """
-    ok = ~np.isnan(codes)
-    levels = codes[ok].astype(int)
-    target = y[ok]
-    if task == "regression":
-        target = discretize_matrix(np.asarray(target, dtype=float)[:, None], n_bins,
-                                   DEFAULT_MAX_LEVELS)[:, 0]
-    labels, tcodes = np.unique(target, return_inverse=True)
-    table = np.zeros((int(levels.max()) + 1 if levels.size else 1, labels.size))
+    levels, tcodes = _table_target(codes, y, task, n_bins)
+    table = np.zeros((int(levels.max()) + 1 if levels.size else 1,
+                      int(tcodes.max()) + 1 if tcodes.size else 0))
     np.add.at(table, (levels, tcodes), 1.0)
     stat, p, _ = pearson_chi_square_table(table)
     return stat, p

@@ -28,7 +28,7 @@ from featuresift.errors import InputError
 from featuresift.filters._common import check_xy, per_cost, resolve_cost_model, unit_costs
 from featuresift.filters.prescreen import benjamini_hochberg
 from featuresift.filters.redundancy import standardize_columns
-from featuresift.filters.relevance import relevance_scores
+from featuresift.filters.relevance import categorical_columns, relevance_scores
 from featuresift.outputs import RunFolder, write_files
 
 __all__ = ["feature_report", "write_feature_report", "REPORT_COLUMNS", "redundancy_partners"]
@@ -118,7 +118,8 @@ def feature_report(
     Xa, ya, names = check_xy(X, y)
     cm = resolve_cost_model(costs, names)
     names = list(cm.feature_names)
-    rel = relevance_scores(Xa, ya, relevance, task=task, **(relevance_options or {}))
+    rel = relevance_scores(Xa, ya, relevance, task=task, categorical=categorical_columns(X),
+                           **(relevance_options or {}))
     costs = unit_costs(cm, cost_basis)
     partner, r = redundancy_partners(Xa)
     p = Xa.shape[1]
