@@ -203,6 +203,7 @@ def run_nested_guard(
     seed: int | None,
     n_jobs: int | None,
     search_options: dict[str, Any],
+    verbose: int = 0,
 ) -> dict[str, Any]:
     """Run the nested guard for a problem; returns the guard's record (see module notes).
 
@@ -218,7 +219,7 @@ def run_nested_guard(
         problem.X, problem.y, problem.estimator, costs=problem.cost_model,
         outer_cv=spec.folds, inner_cv=inner_cv, scoring=problem.scoring,
         groups=problem.groups, feature_names=problem.feature_names, strategy=strategy,
-        seed=seed, n_jobs=n_jobs, **options,
+        seed=seed, n_jobs=n_jobs, verbose=verbose, _progress_desc="noise guard", **options,
     )
     X, y, cm = problem.X, problem.y, problem.cost_model
     # The same outer folds as nested_evaluation's (same splitter, same seed).

@@ -45,6 +45,7 @@ from sklearn.model_selection import GroupKFold, KFold, StratifiedKFold, check_cv
 from featuresift._compat import renamed_keywords
 from featuresift.costs import CostModel  # noqa: F401 - the docstring examples use it
 from featuresift.engine.evaluator import check_error_score
+from featuresift.engine.progress import OuterProgress
 from featuresift.errors import FitFailedError, InputError
 from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult, _json_safe, load_json, score_label
@@ -492,6 +493,7 @@ def nested_evaluation(
     confidence: float = 0.95,
     seed: int | None = 0,
     n_jobs: int | None = None,
+    verbose: int = 0,
     **search_options: Any,
 ) -> NestedEvaluation:
     """Estimate the performance of "search, then fit" without selection bias.
@@ -517,6 +519,10 @@ def nested_evaluation(
     seed : int, default=0
         Seed of the outer shuffles (repeat r: seed + r) and of the searches.
     n_jobs : int, optional
+    verbose : int, default=0
+        Progress of the outer searches: 1 shows a bar in a terminal or notebook, or one
+        line per outer search when standard error is piped; 0 is silent. The searches
+        inside run without their own display.
     **search_options
         Passed to :func:`featuresift.run_search` (budget, objective, pick, limits, ...).
 
@@ -565,42 +571,49 @@ def nested_evaluation(
     error_score = check_error_score(search_options.get("error_score", math.nan))
     outer_scores, inner_scores, selected, costs, results = [], [], [], [], []
     outer_failures: list[dict[str, Any]] = []
-    for i, (train, test, rep) in enumerate(splits):
-        inner = SelectionProblem(
-            Xa[train], ya[train], estimator, costs=full.cost_model, cv=inner_cv,
-            scoring=scoring, groups=None if g is None else g[train], feature_names=names,
-        )
-        try:
-            res = run_search(inner, strategy, n_jobs=n_jobs, **search_options)
-        except FitFailedError as exc:  # say in which outer search
-            raise FitFailedError(f"outer fold {i} (0-based), inner search: {exc}",
-                                 exc.subset, exc.fold, exc.reason) from None
-        if res.failures.get("none_scored"):
-            raise FitFailedError(f"outer fold {i} (0-based): {res.failures['message']}")
-        if not res.support and not res.fold_scores:
-            raise InputError("the search found no allowed subset in an outer fold "
-                             f"({res.stop_reason})")
-        try:
-            score = _fit_score(estimator, scorer, Xa[train], ya[train], Xa[test], ya[test],
-                               list(res.support), classification)
-            if not math.isfinite(score):
-                raise ValueError(f"the score is {score} (undefined on this test fold)")
-        except Exception as exc:  # noqa: BLE001 - counted and reported, or raised
-            reason = f"{type(exc).__name__}: {exc}"
-            where = f"outer fold {i} (0-based), refit on [{', '.join(res.selected)}]"
-            if policy == "raise":
-                raise FitFailedError(f"{where} failed: {reason}", tuple(res.support), i,
-                                     reason) from None
-            score = error_score
-            outer_failures.append({
-                "outer_fold": i, "repeat": int(rep), "features": list(res.selected),
-                "error": " ".join(reason.split())[:300],
-                "scored_as": None if math.isnan(error_score) else error_score})
-        outer_scores.append(float(score))
-        inner_scores.append(res.score_mean)
-        selected.append(res.selected)
-        costs.append(res.cost)
-        results.append(res)
+    search_options["verbose"] = 0  # one display for the outer searches (below)
+    progress = OuterProgress(verbose, total=len(splits),
+                             desc=search_options.pop("_progress_desc", "nested CV"))
+    try:
+        for i, (train, test, rep) in enumerate(splits):
+            inner = SelectionProblem(
+                Xa[train], ya[train], estimator, costs=full.cost_model, cv=inner_cv,
+                scoring=scoring, groups=None if g is None else g[train], feature_names=names,
+            )
+            try:
+                res = run_search(inner, strategy, n_jobs=n_jobs, **search_options)
+            except FitFailedError as exc:  # say in which outer search
+                raise FitFailedError(f"outer fold {i} (0-based), inner search: {exc}",
+                                     exc.subset, exc.fold, exc.reason) from None
+            if res.failures.get("none_scored"):
+                raise FitFailedError(f"outer fold {i} (0-based): {res.failures['message']}")
+            if not res.support and not res.fold_scores:
+                raise InputError("the search found no allowed subset in an outer fold "
+                                 f"({res.stop_reason})")
+            try:
+                score = _fit_score(estimator, scorer, Xa[train], ya[train], Xa[test], ya[test],
+                                   list(res.support), classification)
+                if not math.isfinite(score):
+                    raise ValueError(f"the score is {score} (undefined on this test fold)")
+            except Exception as exc:  # noqa: BLE001 - counted and reported, or raised
+                reason = f"{type(exc).__name__}: {exc}"
+                where = f"outer fold {i} (0-based), refit on [{', '.join(res.selected)}]"
+                if policy == "raise":
+                    raise FitFailedError(f"{where} failed: {reason}", tuple(res.support), i,
+                                         reason) from None
+                score = error_score
+                outer_failures.append({
+                    "outer_fold": i, "repeat": int(rep), "features": list(res.selected),
+                    "error": " ".join(reason.split())[:300],
+                    "scored_as": None if math.isnan(error_score) else error_score})
+            outer_scores.append(float(score))
+            progress.done(res.selected, float(score))
+            inner_scores.append(res.score_mean)
+            selected.append(res.selected)
+            costs.append(res.cost)
+            results.append(res)
+    finally:
+        progress.close()
     freq = {n: sum(n in s for s in selected) / len(selected) for n in names}
     try:
         stab = nogueira_stability([res.support for res in results], len(names))

@@ -389,7 +389,7 @@ def _reference_record(space: SearchSpace, sc: Scored) -> dict[str, Any]:
     }
 
 
-def _guard(spec, evaluator, strat, space, pick, seed, answer, refs, references):
+def _guard(spec, evaluator, strat, space, pick, seed, answer, refs, references, verbose=0):
     """Run the noise guard; returns (the answer, the guard's record)."""
     if spec is None:
         return answer, {"name": "off", "decision": "off", "n_fits": 0}
@@ -427,7 +427,7 @@ def _guard(spec, evaluator, strat, space, pick, seed, answer, refs, references):
     }
     record.update(run_nested_guard(spec, evaluator.problem, strat, space.objective,
                                    seed=seed, n_jobs=evaluator.n_jobs,
-                                   search_options=options))
+                                   search_options=options, verbose=verbose))
     if record["passed"]:
         record["decision"] = "kept: the answer beats the fallback on the outer folds"
         return answer, record
@@ -481,7 +481,7 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
     guard_info: dict[str, Any] = {"name": "off", "decision": "off", "n_fits": 0}
     if best is not None:
         best, guard_info = _guard(guard_spec, evaluator, strat, space, pick, seed,
-                                  best, refs, references)
+                                  best, refs, references, verbose)
     for n, sc in refs.items():
         references[n]["is_answer"] = best is not None and sc.subset == best.subset
     path = [

@@ -64,3 +64,29 @@ def test_best_so_far_counts_only_affordable_subsets(problem, capsys, monkeypatch
     affordable = frame[(frame["n"] <= 1) & (frame["status"] == "complete")]
     assert f"best {affordable['mean'].max():.4f} in-search" in last
     assert frame["mean"].max() > affordable["mean"].max()  # the case this guards
+
+
+def test_noise_guard_and_nested_cv_show_one_line_per_outer_search(capsys, monkeypatch):
+    # Pure noise: the in-search screen cannot accept, so the guard runs its 5 outer
+    # searches; it used to do so in silence after the search's last step line.
+    import numpy as np
+
+    from featuresift.nested import nested_evaluation
+
+    monkeypatch.setattr(progress, "interactive", lambda: False)
+    rng = np.random.default_rng(0)
+    X, y = rng.normal(size=(60, 4)), np.repeat([0, 1], 30)
+    res = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), "forward", verbose=1)
+    assert res.guard["stage"] == "nested"
+    lines = [ln for ln in capsys.readouterr().err.splitlines() if ln.startswith("noise guard")]
+    assert [ln.split(" done")[0] for ln in lines] == [
+        f"noise guard: outer search {k} of 5" for k in range(1, 6)]
+    ne = nested_evaluation(X, y, GaussianNB(), outer_cv=3, inner_cv=3, strategy="forward",
+                           n_features=1, verbose=1)
+    err = capsys.readouterr().err.splitlines()
+    # Only the outer lines: the searches inside run without their own display.
+    assert len(err) == 3 and err[-1].startswith("nested CV: outer search 3 of 3 done")
+    assert f"outer score {ne.outer_scores[-1]:.4f} (nested)" in err[-1]
+    nested_evaluation(X, y, GaussianNB(), outer_cv=3, inner_cv=3, strategy="forward",
+                      n_features=1)
+    assert capsys.readouterr().err == ""

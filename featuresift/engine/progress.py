@@ -17,9 +17,10 @@ that says how many subsets it will evaluate; with a time limit, the time left of
 from __future__ import annotations
 
 import sys
+from collections.abc import Sequence
 from typing import Any
 
-__all__ = ["make_progress", "interactive", "SearchProgress"]
+__all__ = ["make_progress", "interactive", "SearchProgress", "OuterProgress"]
 
 
 def interactive() -> bool:
@@ -176,6 +177,83 @@ class SearchProgress:
                   f"{n_features} measurement(s), {self.n} subsets evaluated, best {best} "
                   f"in-search, {self._elapsed():.1f} s, {self._left()}",
                   file=self.stream, flush=True)
+
+    def close(self) -> None:
+        """Finish the display."""
+        if self._bar is not None:
+            self._bar.close()
+            self._bar = None
+
+
+class OuterProgress:
+    """Progress of work done one outer search at a time (nested CV, the noise guard).
+
+    One bar in a terminal or notebook; when standard error is piped, one quiet line per
+    outer search done; nothing at ``verbose=0``. The outer searches themselves run
+    without their own display.
+
+    Parameters
+    ----------
+    verbose : int
+        0: off; 1: a bar when interactive, else lines; 2: always a bar.
+    total : int
+        Number of outer searches.
+    desc : str, default="nested CV"
+        What the work is, shown first ("noise guard" for the guard).
+    stream : file-like, optional
+        Where lines go (default: standard error).
+    interactive_session : bool, optional
+        Force the bar (True) or lines (False) instead of detecting the session.
+
+    Examples
+    --------
+    >>> import io
+    >>> out = io.StringIO()
+    >>> bar = OuterProgress(1, total=5, desc="noise guard", stream=out,
+    ...                     interactive_session=False)
+    >>> bar.done(["protein", "moisture"], 0.8731)
+    >>> bar.close()
+    >>> print(out.getvalue().split(", ")[0])
+    noise guard: outer search 1 of 5 done — 2 measurement(s)
+    """
+
+    def __init__(self, verbose: int, total: int, desc: str = "nested CV",
+                 stream: Any = None, interactive_session: bool | None = None) -> None:
+        import time
+
+        self.verbose = int(verbose)
+        self.total = int(total)
+        self.desc = desc
+        self.stream = stream if stream is not None else sys.stderr
+        self.n = 0
+        self._t0 = time.perf_counter()
+        live = interactive() if interactive_session is None else interactive_session
+        self.mode = ("off" if self.verbose <= 0 else
+                     "bar" if self.verbose >= 2 or live else "lines")
+        self._bar = None
+        if self.mode == "bar":
+            from tqdm.auto import tqdm
+
+            self._bar = tqdm(total=self.total, desc=desc, unit="outer search",
+                             dynamic_ncols=True, leave=True)
+
+    def done(self, selected: Sequence[str], outer_score: float) -> None:
+        """Record one finished outer search: its answer and its outer-fold score."""
+        import time
+
+        if self.mode == "off":
+            return
+        self.n += 1
+        elapsed = time.perf_counter() - self._t0
+        left = elapsed / self.n * max(self.total - self.n, 0)
+        text = (f"{len(selected)} measurement(s), outer score {outer_score:.4f} "
+                "(nested)")
+        if self._bar is not None:
+            self._bar.update(1)
+            self._bar.set_postfix_str(text)
+        else:
+            print(f"{self.desc}: outer search {self.n} of {self.total} done — {text}, "
+                  f"{elapsed:.1f} s, {left:.0f} s left", file=self.stream, flush=True)
 
     def close(self) -> None:
         """Finish the display."""
