@@ -83,6 +83,18 @@ def make_progress(total: int, verbose: int, desc: str) -> Any:
     return tqdm(total=total, desc=desc, unit="fit", leave=False, delay=0.5, dynamic_ncols=True)
 
 
+def _open_display(verbose: int, interactive_session: bool | None, total: int | None,
+                  desc: str, unit: str) -> tuple[str, Any]:
+    """The display mode ("off", "bar" or "lines") and the tqdm bar of the "bar" mode."""
+    live = interactive() if interactive_session is None else interactive_session
+    mode = "off" if verbose <= 0 else "bar" if verbose >= 2 or live else "lines"
+    if mode != "bar":
+        return mode, None
+    from tqdm.auto import tqdm
+
+    return mode, tqdm(total=total, desc=desc, unit=unit, dynamic_ncols=True, leave=True)
+
+
 class SearchProgress:
     """One progress display for a whole search.
 
@@ -125,15 +137,8 @@ class SearchProgress:
         self.best: float | None = None
         self.last = ""
         self._t0 = time.perf_counter()
-        live = interactive() if interactive_session is None else interactive_session
-        self.mode = ("off" if self.verbose <= 0 else
-                     "bar" if self.verbose >= 2 or live else "lines")
-        self._bar = None
-        if self.mode == "bar":
-            from tqdm.auto import tqdm
-
-            self._bar = tqdm(total=total, desc=desc, unit="subset", dynamic_ncols=True,
-                             leave=True)
+        self.mode, self._bar = _open_display(self.verbose, interactive_session, total, desc,
+                                             "subset")
 
     def _elapsed(self) -> float:
         import time
@@ -227,15 +232,8 @@ class OuterProgress:
         self.stream = stream if stream is not None else sys.stderr
         self.n = 0
         self._t0 = time.perf_counter()
-        live = interactive() if interactive_session is None else interactive_session
-        self.mode = ("off" if self.verbose <= 0 else
-                     "bar" if self.verbose >= 2 or live else "lines")
-        self._bar = None
-        if self.mode == "bar":
-            from tqdm.auto import tqdm
-
-            self._bar = tqdm(total=self.total, desc=desc, unit="outer search",
-                             dynamic_ncols=True, leave=True)
+        self.mode, self._bar = _open_display(self.verbose, interactive_session, self.total,
+                                             desc, "outer search")
 
     def done(self, selected: Sequence[str], outer_score: float) -> None:
         """Record one finished outer search: its answer and its outer-fold score."""
