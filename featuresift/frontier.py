@@ -831,8 +831,10 @@ def budget_sweep(
     evaluator : BaseEvaluator, optional
         An evaluator to share; default a new :class:`CrossValidationEvaluator` built
         with the engine options found in ``search_options`` (``racing``, ``journal``,
-        ``chunk_size``, ``verbose``, ``on_fit_error``, ``share_preprocessing``,
-        ``fast_path``, ``pool``, ``warm_start``, ``error_score``).
+        ``chunk_size``, ``on_fit_error``, ``share_preprocessing``, ``fast_path``,
+        ``pool``, ``warm_start``, ``error_score``). ``verbose`` shows each budget's
+        search (one bar, or one line per step when output is piped; see
+        :class:`~featuresift.engine.progress.SearchProgress`).
     **search_options
         Passed to :func:`featuresift.run_search` (objective, pick, limits, strategy
         options...). The noise guard (``guard``) is not run per budget: it is applied
@@ -860,6 +862,9 @@ def budget_sweep(
                                or nested < 2):
         raise InputError(f"nested needs at least 2 outer folds, got {nested!r}")
     engine = {k: search_options.pop(k) for k in _ENGINE_OPTIONS if k in search_options}
+    # Progress is shown per search (one bar or one line per step, naming the budget),
+    # not per batch of the shared evaluator.
+    verbose = engine.pop("verbose", 0)
     original, objective_spec = problem, search_options.get("objective")
     owned = evaluator is None
     if evaluator is None:
@@ -878,9 +883,8 @@ def budget_sweep(
     point_options = _without_guard(search_options)
     try:
         for b in budgets:
-            res = run_search(
-                shared, strategy, costs=problem.cost_model, budget=b, **point_options
-            )
+            res = run_search(shared, strategy, costs=problem.cost_model, budget=b,
+                             verbose=verbose, **point_options)
             without_cache += res.n_evaluations * n_folds
             results.append(res)
     finally:
@@ -908,7 +912,8 @@ def budget_sweep(
             # The search at the headline's budget again (its fits are cached), now with
             # the guard: is buying measurements better than the fallback on outer folds?
             res = run_search(shared, strategy, costs=problem.cost_model,
-                             budget=budgets[head], guard=guard, **search_options)
+                             budget=budgets[head], guard=guard, verbose=verbose,
+                             **search_options)
             frontier.guard = dict(res.guard)
             if res.guard.get("replaced"):
                 frontier.guard["fallback"] = next(

@@ -458,8 +458,9 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
     limited = False
     expected = getattr(strat, "expected_evaluations", None)
     total = expected(space) if callable(expected) else None
-    space.progress = SearchProgress(verbose, total=total or max_evaluations,
-                                    max_time_s=max_time_s, desc=strat.name)
+    space.progress = SearchProgress(
+        verbose, total=total or max_evaluations, max_time_s=max_time_s,
+        desc=strat.name + ("" if budget is None else f" (budget {budget:g})"))
     refs: dict[str, Scored] = {}
     try:
         # References first: the strategy then gets them from the cache, and the limits

@@ -90,3 +90,14 @@ def test_noise_guard_and_nested_cv_show_one_line_per_outer_search(capsys, monkey
     nested_evaluation(X, y, GaussianNB(), outer_cv=3, inner_cv=3, strategy="forward",
                       n_features=1)
     assert capsys.readouterr().err == ""
+
+
+def test_a_sweep_shows_each_budgets_search_not_per_batch_bars(problem, capsys, monkeypatch):
+    from featuresift import budget_sweep
+
+    monkeypatch.setattr(progress, "interactive", lambda: False)
+    fr = budget_sweep(problem, [1, 2], "forward", guard="off", verbose=1)
+    lines = capsys.readouterr().err.strip().splitlines()  # before: nothing at all
+    assert len(lines) == sum(len(r.path) for r in fr.results)
+    assert lines[0].startswith("forward (budget 1) step 0: add ")
+    assert lines[-1].startswith("forward (budget 2) step ")
