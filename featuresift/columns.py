@@ -228,10 +228,33 @@ class TypedColumns(MetaEstimatorMixin, BaseEstimator):
     def fit(self, X: Any, y: Any, **fit_params: Any) -> TypedColumns:
         frame = self._frame(X)
         self.estimator_ = narrow_column_transformer(clone(self.estimator), list(frame.columns))
-        self.estimator_.fit(frame, y, **fit_params)
+        try:
+            self.estimator_.fit(frame, y, **fit_params)
+        except (ValueError, TypeError) as exc:
+            hint = self._encoding_hint(frame, exc)
+            if hint is None:
+                raise
+            raise type(exc)(f"{exc} [{hint}]") from exc
         if hasattr(self.estimator_, "classes_"):
             self.classes_ = self.estimator_.classes_
         return self
+
+    def _encoding_hint(self, frame: Any, exc: Exception) -> str | None:
+        """What to do when the model refused text or categories (None: another error)."""
+        words = str(exc).lower()
+        if not any(w in words for w in ("string to float", "non-numeric", "categor",
+                                        "dtype")):
+            return None
+        cols = range(len(self.names)) if self.columns is None else self.columns
+        typed = [self.names[c] for c in cols if self.specs[c].kind != "numeric"]
+        if not typed:
+            return None
+        return (f"column(s) {', '.join(typed)} hold categories or text, which this model "
+                "cannot take as they are: encode them in the model, e.g. make_pipeline("
+                "ColumnTransformer([('onehot', OneHotEncoder(handle_unknown='ignore'), "
+                f"{typed!r})], remainder='passthrough'), model), or use a model with "
+                "native categories such as HistGradientBoostingClassifier("
+                "categorical_features='from_dtype')")
 
     def predict(self, X: Any) -> Any:
         return self.estimator_.predict(self._frame(X))

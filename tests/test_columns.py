@@ -202,3 +202,24 @@ def test_screen_and_report_score_categories_by_table_whatever_their_order(lab):
         assert prescreen(data, y, keep=2).table["relevance"][1] == pytest.approx(rel)
         report = feature_report(data, y).set_index("feature")
         assert report.loc["grade", "relevance"] == pytest.approx(rel)
+
+
+def test_a_model_that_refuses_categories_says_how_to_encode_them(lab):
+    from featuresift.errors import FitFailedError
+
+    frame, y = lab
+    X = frame[["ph", "grade"]]
+    with pytest.raises(FitFailedError) as info:
+        run_search(SelectionProblem(X, y, LogisticRegression(), cv=3), "forward",
+                   guard="off")
+    text = str(info.value)
+    # scikit-learn's own words stay; the hint names the column and the encoder to use.
+    assert "could not convert string to float" in text
+    assert "grade hold categories" in text and "OneHotEncoder" in text
+    advised = make_pipeline(ColumnTransformer(
+        [("onehot", OneHotEncoder(handle_unknown="ignore"), ["grade"])],
+        remainder="passthrough"), LogisticRegression())
+    problem = SelectionProblem(X, y, advised, cv=3)
+    # Reference: scikit-learn's cross_val_score of the advised pipeline on the same folds.
+    assert _scores(problem, (0, 1)) == pytest.approx(
+        list(cross_val_score(advised, X, y, cv=problem.cv)), abs=1e-12)
