@@ -223,3 +223,18 @@ def test_a_model_that_refuses_categories_says_how_to_encode_them(lab):
     # Reference: scikit-learn's cross_val_score of the advised pipeline on the same folds.
     assert _scores(problem, (0, 1)) == pytest.approx(
         list(cross_val_score(advised, X, y, cv=problem.cv)), abs=1e-12)
+
+
+def test_budgeted_greedy_scores_categories_by_table_whatever_their_order(lab):
+    from featuresift.filters import budgeted_greedy, relevance_scores
+
+    frame, y = lab
+    X = frame[["ph", "grade", "noise"]]
+    other = X.assign(grade=X["grade"].cat.reorder_categories(["C", "A", "B"]))
+    # Reference: relevance_scores on the frame (the table test on ANOVA's scale, checked
+    # against scipy above); before, the greedy took ANOVA F of the category codes.
+    rel = relevance_scores(X, y, "anova_f").scores[1]
+    for data in (X, other):
+        sel = budgeted_greedy(data, y, relevance="anova_f", n_features=3)
+        step = next(s for s in sel.steps if s.feature == "grade")
+        assert step.relevance == pytest.approx(rel)

@@ -60,7 +60,7 @@ from featuresift.costs import CostModel  # noqa: F401 - the docstring examples u
 from featuresift.errors import InputError
 from featuresift.filters._common import check_xy, cost_arrays, resolve_cost_model
 from featuresift.filters.redundancy import BasePenalty, RunningRedundancy, make_penalty
-from featuresift.filters.relevance import relevance_scores
+from featuresift.filters.relevance import categorical_columns, relevance_scores
 from featuresift.search import _resolve_features
 
 __all__ = ["FilterStep", "FilterSelection", "budgeted_greedy", "mrmr", "FORMS", "COST_RULES"]
@@ -221,7 +221,8 @@ def _check_weight(weight: Any) -> float:
     return float(weight)
 
 
-def _resolve_relevance(relevance: Any, X, y, task, options, p) -> tuple[np.ndarray, str]:
+def _resolve_relevance(relevance: Any, X, y, task, options, p,
+                       categorical=None) -> tuple[np.ndarray, str]:
     if isinstance(relevance, np.ndarray) or isinstance(relevance, (list, tuple)):
         scores = np.asarray(relevance, dtype=float)
         if scores.shape != (p,):
@@ -229,7 +230,8 @@ def _resolve_relevance(relevance: Any, X, y, task, options, p) -> tuple[np.ndarr
         return scores, "precomputed"
     if y is None:
         raise InputError("y is needed to compute relevance (or pass precomputed scores)")
-    rel = relevance_scores(X, y, relevance, task=task, **(options or {}))
+    rel = relevance_scores(X, y, relevance, task=task, categorical=categorical,
+                           **(options or {}))
     return rel.scores, rel.scorer
 
 
@@ -412,7 +414,8 @@ def budgeted_greedy(
     if budget is not None and not cm.is_feasible(start, budget):
         raise InputError(f"the must_include features cost {cm.cost(start):g} {cm.unit}, above "
                          f"the budget {budget:g}", key="must_include")
-    rel, rel_name = _resolve_relevance(relevance, Xa, y_used, task, relevance_options, p)
+    rel, rel_name = _resolve_relevance(relevance, Xa, y_used, task, relevance_options, p,
+                                       categorical_columns(X))
     if np.isnan(rel).any():
         raise InputError(f"relevance scores contain NaN (column "
                          f"'{names[int(np.where(np.isnan(rel))[0][0])]}')")

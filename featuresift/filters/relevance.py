@@ -805,7 +805,12 @@ def _table_as_f(codes: np.ndarray, y: np.ndarray, task: str) -> tuple[float, flo
     k = np.unique(y[~np.isnan(codes)]).size
     if k < 2 or n <= k:
         return 0.0, p
-    return float(stats.f.isf(max(p, 1e-300), k - 1, n - k)), p
+    if p <= 0.0:  # beyond double precision: as ANOVA's F of a separating column
+        return math.inf, p
+    # F's upper quantile through the incomplete beta function: scipy's f.isf loses it
+    # below p ~ 1e-16 (inf), the beta inverse does not.
+    z = float(special.betaincinv((n - k) / 2, (k - 1) / 2, p))
+    return (n - k) * (1.0 - z) / ((k - 1) * z), p
 
 
 def _table_as_r(codes: np.ndarray, y: np.ndarray, task: str) -> tuple[float, float]:
@@ -814,7 +819,9 @@ def _table_as_r(codes: np.ndarray, y: np.ndarray, task: str) -> tuple[float, flo
     df = int((~np.isnan(codes)).sum()) - 2
     if df < 1:
         return 0.0, p
-    t = float(stats.t.isf(max(p, 1e-300) / 2, df))
+    if p <= 0.0:
+        return 1.0, p
+    t = float(stats.t.isf(p / 2, df))
     return t / math.sqrt(df + t * t), p
 
 
