@@ -363,7 +363,9 @@ def nested_html(ne: Any) -> str:
                                                    ne.scoring, "in-search")
            + f"; optimism {ne.optimism:+.4f}."),
         _p("Stability of the choice (Nogueira): "
-           + ("undefined" if ne.stability is None else f"{ne.stability:.3f}")),
+           + ("undefined" if ne.stability is None else f"{ne.stability:.3f}")
+           + f"; every outer search under the budget {_money(getattr(ne, 'budget', None))}"
+           + f" {ne.cost_unit}, seed {getattr(ne, 'seed', None)}."),
         _table(
             ["outer fold", "chosen measurements", f"cost ({ne.cost_unit})",
              f"nested {ne.scoring}", f"in-search {ne.scoring}"],

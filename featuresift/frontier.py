@@ -529,8 +529,6 @@ class Frontier:
         if "results" not in data or "points" not in data:
             raise ValueError("not a featuresift frontier: 'points' and 'results' are needed")
         nested = data.get("nested")
-        if nested is not None:
-            nested = {k: v for k, v in nested.items() if k != "budget"}
         return cls(
             budgets=[p["budget"] for p in data["points"]],
             results=[SearchResult.from_dict(r) for r in data["results"]],

@@ -204,6 +204,10 @@ class NestedEvaluation:
         Confidence interval of the nested score (:func:`corrected_t_interval`).
     test_train_ratio : float
         Mean ``n_test / n_train`` of the outer splits (used by the interval).
+    seed : int or None
+        The seed of the outer shuffles and of the searches (recorded in ``nested.json``).
+    budget : float or None
+        The budget every outer search ran under (None: unlimited).
 
     Examples
     --------
@@ -241,6 +245,8 @@ class NestedEvaluation:
     test_train_ratio: float = float("nan")
     inner_failed_fits: list[int] = field(default_factory=list)
     outer_failures: list[dict[str, Any]] = field(default_factory=list)
+    seed: int | None = 0
+    budget: float | None = None
 
     @property
     def outer_mean(self) -> float:
@@ -427,6 +433,8 @@ class NestedEvaluation:
             test_train_ratio=float(data.get("test_train_ratio") or math.nan),
             inner_failed_fits=[int(n) for n in data.get("inner_failed_fits", [])],
             outer_failures=[dict(f) for f in data.get("outer_failures", [])],
+            seed=data.get("seed"),
+            budget=data.get("budget"),
         )
 
     def to_json(self, indent: int = 2) -> str:
@@ -473,6 +481,8 @@ class NestedEvaluation:
             "inner_failed_fits": self.inner_failed_fits,
             "n_failed_inner_fits": self.n_failed_inner_fits,
             "outer_failures": self.outer_failures,
+            "seed": self.seed,
+            "budget": self.budget,
         }
 
 
@@ -641,4 +651,6 @@ def nested_evaluation(
         test_train_ratio=ratio,
         inner_failed_fits=[int(r.failures.get("n_failed_fits", 0)) for r in results],
         outer_failures=outer_failures,
+        seed=seed,
+        budget=search_options.get("budget"),
     )

@@ -183,6 +183,7 @@ def test_reprs_say_the_nested_score_the_headline_and_the_interval(objects):
             f"{np.mean(ne.outer_scores) + half:.3f}") in repr(ne)
     again = type(ne).from_json(ne.to_json())
     assert repr(again) == repr(ne) and again._repr_html_() == ne._repr_html_()
+    assert (again.seed, again.budget) == (0, 3.0) and "budget 3 EUR, seed 0" in ne._repr_html_()
 
 
 def test_problem_repr_stays_short_with_a_long_pipeline():
