@@ -25,7 +25,7 @@ from featuresift.columns import needs_frame
 from featuresift.costs import CostModel, make_cost_model
 from featuresift.errors import FitFailedError, InputError
 from featuresift.guard import DEFAULT_GUARD
-from featuresift.problem import SelectionProblem
+from featuresift.problem import SelectionProblem, _is_group_splitter
 from featuresift.search import DEFAULT_PICK, run_search
 
 __all__ = ["MeasurementSelector", "BuyNothingWarning", "build_cost_model"]
@@ -333,6 +333,13 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
             warn_renamed("MeasurementSelector", "random_state", "seed", stacklevel=2)
             seed = self.random_state
         cost_model = make_cost_model(names, self.costs, self.panels, self.cost_unit)
+        if groups is None and _is_group_splitter(self.cv):
+            raise InputError(
+                f"{type(self.cv).__name__} needs group labels: fit(X, y, groups=g). Inside a "
+                "Pipeline, GridSearchCV or cross_validate: sklearn.set_config("
+                "enable_metadata_routing=True), selector.set_fit_request(groups=True), then "
+                "pass the groups to the outer call (cross_validate(..., params={'groups': "
+                "g}), GridSearchCV.fit(X, y, groups=g))", key="groups")
         if groups is not None:
             groups = np.asarray(groups)
             if groups.ndim != 1 or groups.shape[0] != X.shape[0]:

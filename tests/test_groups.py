@@ -63,6 +63,10 @@ def test_grouped_splitter_without_groups_and_too_few_groups(grouped):
         SelectionProblem(X, y, GaussianNB(), cv=GroupKFold(3))
     with pytest.raises(InputError, match="fewer than cv = 5"):
         SelectionProblem(X, y, GaussianNB(), cv=5, groups=np.arange(180) % 3)
+    # In a pipeline without metadata routing the selector gets no groups: say how to route.
+    pipe = make_pipeline(MeasurementSelector(GaussianNB(), cv=GroupKFold(3)), GaussianNB())
+    with pytest.raises(InputError, match=r"set_fit_request\(groups=True\)"):
+        pipe.fit(X, y)
 
 
 def test_selector_takes_groups_in_fit_and_with_group_kfold(grouped):
@@ -82,7 +86,8 @@ def test_selector_routes_groups_in_cross_validate_and_grid_search(grouped):
     X, y, g = grouped
     with sklearn.config_context(enable_metadata_routing=True):
         # The selector's own CV is GroupKFold: it fails unless groups reach its fit.
-        sel = MeasurementSelector(GaussianNB(), cv=GroupKFold(3), budget=2)
+        # Noise guard off inside a grid search, as the README advises (5x the fits).
+        sel = MeasurementSelector(GaussianNB(), cv=GroupKFold(3), budget=2, guard="off")
         pipe = make_pipeline(sel.set_fit_request(groups=True), GaussianNB())
         out = cross_validate(pipe, X, y, cv=GroupKFold(3), params={"groups": g},
                              return_estimator=True)
