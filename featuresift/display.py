@@ -123,12 +123,13 @@ def _p(text: str) -> str:
 
 
 # ------------------------------------------------------------------ references
-def references_of(result: Any) -> list[tuple[str, float | None, float | None]]:
-    """``(name, cost, score)`` of the reference answers stored with a result.
+def references_of(result: Any) -> list[tuple[str, float | None, float | None, str]]:
+    """``(name, cost, score, note)`` of the reference answers stored with a result.
 
     The references ("nothing", "free only", "everything") are kept in the result
     (attribute ``references`` or ``extras["references"]``) as a mapping of name to a
     record with ``cost`` and ``score_mean`` (or ``score``); an empty list when absent.
+    The note says whether the reference is the answer, or not allowed as one.
     """
     refs = getattr(result, "references", None)
     if not refs:
@@ -145,7 +146,9 @@ def references_of(result: Any) -> list[tuple[str, float | None, float | None]]:
             score = get("score")
             if isinstance(score, Mapping):
                 score = score.get("mean")
-        out.append((str(name), get("cost"), score))
+        note = ("the answer" if get("is_answer") else
+                "not allowed (budget or limits)" if get("allowed") is False else "")
+        out.append((str(name), get("cost"), score, note))
     return out
 
 
@@ -165,13 +168,18 @@ def result_repr(res: Any) -> str:
     """  # noqa: E501
     strategy = res.strategy.get("name") if isinstance(res.strategy, Mapping) else res.strategy
     guard = getattr(res, "guard", None) or {}
-    nested = guard.get("nested_mean") if isinstance(guard, Mapping) else None
+    guard = guard if isinstance(guard, Mapping) else {}
+    if guard.get("replaced"):  # the nested scores are of the answers the guard rejected
+        extra = " (noise guard fell back)"
+    elif guard.get("nested_mean") is not None:
+        extra = f" ({_f(guard['nested_mean'])} nested, noise guard)"
+    else:
+        extra = ""
     return (
         f"SearchResult(selected={short_list(res.selected)}, "
         f"cost={_money(res.cost)} / {_money(res.budget)} {res.cost_unit}, "
-        f"score={_f(res.score_mean)} in-search"
-        + (f" ({_f(nested)} nested, noise guard)" if nested is not None else "")
-        + f", strategy={strategy!r}, {res.n_evaluations} subsets)"
+        f"score={_f(res.score_mean)} in-search{extra}, strategy={strategy!r}, "
+        f"{res.n_evaluations} subsets)"
     )
 
 
@@ -184,7 +192,11 @@ def result_html(res: Any) -> str:
         for c in res.cost_breakdown
     ]
     rows.append(("TOTAL per sample", f"{res.cost:g}"))
+    headline = getattr(res, "headline", None)
+    answer = (f"<p><strong>{html.escape('Answer: ' + headline())}</strong></p>"
+              if callable(headline) else "")
     parts = [
+        answer,
         _p(f"Strategy {res.strategy.get('name')}; budget {_money(res.budget)} {u}; "
            f"{len(res.selected)} measurement(s) chosen."),
         _table(["chosen measurement", f"cost ({u})"], rows),
@@ -192,15 +204,23 @@ def result_html(res: Any) -> str:
                                   _sem(res.score_std, len(res.fold_scores)))),
     ]
     guard = getattr(res, "guard", None) or {}
-    if isinstance(guard, Mapping) and guard.get("nested_mean") is not None:
-        parts.append(_p("Noise guard, the search re-run on outer folds: " + score_text(
-            guard["nested_mean"], res.scoring, "nested")))
+    if isinstance(guard, Mapping) and guard.get("name", "off") != "off":
+        text = f"Noise guard: {guard.get('decision', '')}"
+        if guard.get("p_value") is not None:
+            text += f" (one-sided paired t-test p = {guard['p_value']:.3g}, alpha "
+            text += f"{guard.get('alpha')})"
+        if guard.get("nested_mean") is not None:
+            whose = ("the answers it rejected" if guard.get("replaced")
+                     else "the search's answers")
+            text += f"; on outer folds {whose} scored " + score_text(
+                guard["nested_mean"], res.scoring, "nested")
+        parts.append(_p(text + "."))
     refs = references_of(res)
     if refs:
         parts.append(_table(
-            ["reference", f"cost ({u})", f"score ({score_kind_label('in-search')})"],
-            [(name, _money(cost) if cost is not None else "-", _f(score))
-             for name, cost, score in refs],
+            ["reference", f"cost ({u})", f"score ({score_kind_label('in-search')})", ""],
+            [(name, _money(cost) if cost is not None else "-", _f(score), note)
+             for name, cost, score, note in refs],
             caption="Beside the references",
         ))
     parts.append(_p(f"{res.n_evaluations} subsets evaluated, {res.n_fits} model fits, "
@@ -329,7 +349,7 @@ def frontier_html(fr: Any) -> str:
         parts.append(_table(["reference", f"cost ({fr.cost_unit})",
                              f"score ({score_kind_label('in-search')})"],
                             [(n, _money(c) if c is not None else "-", _f(s))
-                             for n, c, s in refs], caption="Beside the references"))
+                             for n, c, s, _ in refs], caption="Beside the references"))
     parts.append(_p(f"{fr.n_fits} model fits for the sweep "
                     f"({fr.n_fits_without_cache} without sharing between budgets)."))
     return _block("featuresift budget sweep", parts)

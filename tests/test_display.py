@@ -195,3 +195,24 @@ def test_problem_repr_stays_short_with_a_long_pipeline():
     model = make_pipeline(SimpleImputer(), StandardScaler(), MinMaxScaler(), GaussianNB())
     text = repr(SelectionProblem(X, y, model, cv=3, groups=np.arange(150) % 5))
     assert len(text) < 200 and "GaussianNB" in text and "grouped" in text, text
+
+
+def test_a_fallen_back_answer_shows_the_headline_and_whose_nested_score_it_is(objects):
+    import dataclasses
+
+    res = objects["result"]
+    refs = {"nothing": {"features": [], "cost": 0.0, "score_mean": 0.3333,
+                        "is_answer": True, "allowed": True},
+            "everything": {"features": NAMES, "cost": 4.0, "score_mean": 0.95,
+                           "allowed": False}}
+    guard = {"name": "nested", "alpha": 0.05, "p_value": 0.0544, "nested_mean": 0.5625,
+             "decision": "replaced by 'nothing': no evidence that buying measurements pays",
+             "replaced": ["pw"]}
+    empty = dataclasses.replace(res, selected=[], support=[], cost=0.0, cost_breakdown=[],
+                                references=refs, guard=guard)
+    text, html = repr(empty), empty._repr_html_()
+    # The guard's nested score belongs to the rejected answer, not to 'buy nothing'.
+    assert "fell back" in text and "0.5625" not in text
+    assert "Answer: buy nothing" in html and "the answers it rejected scored 0.5625" in html
+    assert "p = 0.0544" in html
+    assert "<td>the answer</td>" in html and "<td>not allowed (budget or limits)</td>" in html
