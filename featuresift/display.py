@@ -287,17 +287,18 @@ def frontier_repr(fr: Any) -> str:
     >>> r = [NS(cost=1.0, score_mean=0.7), NS(cost=3.0, score_mean=0.9)]
     >>> fr = NS(budgets=[1, None], results=r, cost_unit="EUR", scoring="accuracy")
     >>> print(frontier_repr(fr))
-    Frontier(2 budgets from 1 to unlimited EUR, cost 1-3 EUR, accuracy 0.7000-0.9000 in-search, 2 cost-efficient)
+    Frontier(2 budgets 1-unlimited, cost 1-3, accuracy 0.7000-0.9000 in-search, 2 cost-efficient, costs in EUR)
     """  # noqa: E501
     costs = [r.cost for r in fr.results]
     scores = [r.score_mean for r in fr.results if math.isfinite(r.score_mean)]
     lo_b = min((b for b in fr.budgets if b is not None), default=None)
     hi_b = None if any(b is None for b in fr.budgets) else max(fr.budgets, default=None)
-    span = (f"cost {_span(costs, '{:g}')} {fr.cost_unit}, " if costs else "")
+    span = (f"cost {_span(costs, '{:g}')}, " if costs else "")
     score = (f"{fr.scoring} {_span(scores, '{:.4f}')} in-search, " if scores else "")
-    return (f"Frontier({len(fr.budgets)} budgets from {_money(lo_b)} to {_money(hi_b)} "
-            f"{fr.cost_unit}, {span}{score}{sum(_efficient_flags(fr))} cost-efficient"
-            f"{_frontier_headline(fr)})")
+    # The unit once, at the end: a long unit ("EUR per lot (...)") no longer triples.
+    return (f"Frontier({len(fr.budgets)} budgets {_money(lo_b)}-{_money(hi_b)}, "
+            f"{span}{score}{sum(_efficient_flags(fr))} cost-efficient"
+            f"{_frontier_headline(fr)}, costs in {fr.cost_unit})")
 
 
 def _span(values: Sequence[float], fmt: str) -> str:
@@ -316,7 +317,7 @@ def _frontier_headline(fr: Any) -> str:
     if isinstance(key, str):
         return f", headline reference {key!r}"
     r = fr.results[key]
-    return f", headline {short_list(r.selected, 3)} at {r.cost:g} {fr.cost_unit}"
+    return f", headline {short_list(r.selected, 2)} at {r.cost:g}"
 
 
 def frontier_html(fr: Any) -> str:

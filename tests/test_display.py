@@ -173,8 +173,8 @@ def test_reprs_say_the_nested_score_the_headline_and_the_interval(objects):
     assert f"{np.mean([0.9, 0.94, 0.92]):.4f} nested" in repr(guarded)
     fr = objects["frontier"]
     head = fr.results[fr.headline_index]
-    assert f"headline {head.selected[:3]!r}"[:-1] in repr(fr)
-    assert f"at {head.cost:g} EUR" in repr(fr) and "Headline (pick" in fr._repr_html_()
+    assert f"headline {head.selected[:2]!r}"[:-1] in repr(fr)
+    assert f"at {head.cost:g}, costs in EUR)" in repr(fr) and "Headline (pick" in fr._repr_html_()
     ne = objects["nested"]
     k, s = len(ne.outer_scores), np.std(ne.outer_scores, ddof=1)
     # Reference: the corrected resampled t interval (Nadeau & Bengio 2003) from scipy's t.
