@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import numbers
 import time
 from collections.abc import Callable, Iterable
 from typing import Any
@@ -321,6 +322,11 @@ warm_start : optional
     """
     pick = check_pick(pick)
     guard_spec = make_guard(guard)
+    # verbose=True is 1, as in scikit-learn; a count of features is never a bool.
+    for key, value, low in (("verbose", verbose, 0), ("max_features", max_features, 1)):
+        if value is not None and ((isinstance(value, bool) and key != "verbose")
+                                  or not isinstance(value, numbers.Integral) or value < low):
+            raise InputError(f"{key} must be an integer >= {low}, got {value!r}", key=key)
     t0 = time.perf_counter()
     objective = make_objective(objective)
     if isinstance(problem, SelectionProblem):

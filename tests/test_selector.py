@@ -224,3 +224,11 @@ def test_transform_keeps_a_categorical_frame_in_default_output():
     pd.testing.assert_frame_equal(out, X[["breed"]])
     with pytest.raises(ValueError, match="feature names"):
         sel.transform(X[["fat", "breed", "noise"]])
+
+
+@pytest.mark.parametrize("kwargs, key", [({"verbose": "yes"}, "verbose"),
+                                         ({"max_features": 0}, "max_features")])
+def test_verbose_and_max_features_are_checked(iris_frame, kwargs, key):
+    X, y = iris_frame  # before: int('yes') ValueError; max_features=0 silently bought nothing
+    with pytest.raises(InputError, match=f"{key} must be an integer"):
+        MeasurementSelector(GaussianNB(), cv=3, **kwargs).fit(X, y)
