@@ -15,6 +15,8 @@ featuresift ...
 from __future__ import annotations
 
 import argparse
+import inspect
+import json
 import math
 import sys
 import traceback
@@ -107,8 +109,12 @@ def _step_printer(stream: TextIO):
 
 # ------------------------------------------------------------------ subcommands
 def _load(args: argparse.Namespace, **overrides):
-    """load_config with the modules trusted on the command line."""
-    return load_config(args.config, trusted_modules=args.trust_module, **overrides)
+    """load_config with the modules trusted on the command line; its notes on stderr."""
+    cfg = load_config(args.config, trusted_modules=args.trust_module, **overrides)
+    if not getattr(args, "quiet", False):
+        for note in cfg.notes:  # old spellings that still work, with key and line
+            print(f"{PROG}: note: {note}", file=sys.stderr)
+    return cfg
 
 
 def _engine_overrides(cfg, args: argparse.Namespace) -> None:
@@ -132,6 +138,7 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
     _engine_overrides(cfg, args)
     if args.dry_run or args.verbose:
         problem, _ = build_run(cfg)
+        nested_spec(cfg, args.nested, args.nested_repeats)  # checks --nested K on the data
         out.write(describe_plan(cfg, problem) + "\n")
         if args.dry_run:
             out.write("Dry run: configuration and data are valid; nothing was fitted "
@@ -236,18 +243,28 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
 def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:
     """``featuresift screen CONFIG``: per-measurement relevance, cost and redundancy table."""
     from featuresift.filters import feature_report, write_feature_report
+    from featuresift.filters.relevance import RELEVANCE_SCORERS
 
     cfg = _load(args, output=args.output)
     problem, _ = build_run(cfg)
     relevance = args.relevance or ("anova_f" if cfg.classification else "pearson")
+    task = "classification" if cfg.classification else "regression"
+    entry = RELEVANCE_SCORERS.get(relevance)
+    seeded = entry is not None and "seed" in inspect.signature(entry.func).parameters
     # The problem's array itself (names come with the cost model): no copy of the data.
     table = feature_report(
-        problem.X, problem.y, problem.cost_model, relevance=relevance,
-        task="classification" if cfg.classification else "regression",
+        problem.X, problem.y, problem.cost_model, relevance=relevance, task=task,
+        relevance_options={"seed": cfg.seed} if seeded else None,
     )
+    settings = {
+        "command": "screen", "config": str(cfg.path), "relevance": relevance, "task": task,
+        "seed": cfg.seed, "seed_used": seeded, "cost_unit": problem.cost_model.unit,
+        "n_candidates": problem.n_features, "n_rows": problem.n_samples,
+    }
     with open_run_folder(cfg, "screen") as folder:
-        write_feature_report(table, folder)
-        path = folder.commit() / "features.csv"
+        written = [write_feature_report(table, folder)]
+        written += folder.write_files({"screen.json": json.dumps(settings, indent=2) + "\n"})
+        final = folder.commit()
     shown = table.drop(columns=["cost_unit"], errors="ignore")
     out.write(f"Cost in {problem.cost_model.unit}.\n")
     out.write(shown.to_string(index=False, float_format=lambda v: f"{v:.4g}") + "\n\n")
@@ -255,7 +272,9 @@ def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:
               "Benjamini-Hochberg adjusted over all candidates (flag q <= 0.05 to keep "
               "false discoveries near 5 %). Univariate scores miss measurements that only "
               "help together; use `featuresift run` for a model-based search.\n")
-    out.write(f"Written to {path}\n")
+    if seeded:
+        out.write(f"Seed {cfg.seed} (the config's seed) for the {relevance} estimate.\n")
+    _write_footer(out, folder, final, written, None)
     return 0
 
 
@@ -410,9 +429,9 @@ def build_parser() -> argparse.ArgumentParser:
         help="per-measurement table: relevance, p- and q-value, cost, most redundant partner",
         description="Score every candidate on its own (no model fits): relevance to the\n"
         "target, its p-value and Benjamini-Hochberg q-value, cost, relevance per cost,\n"
-        "and the other candidate it "
-        "correlates with most. Writes features.csv into a new run folder (NNN-screen)\n"
-        "of the output folder.",
+        "and the other candidate it correlates with most. Writes features.csv and\n"
+        "screen.json (scorer, task, seed) into a new run folder (NNN-screen) of the\n"
+        "output folder.",
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     screen.add_argument("config", metavar="CONFIG", help="YAML run configuration")
@@ -420,9 +439,9 @@ def build_parser() -> argparse.ArgumentParser:
                         help="relevance scorer (default: anova_f for classification, "
                              "pearson for regression)")
     screen.add_argument("--output", metavar="DIR",
-                        help="write features.csv here instead of output.folder")
+                        help="write the run folder here instead of output.folder")
     screen.add_argument("-q", "--quiet", action="store_true",
-                        help="print nothing except errors (the file is still written)")
+                        help="print nothing except errors (files are still written)")
     screen.set_defaults(func=cmd_screen)
 
     val = sub.add_parser(

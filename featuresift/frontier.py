@@ -490,6 +490,8 @@ class Frontier:
             "guard": self.guard,
             "n_fits": self.n_fits,
             "n_fits_without_cache": self.n_fits_without_cache,
+            # The one seed of every search of the sweep (each result records it too).
+            "seed": self.results[0].seed if self.results else None,
             "points": [
                 {
                     "budget": b,

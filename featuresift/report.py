@@ -154,8 +154,9 @@ def render_report(
     """
     u = result.cost_unit
     lines = [f"# {title}", ""]
-    if source:
-        lines += [f"Run from `{source}`.", ""]
+    # The one seed (strategy, noise guard, nested estimate), as result.json records it.
+    seed = "none (not reproducible)" if result.seed is None else str(result.seed)
+    lines += [f"Run from `{source}`, seed {seed}." if source else f"Seed {seed}.", ""]
     lines += [CAUTION, ""]
     budget = "unlimited" if result.budget is None else f"{result.budget:g} {u}"
     lines += [

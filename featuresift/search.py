@@ -459,6 +459,7 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
         seed=seed,
         callback=callback,
     )
+    strat.check(space)  # options against this problem, before any evaluation
     fits_before = evaluator.n_fits
     hits_before = evaluator.n_cache_hits
     limited = False

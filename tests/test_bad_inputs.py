@@ -87,6 +87,23 @@ def _yes_no(frame):
     frame["meets_milling_grade"] = np.where(frame["meets_milling_grade"] == 1, "yes", "no")
 
 
+def _one_farm_for_class_1(frame):
+    """Farms as groups; every lot of class 1 comes from farm 0."""
+    frame["meets_milling_grade"] = (np.arange(len(frame)) % 6 == 0).astype(int)
+    frame["farm"] = np.arange(len(frame)) % 6
+
+
+def _rare_class(n):
+    def apply(frame):
+        frame["meets_milling_grade"] = (np.arange(len(frame)) < n).astype(int)
+    return apply
+
+
+def _strategy(name, options):
+    return edit("  name: forward\n  options: {n_features: 3}",
+                f"  name: {name}\n  options: {options}")
+
+
 def _set(column, row, value):
     def apply(frame):
         frame[column] = frame[column].astype(object)
@@ -301,6 +318,51 @@ D = [
     Case("samples-average-single-label", "config", ["multilabel", "precision_macro"],
          "scoring", "scoring: precision_samples",
          yaml=edit("scoring: roc_auc", "scoring: precision_samples")),
+    Case("log-loss-without-predict-proba", "config", ["'neg_log_loss'", "predict_proba",
+                                                      "RidgeClassifier"], "scoring",
+         "scoring: neg_log_loss", yaml=_chain(
+             edit("sklearn.linear_model.LogisticRegression",
+                  "sklearn.linear_model.RidgeClassifier"),
+             edit("{max_iter: 500}", "{}"), edit("scoring: roc_auc", "scoring: neg_log_loss")),
+         argv=V),
+    # ---- strategy options against the data, before any fit (issue 10)
+    Case("n-features-above-candidates", "config", ["n_features=50", "at most 9"],
+         "strategy.options.n_features", "options: {n_features: 50}",
+         yaml=edit("{n_features: 3}", "{n_features: 50}"), argv=V),
+    Case("floating-floor-text", "config", ["sequential_floor must be true or false", "'no'"],
+         "strategy.options.sequential_floor", "options:",
+         yaml=_strategy("floating-forward", "{sequential_floor: 'no'}")),
+    Case("annealing-infinite-temperature", "config", ["finite number > 0", "inf"],
+         "strategy.options.initial_temperature", "options:",
+         yaml=_strategy("annealing", "{initial_temperature: .inf}"),
+         argv=["run", "{cfg}", "--dry-run"]),
+    Case("exhaustive-over-max-subsets", "config", ["58 allowed subsets", "max_subsets=2"],
+         "strategy.options.max_subsets", "options:",
+         yaml=_strategy("exhaustive", "{max_subsets: 2}")),
+    Case("filter-order-unknown-feature", "config", ["order[1]: 'protein_nir'",
+                                                    "not a candidate"],
+         "strategy.options.order", "options:",
+         yaml=_strategy("filter-order", "{order: [moisture_pct, protein_nir]}"), argv=V),
+    Case("filter-order-position-out-of-range", "config", ["order[0]", "0 ... 8", "99"],
+         "strategy.options.order", "options:", yaml=_strategy("filter-order", "{order: [99]}")),
+    Case("one-hot-without-categorical", "config", ["one_hot", "data.categorical"],
+         "model.preprocessing[2]", "preprocessing:",
+         yaml=edit("[impute_median, scale]", "[impute_median, scale, one_hot]"), argv=V),
+    Case("sweep-budget-below-cheapest", "config", ["budget 0.1", "cheapest possible subset"],
+         "sweep.budgets[0]", "sweep:", yaml=lambda t: t + "sweep: {budgets: [0.1, 5]}\n",
+         argv=V),
+    Case("class-in-one-group", "config", ["class 1", "only 1 group(s) of 'farm'",
+                                          "cv.folds = 3"], "cv.group_column", "group_column:",
+         yaml=edit("  folds: 3", "  folds: 3\n  group_column: farm"),
+         data=_cells(_one_farm_for_class_1)),
+    Case("nested-folds-above-class", "config", ["10 outer folds", "class 1", "only 6 rows"],
+         "nested.folds", "nested:", yaml=lambda t: t + "nested: {folds: 10}\n",
+         data=_cells(_rare_class(6))),
+    Case("guard-default-folds-above-class", "config",
+         ["guard: the noise guard's 5 outer folds (its default)", "only 4 rows", "guard: off"],
+         data=_cells(_rare_class(4)), argv=["run", "{cfg}", "--dry-run"]),
+    Case("cli-nested-folds-above-class", "cli", ["--nested 8", "only 6 rows"],
+         data=_cells(_rare_class(6)), argv=["run", "{cfg}", "--dry-run", "--nested", "8"]),
     # ---- code execution attempts (harmless payloads would write a MARKER file)
     Case("trust-from-the-yaml", "code", ["cannot trust modules itself", "--trust-module"],
          "model.trusted_modules", "trusted_modules:", yaml=_static("trust_in_yaml.yaml"),
@@ -622,3 +684,21 @@ def test_quoted_comma_text_in_a_comma_file_is_not_a_decimal_comma(tmp_path):
     cfg = load_config(path)
     assert (cfg.data_format.separator, cfg.data_format.decimal) == (",", ".")
     np.testing.assert_array_equal(cfg.frame["protein_nir_pct"], frame["protein_nir_pct"])
+
+
+@pytest.mark.parametrize("strategy, options, key", [
+    ("forward", {"n_features": 5}, "strategy.options.n_features"),
+    ("greedy-swap", {"n_features": 5}, "strategy.options.n_features"),
+    ("filter-order", {"order": ["a", "z"]}, "strategy.options.order"),
+    ("exhaustive", {"max_subsets": 3}, "strategy.options.max_subsets"),
+])
+def test_python_run_search_checks_strategy_options_before_any_evaluation(strategy, options,
+                                                                         key):
+    from featuresift import CostModel, run_search
+    from featuresift.engine.evaluator import CriterionEvaluator
+
+    asked = []
+    ev = CriterionEvaluator(lambda s: asked.append(s) or len(s), 4, list("abcd"))
+    with pytest.raises(InputError) as info:
+        run_search(ev, strategy, costs=CostModel.uniform(list("abcd")), **options)
+    assert info.value.key == key and asked == []  # refused before the references too

@@ -10,6 +10,7 @@ import pandas as pd
 import pytest
 import yaml
 from scipy import stats
+from sklearn.feature_selection import mutual_info_classif
 
 from featuresift.cli import main
 from featuresift.costs import CostModel
@@ -103,16 +104,44 @@ def test_screen_table_matches_scipy_anova(small_config):
     np.testing.assert_allclose(table["q_value"].to_numpy(), q_ref, rtol=1e-9)
     assert (table["q_value"] >= table["p_value"]).all()
     assert table.loc["don_ppm", "panel"] == "mycotoxin_panel"
+    folder = latest_run(path.parent / "out")
+    assert sorted(p.name for p in folder.iterdir()) == ["features.csv", "screen.json"]
+    settings = json.loads((folder / "screen.json").read_text())
+    assert settings["relevance"] == "anova_f" and settings["seed"] == 0
+    assert not settings["seed_used"]  # the F test draws nothing at random
+
+
+def test_screen_mutual_info_uses_the_config_seed(small_config, capsys):
+    path, cfg = small_config
+    columns = ["moisture_pct", "protein_nir_pct", "falling_number_s"]  # continuous, complete
+    cfg["data"]["features"] = columns
+    cfg["seed"] = 11
+    path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
+    assert main(["screen", str(path), "--relevance", "mutual_info"]) == 0
+    out = capsys.readouterr().out
+    assert "Seed 11" in out and "features.csv, screen.json" in out
+    folder = latest_run(path.parent / "out", "screen")
+    table = pd.read_csv(folder / "features.csv").set_index("feature")
+    frame = pd.read_csv(path.parent / "lots.csv")
+    # Reference: scikit-learn's kNN estimate with the same seed (its noise depends on it).
+    ref = mutual_info_classif(frame[columns].to_numpy(), frame[GRAIN_TARGET].to_numpy(),
+                              discrete_features=False, n_neighbors=3, random_state=11)
+    np.testing.assert_allclose(table.loc[columns, "relevance"].to_numpy(), ref, rtol=1e-12)
+    assert json.loads((folder / "screen.json").read_text())["seed_used"] is True
 
 
 def test_run_nested_writes_honest_estimate(small_config, capsys):
     path, cfg = small_config
     cfg["nested"] = {"folds": 3, "repeats": 2}  # the command line overrides the folds
     cfg["pick"] = "best"  # the strategy's 3 measurements, not a cheaper one-se pick
+    cfg["seed"] = 5
     path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
     assert main(["run", str(path), "--nested", "2"]) == 0
     out_dir = latest_run(path.parent / "out")
     nested = json.loads((out_dir / "nested.json").read_text())
+    # The one seed is recorded in every file of the run folder.
+    assert nested["seed"] == 5 == json.loads((out_dir / "result.json").read_text())["seed"]
+    assert f"Run from `{path}`, seed 5." in (out_dir / "report.md").read_text()
     assert len(nested["outer_scores"]) == 4 and nested["repeats"] == [0, 0, 1, 1]
     assert all(len(s) == 3 for s in nested["selected"])
     assert 0.0 <= nested["outer_mean"] <= 1.0
@@ -138,10 +167,15 @@ def test_sweep_headline_within_config_budget_and_nested_at_pick(small_config, ca
     path, cfg = small_config
     cfg["budget"] = 10.0
     cfg["pick"] = "best"
+    cfg["seed"] = 7
     path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
     assert main(["sweep", str(path), "--budgets", "6,10,none", "--nested", "2"]) == 0
     out_dir = latest_run(path.parent / "out", "sweep")
     data = json.loads((out_dir / "frontier.json").read_text())
+    # The one seed: the sweep, each of its searches, its nested estimate and its report.
+    assert data["seed"] == data["nested"]["seed"] == 7
+    assert {r["seed"] for r in data["results"]} == {7}
+    assert f"Run from `{path}`, seed 7." in (out_dir / "report.md").read_text()
     head, best = data["points"][data["headline"]], data["points"][data["best"]]
     assert data["budget"] == 10.0 and head["cost"] <= 10.0
     # "best" rule: the highest in-search score among the points within 10.

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import importlib
+import importlib.util
 import inspect
 import re
 import warnings
@@ -49,7 +50,7 @@ def schema_keys(tmp_path_factory):
     cfg = yaml.safe_load(cfg_path.read_text(encoding="utf-8"))
     cfg.update({
         "engine": {"journal": False}, "sweep": {"n_budgets": 3, "budget_levels": "costs"},
-        "nested": {"folds": 2},
+        "nested": {"folds": 3},
         "limits": {"max_features": 3}, "output": {"folder": "out"},
     })
     cfg_path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
@@ -164,3 +165,37 @@ def test_filter_order_is_registered_without_the_filters_package_and_runs_by_defa
         res = run_search(ev, "filter-order", costs=CostModel.uniform(["a", "b", "c"]))
     assert res.selected == ["b", "c"]
     assert [r.features for r in res.path] == [("b",), ("b", "c"), ("a", "b", "c")]
+
+
+def _lab_config(tmp_path, edit_text):
+    """The small grain-lab case of test_config.py with an edited YAML text."""
+    spec = importlib.util.spec_from_file_location(
+        "featuresift_config_cases_vocab", Path(__file__).with_name("test_config.py"))
+    cases = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(cases)
+    text = edit_text(cases.BASE_YAML)
+    return cases.write_case(tmp_path, text), text
+
+
+@pytest.mark.parametrize("old, new, key, extra", [
+    ("name: greedy_swap\n  options: {n_features: 3}", "'greedy_swap' is an old spelling; use "
+     "'greedy-swap'", "strategy.name", ""),
+    ("name: genetic\n  options: {stall_limit: 3}", "'stall_limit' is an old name; use "
+     "'patience'", "strategy.options.stall_limit", ""),
+    ("name: forward\n  options: {n_features: 3}", "'one_se' is an old spelling; use 'one-se'",
+     "pick", "pick: one_se\n"),
+])
+def test_old_spellings_in_yaml_are_noted_with_key_and_line(tmp_path, capsys, old, new, key,
+                                                           extra):
+    from featuresift.cli import main
+
+    path, text = _lab_config(tmp_path, lambda t: t.replace(
+        "name: forward\n  options: {n_features: 3}", old) + extra)
+    marker = {"strategy.name": "  name:", "strategy.options.stall_limit": "  options:",
+              "pick": "pick:"}[key]
+    line = [i for i, ln in enumerate(text.splitlines(), 1) if ln.startswith(marker)][0]
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", DeprecationWarning)  # noted, not warned
+        assert main(["validate", str(path)]) == 0
+    err = capsys.readouterr().err
+    assert err == f"featuresift: note: {key} (line {line}): {new}\n"

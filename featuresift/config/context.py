@@ -20,6 +20,11 @@ class _Context:
         self.base_dir = base_dir
         self.overridden = set(overridden)
         self.trusted = tuple(trusted)  # modules trusted from outside the config
+        self.notes: list[str] = []  # old spellings that still work: "key (line n): ..."
+
+    def note(self, message: str, key: str) -> None:
+        """Record a note (an old spelling, say) at ``key``; the CLI prints it on stderr."""
+        self.notes.append(str(self.error(message, key)))
 
     def line(self, key: str) -> int | None:
         """Line of ``key``, else of its nearest parent present in the file."""

@@ -235,6 +235,13 @@ def _column_error(frame: pd.DataFrame, name: str, key: str, ctx: _Context, role:
 
 def _check_categorical_model(cfg: RunConfig, ctx: _Context) -> None:
     """Categorical columns need the one_hot step or a model that takes categories."""
+    if "one_hot" in cfg.model.preprocessing and not cfg.data.categorical:
+        steps = list(cfg.model.preprocessing)
+        raise ctx.error(
+            "one_hot encodes the columns listed under data.categorical, and there are none: "
+            "list the text or code columns there, or remove one_hot",
+            f"model.preprocessing[{steps.index('one_hot')}]",
+        )
     if not cfg.data.categorical or "one_hot" in cfg.model.preprocessing:
         return
     native = cfg.model.params.get("categorical_features") == "from_dtype"

@@ -14,8 +14,11 @@ from featuresift.config.checks import (
     _check_folds,
     _check_lists,
     _check_missing_values,
+    _check_nested_and_guard_folds,
     _check_scoring,
+    _check_strategy_on_data,
     _check_target,
+    check_sweep_budgets,
 )
 from featuresift.config.context import _Context, _show
 from featuresift.config.data import (
@@ -121,6 +124,7 @@ def load_config(
     cfg = RunConfig(path=path, output=output, frame=frame, extra=extra, **core)
     cfg.data_format = data_format
     cfg.overridden = given
+    cfg.notes = ctx.notes
     cfg.lines = lines
     cfg.classification = bool(is_classifier(cfg.model.build()))
     if cfg.cv.stratified and not cfg.classification:
@@ -140,4 +144,9 @@ def load_config(
     _check_lists(cfg, ctx)
     _check_missing_values(cfg, ctx)
     _check_scoring(cfg, ctx)
+    _check_strategy_on_data(cfg, ctx)
+    _check_nested_and_guard_folds(cfg, ctx)
+    sweep = cfg.extra.get("sweep") or {}
+    if sweep.get("budgets") is not None:
+        check_sweep_budgets(cfg, sweep["budgets"], lines=cfg.lines)
     return cfg

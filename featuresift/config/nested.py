@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from featuresift.config.checks import check_outer_folds
 from featuresift.config.context import _Context
 from featuresift.config.run import _splitter, build_run
 from featuresift.config.schema import RunConfig
@@ -67,6 +68,7 @@ def nested_spec(cfg: RunConfig, folds: int | None = None,
         if folds < 2:
             raise InputError(f"--nested needs at least 2 outer folds, got {folds}")
         spec["folds"] = folds
+        check_outer_folds(cfg, folds, f"--nested {folds}")
     if repeats is not None:
         if repeats < 1:
             raise InputError(f"--nested-repeats needs at least 1 repeat, got {repeats}")

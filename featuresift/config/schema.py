@@ -154,6 +154,9 @@ class RunConfig:
     data_format : featuresift.config.csvformat.CsvFormat or None
         Separator, decimal mark and encoding the CSV file was read with (None for
         Parquet).
+    notes : list of str
+        Old spellings that still work (``strategy.name (line 30): 'greedy_swap' is an old
+        spelling; use 'greedy-swap'``); ``validate`` and ``run`` print them on stderr.
 
     Examples
     --------
@@ -193,6 +196,7 @@ class RunConfig:
     extra: dict[str, Any] = field(default_factory=dict)
     lines: dict[str, int] = field(default_factory=dict, repr=False)
     data_format: Any = None
+    notes: list[str] = field(default_factory=list)
 
     @property
     def stratified(self) -> bool:

@@ -7,6 +7,7 @@ import inspect
 import math
 import os
 import re
+import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
@@ -339,15 +340,25 @@ def _parse_strategy(value: Any, ctx: _Context) -> dict:
     s = {"name": value} if isinstance(value, str) else ctx.mapping(
         value, "strategy", ["name", "options"]
     )
-    name = resolve_strategy_name(ctx.string(s.get("name", "greedy-swap"), "strategy.name"))
+    given = ctx.string(s.get("name", "greedy-swap"), "strategy.name")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", DeprecationWarning)
+        name = resolve_strategy_name(given)
     if name not in STRATEGIES:
         raise ctx.error(
             f"unknown strategy '{name}'{_suggest(name, STRATEGIES)}; known: "
             + ", ".join(sorted(STRATEGIES)), "strategy.name",
         )
+    if name != given:
+        ctx.note(f"'{given}' is an old spelling; use '{name}'", "strategy.name")
     options = ctx.mapping(s.get("options"), "strategy.options")
+    for old, new in STRATEGIES[name].renamed_options.items():
+        if old in options and new not in options:
+            ctx.note(f"'{old}' is an old name; use '{new}'", f"strategy.options.{old}")
     try:
-        make_strategy({"name": name, "options": options})
+        with warnings.catch_warnings():  # noted above, with key and line
+            warnings.simplefilter("ignore", DeprecationWarning)
+            make_strategy({"name": name, "options": options})
     except InputError as exc:
         where = "strategy.options"
         for opt in options:  # option validators name the option first
@@ -371,10 +382,13 @@ def _parse_limits(value: Any, ctx: _Context) -> LimitsSpec:
 def _parse_pick(value: Any, ctx: _Context) -> str:
     pick = ctx.string(DEFAULT_PICK if value is None else value, "pick")
     try:
-        return check_pick(pick)
+        rule = check_pick(pick)
     except InputError:
         raise ctx.error(f"expected one of {', '.join(PICK_RULES)}, got '{pick}'",
                         "pick") from None
+    if rule != pick:
+        ctx.note(f"'{pick}' is an old spelling; use '{rule}'", "pick")
+    return rule
 
 
 def _parse_n_jobs(value: Any, ctx: _Context) -> int | None:

@@ -6,11 +6,11 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
+from featuresift.config.checks import check_sweep_budgets
 from featuresift.config.context import _Context, _show
 from featuresift.config.run import build_run
 from featuresift.config.schema import RunConfig
 from featuresift.config.sections import MAX_AMOUNT, Section, register_section
-from featuresift.errors import InputError
 from featuresift.frontier import BUDGET_LEVELS
 from featuresift.outputs import RunFolder, open_run_folder
 
@@ -123,6 +123,7 @@ def sweep_from_config(
     problem, kwargs = build_run(cfg)
     spec = cfg.extra.get("sweep") or {"budgets": None, "n_budgets": 8}
     nested = nested_spec(cfg, nested_folds, nested_repeats)
+    from_command_line = budgets is not None
     if budgets is None:
         budgets = spec["budgets"]
         if budgets is None:
@@ -131,17 +132,8 @@ def sweep_from_config(
             if cfg.budget is not None and cfg.budget not in budgets:
                 budgets = sorted([b for b in budgets if b is not None] + [cfg.budget])
                 budgets.append(None)
-    cheapest = cfg.cost_model.cheapest_feature_cost()
-    for b in budgets:
-        if b is not None and b > MAX_AMOUNT:
-            raise InputError(f"budget {b:g} must be at most {MAX_AMOUNT:g} (or unlimited)",
-                             key="sweep.budgets", line=cfg.lines.get("sweep.budgets"))
-        if b is not None and b < cheapest:
-            raise InputError(
-                f"budget {b:g} {cfg.cost_model.unit} is below the cheapest possible subset "
-                f"({cheapest:g} {cfg.cost_model.unit})",
-                key="sweep.budgets", line=cfg.lines.get("sweep.budgets"),
-            )
+    if from_command_line:  # the section's budgets were checked by load_config
+        check_sweep_budgets(cfg, budgets, key="--budgets")
 
     def sweep() -> Any:
         from featuresift.config.engine import cluster_of

@@ -166,10 +166,10 @@ class SimulatedAnnealing(SearchStrategy):
         if initial_temperature is not None and (
             isinstance(initial_temperature, bool)
             or not isinstance(initial_temperature, (int, float))
-            or not initial_temperature > 0
+            or not 0 < initial_temperature < math.inf
         ):
             raise InputError(
-                f"initial_temperature must be a number > 0, got {initial_temperature!r}"
+                f"initial_temperature must be a finite number > 0, got {initial_temperature!r}"
             )
         self.initial_temperature = initial_temperature
         self.final_temperature_ratio = check_fraction(

@@ -545,6 +545,36 @@ class SearchStrategy(ABC):
     def run(self, space: SearchSpace) -> None:
         """Search the space; record steps; optionally :meth:`SearchSpace.choose`."""
 
+    def check(self, space: SearchSpace) -> None:
+        """Check the options against the problem before anything is evaluated.
+
+        :func:`~featuresift.run_search` calls it before the first evaluation and
+        ``featuresift validate`` with a space whose evaluator is never asked, so an option
+        that cannot work on this data (a subset size above the candidates, an unknown
+        feature in an order) fails before any model is fitted. Raises
+        :class:`~featuresift.errors.InputError` keyed ``strategy.options.<option>``.
+        The default checks a fixed subset size ``n_features``; subclasses extend it.
+
+        Examples
+        --------
+        >>> from featuresift.costs import CostModel
+        >>> from featuresift.engine.evaluator import CriterionEvaluator
+        >>> space = SearchSpace(CriterionEvaluator(len, 3), CostModel.uniform("abc"))
+        >>> make_strategy("forward", n_features=5).check(space)  # doctest: +ELLIPSIS
+        Traceback (most recent call last):
+        ...
+        featuresift.errors.InputError: strategy.options.n_features: n_features=5, but ...
+        """
+        n = getattr(self, "n_features", None)
+        if n is None:
+            return
+        most = min(len(space.candidates), space.max_features)
+        if n > most:
+            why = ("limits.max_features" if space.max_features < len(space.candidates)
+                   else "candidate features (never_include left out)")
+            raise InputError(f"n_features={n}, but there are at most {most} {why}",
+                             key="strategy.options.n_features")
+
     def get_options(self) -> dict[str, Any]:
         """The constructor options of this strategy, as given."""
         sig = inspect.signature(type(self).__init__)

@@ -77,7 +77,13 @@ class ExhaustiveSearch(SearchStrategy):
         self.max_candidates = (None if max_candidates is None
                                else check_int(max_candidates, "max_candidates"))
 
-    def run(self, space: SearchSpace) -> None:
+    def check(self, space: SearchSpace) -> None:
+        """The candidates and allowed subsets are within ``max_candidates`` / ``max_subsets``
+        (counted from the cost table, nothing evaluated)."""
+        super().check(space)
+        self._count(space)
+
+    def _count(self, space: SearchSpace) -> int:
         n_free = len(space.free_candidates)
         if self.max_candidates is not None and n_free > self.max_candidates:
             raise InputError(
@@ -98,6 +104,11 @@ class ExhaustiveSearch(SearchStrategy):
                 "candidates (never_include, must_include) or use another strategy",
                 key="strategy.options.max_subsets",
             )
+        return n_allowed
+
+    def run(self, space: SearchSpace) -> None:
+        n_allowed = self._count(space)
+        allowed = space.allowed_subsets()
         space.extras["allowed_subsets"] = n_allowed
         best = None
         incomplete = 0

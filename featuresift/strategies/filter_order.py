@@ -17,6 +17,8 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
+import numpy as np
+
 from featuresift.errors import InputError
 from featuresift.strategies.base import SearchSpace, SearchStrategy, register_strategy
 
@@ -64,16 +66,31 @@ class FilterOrderSearch(SearchStrategy):
             scored = space.evaluate([tuple(space.must_include) + (f,) for f in singles])
             ranked = sorted(zip(singles, scored), key=lambda p: p[1].rank_key, reverse=True)
             return [f for f, _ in ranked]
-        index = {n: i for i, n in enumerate(space.feature_names)}
+        return self._order(space)
+
+    def check(self, space: SearchSpace) -> None:
+        """Every entry of ``order`` names a candidate (or is a column position in range)."""
+        super().check(space)
+        if self.order is not None:
+            self._order(space)
+
+    def _order(self, space: SearchSpace) -> list[int]:
+        names = space.feature_names
+        index = {n: i for i, n in enumerate(names)}
         out: list[int] = []
-        for item in self.order:
+        for pos, item in enumerate(self.order or ()):
             if isinstance(item, str):
                 if item not in index:
-                    raise InputError(f"unknown feature '{item}' in order",
+                    raise InputError(f"order[{pos}]: '{item}' is not a candidate feature",
                                      key="strategy.options.order")
                 out.append(index[item])
-            else:
+            elif (isinstance(item, (int, np.integer)) and not isinstance(item, bool)
+                  and 0 <= item < len(names)):
                 out.append(int(item))
+            else:
+                raise InputError(f"order[{pos}]: expected a feature name or a column position "
+                                 f"0 ... {len(names) - 1}, got {item!r}",
+                                 key="strategy.options.order")
         return list(dict.fromkeys(out))
 
     def run(self, space: SearchSpace) -> None:

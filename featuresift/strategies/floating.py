@@ -50,6 +50,9 @@ be improved by backtracking, and answers with the record of size ``d``.
 
 from __future__ import annotations
 
+import numpy as np
+
+from featuresift.errors import InputError
 from featuresift.strategies._options import check_int
 from featuresift.strategies.base import (
     Scored,
@@ -186,6 +189,8 @@ class _FloatingSearch(SearchStrategy):
             check_int(n_features, "n_features")
         self.n_features = n_features
         self.look_beyond = check_int(look_beyond, "look_beyond", minimum=0)
+        if not isinstance(sequential_floor, (bool, np.bool_)):
+            raise InputError(f"sequential_floor must be true or false, got {sequential_floor!r}")
         self.sequential_floor = bool(sequential_floor)
 
     def _wrap_up(self, space: SearchSpace, records: _SizeRecords,
