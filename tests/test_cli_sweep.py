@@ -175,7 +175,12 @@ def test_sweep_headline_within_config_budget_and_nested_at_pick(small_config, ca
     # The one seed: the sweep, each of its searches, its nested estimate and its report.
     assert data["seed"] == data["nested"]["seed"] == 7
     assert {r["seed"] for r in data["results"]} == {7}
-    assert f"Run from `{path}`, seed 7." in (out_dir / "report.md").read_text()
+    report = (out_dir / "report.md").read_text()
+    assert f"Run from `{path}`, seed 7." in report
+    # The headline section states the guard the sweep applied to it (its search ran
+    # without one), as the sweep section does: never "off" beside "kept".
+    assert data["guard"]["name"] == "nested" and "Noise guard: off" not in report
+    assert f"Noise guard: nested ({data['guard']['folds']} outer folds" in report
     head, best = data["points"][data["headline"]], data["points"][data["best"]]
     assert data["budget"] == 10.0 and head["cost"] <= 10.0
     # "best" rule: the highest in-search score among the points within 10.

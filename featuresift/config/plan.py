@@ -67,6 +67,13 @@ def describe_plan(cfg: RunConfig, problem: SelectionProblem | None = None) -> st
     scorer = "the objective's own scorer" if own else (cfg.scoring or "estimator score method")
     lines.append(f"Score:  {scorer}; objective "
                  f"{_plain(cfg.objective)}; pick {cfg.pick}")
+    guard = cfg.extra.get("guard") or {"name": "off"}
+    if guard.get("name", "off") == "off":
+        lines.append("Guard:  off (the pick rule's answer stands)")
+    else:
+        lines.append(f"Guard:  {guard['name']}, {guard['folds']} outer folds, alpha "
+                     f"{guard['alpha']:g} (when the in-search screen does not decide, the "
+                     f"search is re-run in each outer fold: about {guard['folds']}x the fits)")
     cluster = (cfg.extra.get("engine") or {}).get("cluster")
     jobs = cfg.n_jobs
     if cluster is not None and "n_jobs" not in cfg.lines and "n_jobs" not in cfg.overridden:

@@ -140,7 +140,6 @@ def write_run_files(out: RunFolder, cfg: RunConfig, result: SearchResult,
     ``result.json``, ``selected.csv``, ``path.csv``, ``report.md`` and, with a nested
     estimate, ``nested.json``. Returns the paths written (the caller commits ``out``).
     """
-    import json
 
     from featuresift.report import write_report
 
@@ -148,7 +147,7 @@ def write_run_files(out: RunFolder, cfg: RunConfig, result: SearchResult,
     written.append(write_report(out, result, nested=nested, source=str(cfg.path)))
     if nested is not None:
         written += out.write_files(
-            {"nested.json": json.dumps(nested.to_dict(), indent=2) + "\n"})
+            {"nested.json": nested.to_json() + "\n"})  # strict JSON: NaN as null
     return written
 
 

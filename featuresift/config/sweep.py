@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -172,7 +173,11 @@ def write_sweep_files(out: RunFolder, cfg: RunConfig, frontier: Any) -> list[Pat
     head, key = frontier.headline, frontier.headline_key
     shown = head if head is not None else frontier.results[frontier.best_index or 0]
     budget = "unlimited" if shown.budget is None else f"{shown.budget:g}"
-    if head is not None:
+    if head is not None and head.budget != frontier.budget and frontier.budget is not None:
+        # A search under a larger budget may find the best set that fits the run's budget.
+        heading = (f"Headline pick (rule {frontier.pick}, within the budget "
+                   f"{frontier.budget:g}; found by the search at budget {budget})")
+    elif head is not None:
         heading = f"Headline pick (rule {frontier.pick}, budget {budget})"
     elif isinstance(key, str):
         heading = (f"Headline: the reference '{key}' (see the sweep section); below, "
@@ -181,6 +186,9 @@ def write_sweep_files(out: RunFolder, cfg: RunConfig, frontier: Any) -> list[Pat
         heading = f"No point fits the run's budget; highest-scoring (budget {budget})"
     written = frontier.write(out)
     plotted = any(p.name == "frontier.png" for p in written)
+    if (frontier.guard or {}).get("name", "off") != "off":
+        # The sweep's searches run without the guard; the sweep applies it to its headline.
+        shown = dataclasses.replace(shown, guard=dict(frontier.guard))
     written.append(write_report(
         out, shown, frontier=frontier, nested=frontier.nested, source=str(cfg.path),
         title="featuresift budget sweep", chosen_heading=heading,
