@@ -44,6 +44,12 @@ def test_notebook_runs_and_shows_html(tmp_path, monkeypatch):
     assert len(html) >= 4
     assert any("featuresift search result" in h and "in-search" in h for h in html)
     assert any("featuresift selection problem" in h for h in html)
+    # verbose=1 in a kernel: the search's one bar, without tqdm's "IProgress not found"
+    # warning when ipywidgets is not installed (the text bar is chosen directly).
+    err = "".join(o.get("text", "") for o in outputs
+                  if o.output_type == "stream" and o.get("name") == "stderr")
+    assert "IProgress" not in err
+    assert "forward (budget 10)" in err or importlib.util.find_spec("ipywidgets")
     images = [o for o in outputs if "data" in o and "image/png" in o["data"]]
     assert images, "the inline backend showed no figure"
     assert not list(tmp_path.iterdir())  # the notebook writes nothing

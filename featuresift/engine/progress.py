@@ -7,8 +7,8 @@ that says how many subsets it will evaluate; with a time limit, the time left of
 
 * ``verbose=0``: nothing.
 * ``verbose=1``: in a Jupyter kernel or on a terminal (standard error), the bar
-  (``tqdm.auto``: a widget in a notebook); when standard error is piped to a file or
-  a log, one quiet line per search step instead.
+  (``tqdm.auto``: a widget in a notebook with ipywidgets, else the text bar); when
+  standard error is piped to a file or a log, one quiet line per search step instead.
 * ``verbose>=2``: the bar, always.
 
 :func:`make_progress` is the per-batch bar of the evaluator used on its own.
@@ -59,6 +59,21 @@ class _Silent:
         pass
 
 
+def _tqdm() -> Any:
+    """tqdm's notebook widget when ipywidgets can draw it, else its text bar.
+
+    ``tqdm.auto`` in a notebook without ipywidgets warns "IProgress not found" before it
+    falls back to the text bar; the text bar is chosen here without the warning.
+    """
+    import importlib.util
+
+    if importlib.util.find_spec("ipywidgets") is None:
+        from tqdm.std import tqdm
+    else:
+        from tqdm.auto import tqdm
+    return tqdm
+
+
 def make_progress(total: int, verbose: int, desc: str) -> Any:
     """A progress bar for ``total`` steps, or a silent stand-in.
 
@@ -78,9 +93,8 @@ def make_progress(total: int, verbose: int, desc: str) -> Any:
     """
     if verbose <= 0 or (verbose == 1 and not interactive()):
         return _Silent()
-    from tqdm.auto import tqdm
-
-    return tqdm(total=total, desc=desc, unit="fit", leave=False, delay=0.5, dynamic_ncols=True)
+    return _tqdm()(total=total, desc=desc, unit="fit", leave=False, delay=0.5,
+                   dynamic_ncols=True)
 
 
 def _open_display(verbose: int, interactive_session: bool | None, total: int | None,
@@ -90,9 +104,7 @@ def _open_display(verbose: int, interactive_session: bool | None, total: int | N
     mode = "off" if verbose <= 0 else "bar" if verbose >= 2 or live else "lines"
     if mode != "bar":
         return mode, None
-    from tqdm.auto import tqdm
-
-    return mode, tqdm(total=total, desc=desc, unit=unit, dynamic_ncols=True, leave=True)
+    return mode, _tqdm()(total=total, desc=desc, unit=unit, dynamic_ncols=True, leave=True)
 
 
 class SearchProgress:
