@@ -15,7 +15,6 @@ featuresift ...
 from __future__ import annotations
 
 import argparse
-import inspect
 import json
 import math
 import sys
@@ -242,22 +241,21 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
 
 def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:
     """``featuresift screen CONFIG``: per-measurement relevance, cost and redundancy table."""
+    from featuresift.config.screen import screen_relevance
     from featuresift.filters import feature_report, write_feature_report
-    from featuresift.filters.relevance import RELEVANCE_SCORERS
 
     cfg = _load(args, output=args.output)
     problem, _ = build_run(cfg)
-    relevance = args.relevance or ("anova_f" if cfg.classification else "pearson")
+    relevance, options, seeded = screen_relevance(cfg, args.relevance)
     task = "classification" if cfg.classification else "regression"
-    entry = RELEVANCE_SCORERS.get(relevance)
-    seeded = entry is not None and "seed" in inspect.signature(entry.func).parameters
     # The problem's array itself (names come with the cost model): no copy of the data.
     table = feature_report(
         problem.X, problem.y, problem.cost_model, relevance=relevance, task=task,
-        relevance_options={"seed": cfg.seed} if seeded else None,
+        relevance_options=options,
     )
     settings = {
-        "command": "screen", "config": str(cfg.path), "relevance": relevance, "task": task,
+        "command": "screen", "config": str(cfg.path), "relevance": relevance,
+        "options": {k: v for k, v in options.items() if k != "seed"}, "task": task,
         "seed": cfg.seed, "seed_used": seeded, "cost_unit": problem.cost_model.unit,
         "n_candidates": problem.n_features, "n_rows": problem.n_samples,
     }
@@ -436,8 +434,8 @@ def build_parser() -> argparse.ArgumentParser:
     )
     screen.add_argument("config", metavar="CONFIG", help="YAML run configuration")
     screen.add_argument("--relevance", metavar="NAME",
-                        help="relevance scorer (default: anova_f for classification, "
-                             "pearson for regression)")
+                        help="relevance scorer, overriding screen.relevance (default: "
+                             "anova_f for classification, pearson for regression)")
     screen.add_argument("--output", metavar="DIR",
                         help="write the run folder here instead of output.folder")
     screen.add_argument("-q", "--quiet", action="store_true",

@@ -363,6 +363,21 @@ D = [
          data=_cells(_rare_class(4)), argv=["run", "{cfg}", "--dry-run"]),
     Case("cli-nested-folds-above-class", "cli", ["--nested 8", "only 6 rows"],
          data=_cells(_rare_class(6)), argv=["run", "{cfg}", "--dry-run", "--nested", "8"]),
+    # ---- the screen section (featuresift screen's relevance scorer)
+    Case("screen-relevance-unknown", "config", ["unknown relevance scorer 'anova'",
+                                                "did you mean 'anova_f'"],
+         "screen.relevance", "screen:", yaml=lambda t: t + "screen: {relevance: anova}\n",
+         argv=V),
+    Case("screen-relevance-wrong-task", "config", ["'anova_f' does not support regression"],
+         "screen.relevance", "screen:", yaml=_chain(
+             *REGRESSION, edit("scoring: roc_auc", "scoring: r2"),
+             lambda t: t + "screen: {relevance: anova_f}\n")),
+    Case("screen-relevance-option-typo", "config", ["no option 'neighbours'", "n_neighbors"],
+         "screen.relevance.neighbours", "screen:",
+         yaml=lambda t: t + "screen: {relevance: {name: mutual_info, neighbours: 3}}\n",
+         argv=["screen", "{cfg}"]),
+    Case("cli-relevance-unknown", "cli", ["--relevance", "unknown relevance scorer 'anova'"],
+         argv=["screen", "{cfg}", "--relevance", "anova"]),
     # ---- code execution attempts (harmless payloads would write a MARKER file)
     Case("trust-from-the-yaml", "code", ["cannot trust modules itself", "--trust-module"],
          "model.trusted_modules", "trusted_modules:", yaml=_static("trust_in_yaml.yaml"),

@@ -116,8 +116,9 @@ def test_screen_mutual_info_uses_the_config_seed(small_config, capsys):
     columns = ["moisture_pct", "protein_nir_pct", "falling_number_s"]  # continuous, complete
     cfg["data"]["features"] = columns
     cfg["seed"] = 11
+    cfg["screen"] = {"relevance": {"name": "mutual_info", "n_neighbors": 5}}
     path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
-    assert main(["screen", str(path), "--relevance", "mutual_info"]) == 0
+    assert main(["screen", str(path)]) == 0
     out = capsys.readouterr().out
     assert "Seed 11" in out and "features.csv, screen.json" in out
     folder = latest_run(path.parent / "out", "screen")
@@ -125,9 +126,14 @@ def test_screen_mutual_info_uses_the_config_seed(small_config, capsys):
     frame = pd.read_csv(path.parent / "lots.csv")
     # Reference: scikit-learn's kNN estimate with the same seed (its noise depends on it).
     ref = mutual_info_classif(frame[columns].to_numpy(), frame[GRAIN_TARGET].to_numpy(),
-                              discrete_features=False, n_neighbors=3, random_state=11)
+                              discrete_features=False, n_neighbors=5, random_state=11)
     np.testing.assert_allclose(table.loc[columns, "relevance"].to_numpy(), ref, rtol=1e-12)
-    assert json.loads((folder / "screen.json").read_text())["seed_used"] is True
+    settings = json.loads((folder / "screen.json").read_text())
+    assert settings["seed_used"] is True and settings["options"] == {"n_neighbors": 5}
+    # --relevance replaces the section's scorer and its options.
+    assert main(["screen", str(path), "--relevance", "anova_f", "-q"]) == 0
+    folder = latest_run(path.parent / "out", "screen")
+    assert json.loads((folder / "screen.json").read_text())["relevance"] == "anova_f"
 
 
 def test_run_nested_writes_honest_estimate(small_config, capsys):

@@ -50,7 +50,7 @@ def schema_keys(tmp_path_factory):
     cfg = yaml.safe_load(cfg_path.read_text(encoding="utf-8"))
     cfg.update({
         "engine": {"journal": False}, "sweep": {"n_budgets": 3, "budget_levels": "costs"},
-        "nested": {"folds": 3},
+        "nested": {"folds": 3}, "screen": {"relevance": "anova_f"},
         "limits": {"max_features": 3}, "output": {"folder": "out"},
     })
     cfg_path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
@@ -75,7 +75,8 @@ def schema_keys(tmp_path_factory):
 def test_the_walk_finds_the_schema(schema_keys):
     # A few keys from every level, so that a broken walk cannot pass vacuously.
     for key in ("data", "data.target", "costs.panels", "cv.group_column", "limits.max_time_s",
-                "seed", "engine.racing", "sweep.n_budgets", "nested.repeats"):
+                "seed", "engine.racing", "sweep.n_budgets", "nested.repeats",
+                "screen.relevance"):
         assert key in schema_keys, key
 
 

@@ -125,6 +125,7 @@ from featuresift.config.sweep import sweep_from_config, write_sweep_files
 from featuresift.config.nested import nested_from_config
 from featuresift.config import engine as _engine  # noqa: F401
 from featuresift.config import guard as _guard  # noqa: F401
+from featuresift.config import screen as _screen  # noqa: F401
 # isort: on
 
 __all__ = [

@@ -146,6 +146,10 @@ def load_config(
     _check_scoring(cfg, ctx)
     _check_strategy_on_data(cfg, ctx)
     _check_nested_and_guard_folds(cfg, ctx)
+    if (cfg.extra.get("screen") or {}).get("relevance") is not None:
+        from featuresift.config.screen import screen_relevance
+
+        screen_relevance(cfg)  # the scorer supports this task
     sweep = cfg.extra.get("sweep") or {}
     if sweep.get("budgets") is not None:
         check_sweep_budgets(cfg, sweep["budgets"], lines=cfg.lines)

@@ -89,6 +89,8 @@ PYTHON_TWINS: dict[str, tuple[str, str]] = {
     "sweep.budgets": ("featuresift.budget_sweep", "budgets"),
     "sweep.n_budgets": ("featuresift.budget_sweep", "budgets"),
     "sweep.budget_levels": ("featuresift.budget_sweep", "budget_levels"),
+    "screen": ("featuresift.filters.feature_report", "relevance"),
+    "screen.relevance": ("featuresift.filters.feature_report", "relevance"),
     "nested": ("featuresift.nested_evaluation", "outer_cv"),
     "nested.folds": ("featuresift.nested_evaluation", "outer_cv"),
     "nested.repeats": ("featuresift.nested_evaluation", "n_repeats"),
