@@ -408,6 +408,12 @@ def _estimator_name(est: Any) -> str:
     return type(est).__name__
 
 
+def _grouping(p: Any) -> str:
+    if p.groups is None:
+        return ""
+    return ", grouped" if getattr(p, "grouped", True) else ", groups IGNORED by this cv"
+
+
 def problem_repr(p: Any) -> str:
     """One line: shape, estimator, CV, scorer and costs (never a memory address)."""
     scoring = p.scoring if isinstance(p.scoring, str) or p.scoring is None else (
@@ -419,7 +425,7 @@ def problem_repr(p: Any) -> str:
     return (
         f"SelectionProblem(n_samples={p.n_samples}, n_features={p.n_features}, "
         f"estimator={name}, cv={type(p.cv).__name__} "
-        f"({len(p.splits)} splits{', grouped' if p.groups is not None else ''}), "
+        f"({len(p.splits)} splits{_grouping(p)}), "
         f"scoring={scoring!r}, costs: {len(cm.panels)} panel(s), unit {cm.unit!r})"
     )
 
@@ -431,7 +437,8 @@ def problem_html(p: Any) -> str:
         ("target", "classification" if p.classification else "regression"),
         ("estimator", _estimator_name(p.estimator)),
         ("cross-validation", f"{type(p.cv).__name__}, {len(p.splits)} splits"
-         + (f", {len(set(p.groups.tolist()))} groups" if p.groups is not None else "")),
+         + (f", {len(set(p.groups.tolist()))} groups" if getattr(p, "grouped", False)
+            else _grouping(p))),
         ("scoring", str(p.scoring if p.scoring is not None else "estimator score")),
     ]
     return _block("featuresift selection problem",

@@ -47,7 +47,7 @@ from featuresift.costs import CostModel  # noqa: F401 - the docstring examples u
 from featuresift.engine.evaluator import check_error_score
 from featuresift.engine.progress import OuterProgress
 from featuresift.errors import FitFailedError, InputError
-from featuresift.problem import SelectionProblem
+from featuresift.problem import SelectionProblem, groups_ignored, split_quietly
 from featuresift.result import SearchResult, _json_safe, load_json, score_label
 from featuresift.search import run_search
 from featuresift.stability import nogueira_stability
@@ -565,10 +565,11 @@ def nested_evaluation(
         outer = outer_splitter(int(outer_cv), stratified=classification,
                                grouped=g is not None, seed=0 if seed is None else seed)
     else:
+        groups_ignored(outer_cv, g, "outer_cv")
         outer = check_cv(outer_cv, ya, classifier=classification)
     splits: list[tuple[np.ndarray, np.ndarray, int]] = []
     for r, splitter in enumerate(_repeat_splitters(outer, int(n_repeats))):
-        splits += [(tr, te, r) for tr, te in splitter.split(Xa, ya, g)]
+        splits += [(tr, te, r) for tr, te in split_quietly(splitter, Xa, ya, g)]
     n_splits = len(splits) // int(n_repeats)
     inner_repeats = getattr(outer, "n_repeats", None)
     if n_repeats == 1 and isinstance(inner_repeats, int) and inner_repeats > 1:

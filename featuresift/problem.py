@@ -12,6 +12,7 @@ import hashlib
 import inspect
 import json
 import re
+import warnings
 from collections.abc import Callable, Sequence
 from typing import Any
 
@@ -162,6 +163,33 @@ target value; fill it
             f"{name} has {rows.size} missing value{'s' * (rows.size != 1)} "
             f"(row{'s' * (rows.size != 1)} {shown}): every row needs {what}; {remedy}",
             key=name)
+
+
+def groups_ignored(cv: Any, groups: Any, where: str = "cv") -> bool:
+    """Warn, and return True, when ``groups`` are given to a splitter that ignores them.
+
+    A splitter such as ``StratifiedKFold`` puts rows of one group (farm, supplier) on both
+    sides of a split, so scores are optimistic for new groups; scikit-learn only warns
+    "The groups parameter is ignored". An integer, a list of splits or a grouped
+    splitter (``GroupKFold``, ``StratifiedGroupKFold``, ``LeaveOneGroupOut`` ...) is fine.
+    """
+    if groups is None or isinstance(cv, (int, np.integer)) or not hasattr(cv, "split") \
+            or _is_group_splitter(cv) or getattr(cv, "cv", None) is not None:
+        return False
+    warnings.warn(
+        f"groups are given but {where}={type(cv).__name__} does not use them: rows of one "
+        "group fall on both sides of a split, so scores are optimistic for new groups. "
+        f"Pass {where}=K (grouped folds, as the YAML cv.group_column) or a grouped splitter "
+        "such as StratifiedGroupKFold / GroupKFold", UserWarning, stacklevel=4)
+    return True
+
+
+def split_quietly(splitter: Any, X: Any, y: Any, groups: Any) -> list:
+    """``list(splitter.split(X, y, groups))`` without scikit-learn's "groups ignored"
+    warning (:func:`groups_ignored` has said it in our words)."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message="The groups parameter is ignored")
+        return list(splitter.split(X, y, groups))
 
 
 _ADDRESS = re.compile(r" at 0x[0-9a-fA-F]+")
@@ -323,10 +351,12 @@ class SelectionProblem:
         else:
             splitter = check_cv(cv, y_arr, classifier=self.classification)
         self.cv = splitter
+        # Whether the folds keep each group together (the display says "grouped").
+        self.grouped = self.groups is not None and not groups_ignored(cv, self.groups)
         try:
             self.splits: list[tuple[np.ndarray, np.ndarray]] = [
                 (np.asarray(tr), np.asarray(te))
-                for tr, te in splitter.split(X_arr, y_arr, self.groups)
+                for tr, te in split_quietly(splitter, X_arr, y_arr, self.groups)
             ]
         except ValueError as exc:  # too few rows per class or group, ...
             raise InputError(f"cannot make the CV folds: {exc}", key="cv") from None

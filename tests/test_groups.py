@@ -15,6 +15,7 @@ from sklearn.linear_model import LinearRegression, LogisticRegression
 from sklearn.model_selection import (
     GridSearchCV,
     GroupKFold,
+    KFold,
     StratifiedGroupKFold,
     StratifiedKFold,
     cross_validate,
@@ -23,7 +24,7 @@ from sklearn.naive_bayes import GaussianNB
 from sklearn.pipeline import Pipeline, make_pipeline
 from sklearn.preprocessing import StandardScaler
 
-from featuresift import SelectionProblem, run_search
+from featuresift import SelectionProblem, nested_evaluation, run_search
 from featuresift.cli import main
 from featuresift.errors import InputError
 from featuresift.selector import MeasurementSelector
@@ -150,3 +151,18 @@ def test_python_and_cli_give_identical_answers_for_a_config(tmp_path, grouped, w
     assert cli["selected"] == py.selected
     assert cli["score"]["folds"] == py.fold_scores
     assert cli["cost"] == py.cost
+
+
+def test_groups_with_a_splitter_that_ignores_them_are_not_silently_lost(grouped):
+    X, y, g = grouped
+    cv = StratifiedKFold(3, shuffle=True, random_state=0)
+    with pytest.warns(UserWarning, match="does not use them") as record:
+        problem = SelectionProblem(X, y, GaussianNB(), cv=cv, groups=g)
+    # Our words only: scikit-learn's own "groups parameter is ignored" is not repeated.
+    assert not [w for w in record if "groups parameter is ignored" in str(w.message)]
+    # Reference: scikit-learn's StratifiedKFold folds put a farm on both sides of a split.
+    assert not _no_group_straddles(problem.splits, g)
+    assert "groups IGNORED" in repr(problem) and "grouped" not in repr(problem)
+    with pytest.warns(UserWarning, match="outer_cv=KFold does not use them"):
+        nested_evaluation(X, y, GaussianNB(), outer_cv=KFold(3), inner_cv=3, groups=g,
+                          n_features=1, guard="off")
