@@ -36,6 +36,7 @@ from featuresift.config import (
 )
 from featuresift.config.engine import cluster_of
 from featuresift.config.nested import nested_spec
+from featuresift.config.sweep import sweep_budgets
 from featuresift.engine.journal import reuse_message
 from featuresift.engine.racing import RACES
 from featuresift.errors import FitFailedError, InputError
@@ -196,9 +197,21 @@ def _budget_list(text: str) -> list[float | None]:
 def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
     """``featuresift sweep CONFIG``: one search per budget, the cost/score frontier."""
     overrides = {"output": args.output, "n_jobs": args.n_jobs, "seed": args.seed,
-                 "strategy": args.strategy}
+                 "strategy": args.strategy, "budget": args.budget, "pick": args.pick,
+                 "guard": args.guard}
     cfg = _load(args, **overrides)
     _engine_overrides(cfg, args)
+    if args.dry_run:
+        problem, _ = build_run(cfg)
+        nested_spec(cfg, args.nested, args.nested_repeats)  # checks --nested K on the data
+        budgets = sweep_budgets(cfg, args.budgets)
+        shown = ", ".join("unlimited" if b is None else f"{b:g}" for b in budgets)
+        out.write(describe_plan(cfg, problem) + "\n")
+        out.write(f"Sweep:  {len(budgets)} budgets ({cfg.cost_model.unit}): {shown}; the "
+                  "headline applies the pick rule within the budget above\n")
+        out.write("Dry run: configuration and data are valid; nothing was fitted or "
+                  "written.\n")
+        return 0
 
     def show(res) -> None:
         budget = "unlimited" if res.budget is None else f"{res.budget:g}"
@@ -401,6 +414,9 @@ def build_parser() -> argparse.ArgumentParser:
     sweep.add_argument("config", metavar="CONFIG", help="YAML run configuration")
     sweep.add_argument("--budgets", type=_budget_list, metavar="LIST",
                        help="comma-separated budgets, 'none' for unlimited (e.g. 5,10,20,none)")
+    sweep.add_argument("--budget", type=_budget, metavar="X",
+                       help="the run's budget, overriding budget: the headline is the pick "
+                            "within it ('none' = unlimited)")
     sweep.add_argument("--output", metavar="DIR",
                        help="write results here instead of output.folder")
     sweep.add_argument("--n-jobs", type=int, metavar="N",
@@ -418,6 +434,13 @@ def build_parser() -> argparse.ArgumentParser:
                             "headline's budget, with K outer folds")
     sweep.add_argument("--nested-repeats", type=int, metavar="R",
                        help="repeat the K outer folds of --nested R times")
+    sweep.add_argument("--pick", choices=PICK_RULES,
+                       help="pick rule of the headline, overriding pick")
+    sweep.add_argument("--guard", choices=GUARDS,
+                       help="noise guard on the headline, overriding guard")
+    sweep.add_argument("--dry-run", action="store_true",
+                       help="check config and data, print the plan and the budgets; fit and "
+                            "write nothing")
     sweep.add_argument("-q", "--quiet", action="store_true",
                        help="print nothing except errors (files are still written)")
     sweep.set_defaults(func=cmd_sweep)

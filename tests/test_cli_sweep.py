@@ -199,3 +199,20 @@ def test_sweep_headline_within_config_budget_and_nested_at_pick(small_config, ca
     out = capsys.readouterr().out
     assert "roc_auc (in-search)" in out and "Headline" in out
     assert "roc_auc, nested estimate (honest)" in out
+
+
+def test_sweep_dry_run_shows_budgets_and_overrides_and_writes_nothing(small_config, capsys):
+    path, cfg = small_config
+    cfg["sweep"] = {"budgets": [0.5, 6, None]}
+    cfg["costs"]["features"].update(moisture_pct=0.25, test_weight_kg_hl=0.25)  # none free
+    path.write_text(yaml.safe_dump(cfg), encoding="utf-8")
+    assert main(["sweep", str(path), "--dry-run", "--budget", "6", "--pick", "best",
+                 "--guard", "off"]) == 0
+    out = capsys.readouterr().out
+    for text in ("Budget: 6 ", "pick best", "Guard:  off", "Sweep:  3 budgets",
+                 ": 0.5, 6, unlimited;", "nothing was fitted or written"):
+        assert text in out, text
+    assert not (path.parent / "out").exists()
+    # The same budgets from the command line are checked like the section's.
+    assert main(["sweep", str(path), "--dry-run", "--budgets", "0.1,6"]) == 2
+    assert "--budgets: budget 0.1" in capsys.readouterr().err

@@ -15,7 +15,7 @@ from featuresift.config.sections import MAX_AMOUNT, Section, register_section
 from featuresift.frontier import BUDGET_LEVELS
 from featuresift.outputs import RunFolder, open_run_folder
 
-__all__ = ["sweep_from_config", "write_sweep_files"]
+__all__ = ["sweep_budgets", "sweep_from_config", "write_sweep_files"]
 
 
 def _parse_sweep(value: Any, ctx: _Context) -> dict:
@@ -57,6 +57,39 @@ register_section("sweep", Section(_parse_sweep))
 def _search_options(kwargs: dict) -> dict:
     """run_search keyword arguments without the budget (set per sweep point)."""
     return {k: v for k, v in kwargs.items() if k not in ("budget",)}
+
+
+def sweep_budgets(cfg: RunConfig, budgets: list[float | None] | None = None) -> list:
+    """The budgets a sweep searches (None = unlimited), checked.
+
+    ``budgets`` (``--budgets``) if given, else the ``sweep`` section's ``budgets``, else
+    ``n_budgets`` default budgets (placed as ``budget_levels`` says) plus the run's
+    ``budget`` and unlimited.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from featuresift.config import load_config
+    >>> from featuresift.demo import write_demo
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     cfg = load_config(write_demo(d, n_lots=60)[1])
+    >>> sweep_budgets(cfg, [2.0, None]), 30.0 in sweep_budgets(cfg)
+    ([2.0, None], True)
+    """
+    from featuresift.frontier import default_budgets
+
+    spec = cfg.extra.get("sweep") or {"budgets": None, "n_budgets": 8}
+    if budgets is not None:  # the section's budgets were checked by load_config
+        check_sweep_budgets(cfg, budgets, key="--budgets")
+        return list(budgets)
+    if spec["budgets"] is not None:
+        return list(spec["budgets"])
+    budgets = default_budgets(cfg.cost_model, spec["n_budgets"],
+                              spec.get("budget_levels", "round"))
+    if cfg.budget is not None and cfg.budget not in budgets:
+        budgets = sorted([b for b in budgets if b is not None] + [cfg.budget])
+        budgets.append(None)
+    return budgets
 
 
 def sweep_from_config(
@@ -119,22 +152,11 @@ def sweep_from_config(
     ('free only', "replaced by 'free only'")
     """
     from featuresift.config.nested import nested_from_config, nested_spec
-    from featuresift.frontier import budget_sweep, default_budgets
+    from featuresift.frontier import budget_sweep
 
     problem, kwargs = build_run(cfg)
-    spec = cfg.extra.get("sweep") or {"budgets": None, "n_budgets": 8}
     nested = nested_spec(cfg, nested_folds, nested_repeats)
-    from_command_line = budgets is not None
-    if budgets is None:
-        budgets = spec["budgets"]
-        if budgets is None:
-            budgets = default_budgets(cfg.cost_model, spec["n_budgets"],
-                                      spec.get("budget_levels", "round"))
-            if cfg.budget is not None and cfg.budget not in budgets:
-                budgets = sorted([b for b in budgets if b is not None] + [cfg.budget])
-                budgets.append(None)
-    if from_command_line:  # the section's budgets were checked by load_config
-        check_sweep_budgets(cfg, budgets, key="--budgets")
+    budgets = sweep_budgets(cfg, budgets)
 
     def sweep() -> Any:
         from featuresift.config.engine import cluster_of
