@@ -41,6 +41,10 @@ __all__ = [
     "problem_html",
     "cost_model_html",
     "plot_path",
+    "screen_repr",
+    "screen_html",
+    "filter_selection_repr",
+    "filter_selection_html",
 ]
 
 _MAX_NAMES = 4
@@ -460,3 +464,59 @@ def cost_model_html(cm: Any, title: bool = True) -> str:
         return table
     return _block(f"featuresift costs: {cm.n_features} candidates, {len(cm.panels)} panel(s)",
                   [table])
+
+
+# ------------------------------------------------------------------- filters
+def screen_repr(res: Any) -> str:
+    """One line for a :class:`~featuresift.filters.prescreen.ScreenResult`.
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_iris
+    >>> from featuresift.filters import prescreen
+    >>> X, y = load_iris(return_X_y=True)
+    >>> print(screen_repr(prescreen(X, y, keep=2, rule="top")))
+    ScreenResult(kept 2 of 4: ['x2', 'x3'], rule='top', scorer='anova_f')
+    """
+    return (f"ScreenResult(kept {len(res.kept)} of {len(res.table)}: "
+            f"{short_list(res.kept_names)}, rule={res.rule!r}, scorer={res.scorer!r})")
+
+
+def screen_html(res: Any) -> str:
+    """HTML: the screen's rule and its table, one row per column with the reason."""
+    cols = [c for c in ("feature", "relevance", "p_value", "q_value", "cost",
+                        "relevance_per_cost", "rank", "kept", "reason") if c in res.table]
+    rows = [[_f(v) if isinstance(v, float) else v for v in row]
+            for row in res.table[cols].itertuples(index=False)]
+    return _block(f"featuresift pre-screen: kept {len(res.kept)} of {len(res.table)} "
+                  f"(rule {res.rule}, relevance {res.scorer})", [_table(cols, rows)])
+
+
+def filter_selection_repr(sel: Any) -> str:
+    """One line for a :class:`~featuresift.filters.greedy.FilterSelection`.
+
+    Examples
+    --------
+    >>> from featuresift.filters import mrmr
+    >>> from sklearn.datasets import load_iris
+    >>> X, y = load_iris(return_X_y=True)
+    >>> print(filter_selection_repr(mrmr(X, y, n_features=2)))
+    FilterSelection(selected=['x2', 'x1'], cost=2 / unlimited features, relevance 'mutual_info', form 'difference', redundancy 'mutual_info', rule 'gain')
+    """  # noqa: E501
+    return (f"FilterSelection(selected={short_list(sel.selected)}, cost={_money(sel.cost)} / "
+            f"{_money(sel.budget)} {sel.cost_unit}, relevance {sel.relevance_scorer!r}, "
+            f"form {sel.form!r}, redundancy {sel.redundancy!r}, rule {sel.rule!r})")
+
+
+def filter_selection_html(sel: Any) -> str:
+    """HTML: each pick with its relevance, redundancy, gain and the running cost."""
+    rows = [(st.feature, _f(st.relevance), _f(st.redundancy), _f(st.gain),
+             f"{st.marginal_cost:g}", f"{st.total_cost:g}") for st in sel.steps]
+    u = sel.cost_unit
+    return _block(
+        f"featuresift filter selection ({sel.relevance_scorer} relevance, {sel.form} form, "
+        f"{sel.redundancy} redundancy)",
+        [_table(["pick", "relevance", "redundancy", "gain", f"cost ({u})",
+                 f"running cost ({u})"], rows),
+         _p(f"Cost {sel.cost:g} {u} against budget {_money(sel.budget)}; model-free "
+            f"scores, no cross-validated estimate; stopped: {sel.stop_reason}.")])

@@ -216,3 +216,23 @@ def test_a_fallen_back_answer_shows_the_headline_and_whose_nested_score_it_is(ob
     assert "Answer: buy nothing" in html and "the answers it rejected scored 0.5625" in html
     assert "p = 0.0544" in html
     assert "<td>the answer</td>" in html and "<td>not allowed (budget or limits)</td>" in html
+
+
+def test_filter_results_have_a_short_repr_and_html():
+    from featuresift.filters import budgeted_greedy, prescreen
+
+    X, y = load_iris(return_X_y=True)
+    cm = CostModel(NAMES, {"sl": 1.0, "sw": 1.0, "pl": 2.0, "pw": 2.0}, unit="EUR")
+    screen = prescreen(X, y, cm, keep=2, rule="top")
+    sel = budgeted_greedy(X, y, costs=cm, budget=3.0)
+    for obj in (screen, sel):  # before: dataclass reprs with whole arrays and tables
+        text = repr(obj)
+        assert "\n" not in text and len(text) < 200, text
+        assert obj._repr_html_().startswith("<div class='featuresift'>")
+    # Reference: scikit-learn's f_classif ranks the petal columns first on iris.
+    from sklearn.feature_selection import f_classif
+
+    top = [NAMES[j] for j in np.argsort(-f_classif(X, y)[0])[:2]]
+    assert f"kept 2 of 4: {top!r}" in repr(screen)
+    assert all(f"<td>{name}</td>" in sel._repr_html_() for name in sel.selected)
+    assert f"{sel.cost:g} / 3 EUR" in repr(sel)

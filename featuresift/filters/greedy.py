@@ -214,6 +214,16 @@ class FilterSelection:
             return {"must_include": list(chosen)}
         raise InputError(f"how must be 'candidates' or 'start', got {how!r}")
 
+    def __repr__(self) -> str:
+        from featuresift.display import filter_selection_repr
+
+        return filter_selection_repr(self)
+
+    def _repr_html_(self) -> str:
+        from featuresift.display import filter_selection_html
+
+        return filter_selection_html(self)
+
 
 def _check_weight(weight: Any) -> float:
     if isinstance(weight, bool) or not isinstance(weight, (int, float)) or not weight >= 0:

@@ -129,6 +129,16 @@ class ScreenResult:
         """Names of the dropped columns (for ``run_search(never_include=...)``)."""
         return self.table.loc[~self.table["kept"], "feature"].tolist()
 
+    def __repr__(self) -> str:
+        from featuresift.display import screen_repr
+
+        return screen_repr(self)
+
+    def _repr_html_(self) -> str:
+        from featuresift.display import screen_html
+
+        return screen_html(self)
+
 
 def _rank(values: np.ndarray) -> np.ndarray:
     """Order of columns by decreasing value; ties by column order."""
