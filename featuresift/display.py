@@ -77,20 +77,30 @@ def _money(x: Any) -> str:
     return f"{v:g}" if math.isfinite(v) else "unlimited"
 
 
-def short_list(names: Sequence[str], limit: int = _MAX_NAMES) -> str:
+def short_list(names: Sequence[str], limit: int = _MAX_NAMES, width: int = 60) -> str:
     """``['a', 'b', +3 more]``: a list of names cut for a one-line repr.
+
+    At most ``limit`` names, and no more than fit in about ``width`` characters (long
+    names would push a repr past one line); always at least one.
 
     Examples
     --------
     >>> short_list(["ph", "ash", "fat", "salt", "iron", "zinc"])
     "['ph', 'ash', 'fat', 'salt', +2 more]"
+    >>> short_list(["somatic_cell_count_k_per_ml", "bulk_tank_temperature_c", "ph"])
+    "['somatic_cell_count_k_per_ml', 'bulk_tank_temperature_c', +1 more]"
     >>> short_list([])
     '[]'
     """
     names = list(names)
-    shown = [repr(str(n)) for n in names[:limit]]
-    if len(names) > limit:
-        shown.append(f"+{len(names) - limit} more")
+    shown: list[str] = []
+    for n in names[:limit]:
+        item = repr(str(n))
+        if shown and sum(len(x) + 2 for x in shown) + len(item) > width:
+            break
+        shown.append(item)
+    if len(names) > len(shown):
+        shown.append(f"+{len(names) - len(shown)} more")
     return "[" + ", ".join(shown) + "]"
 
 

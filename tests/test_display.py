@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import re
 
@@ -84,7 +85,10 @@ def test_long_lists_are_cut_in_the_repr():
         stop_reason="strategy finished",
     )
     text = repr(res)
-    assert "+46 more" in text and len(text) < 200
+    assert "+47 more" in text and len(text) < 200  # three 17-character names fit in 60
+    long = [f"somatic_cell_count_per_ml_at_farm_{i}" for i in range(3)]
+    text = repr(dataclasses.replace(res, selected=long, support=[0, 1, 2]))
+    assert f"[{long[0]!r}, +2 more]" in text and len(text) < 200, text
 
 
 def test_json_round_trips(objects, tmp_path):
