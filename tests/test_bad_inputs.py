@@ -294,6 +294,14 @@ D = [
     Case("estimator-method-path", "config", ["cannot import module"], "model.estimator",
          "estimator:", yaml=edit("sklearn.linear_model.LogisticRegression",
                                  "sklearn.linear_model.LogisticRegression.fit")),
+    Case("clusterer-as-model", "config", ["KMeans is a clusterer", "classifier or a regressor"],
+         "model.estimator", "estimator:", yaml=edit(
+             "sklearn.linear_model.LogisticRegression\n  params: {max_iter: 500}",
+             "sklearn.cluster.KMeans\n  params: {n_clusters: 2}"), argv=V),
+    Case("transformer-as-model", "config", ["StandardScaler is not a model that predicts"],
+         "model.estimator", "estimator:", yaml=edit(
+             "sklearn.linear_model.LogisticRegression\n  params: {max_iter: 500}",
+             "sklearn.preprocessing.StandardScaler")),
     Case("penalized-without-lambda", "config", ["objective 'penalized' needs 'lambda'"],
          "objective", "objective: penalized", yaml=edit("seed: 0\nn_jobs",
                                                         "objective: penalized\nseed: 0\nn_jobs")),

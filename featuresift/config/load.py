@@ -7,7 +7,7 @@ from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
-from sklearn.base import is_classifier
+from sklearn.base import is_classifier, is_regressor
 
 from featuresift.config.checks import (
     _build_cost_model,
@@ -126,7 +126,9 @@ def load_config(
     cfg.overridden = given
     cfg.notes = ctx.notes
     cfg.lines = lines
-    cfg.classification = bool(is_classifier(cfg.model.build()))
+    model = cfg.model.build()
+    cfg.classification = bool(is_classifier(model))
+    _check_supervised(model, cfg, ctx)
     if cfg.cv.stratified and not cfg.classification:
         raise ctx.error("stratified folds need a classifier; set stratified: false",
                         "cv.stratified")
@@ -154,3 +156,22 @@ def load_config(
     if sweep.get("budgets") is not None:
         check_sweep_budgets(cfg, sweep["budgets"], lines=cfg.lines)
     return cfg
+
+
+def _check_supervised(model: object, cfg: RunConfig, ctx: _Context) -> None:
+    """The estimator predicts the target: not a clusterer, a transformer or an outlier
+    detector (their 'score' is not a prediction score of the target)."""
+    if is_classifier(model) or is_regressor(model):
+        return
+    try:
+        from sklearn.utils import get_tags
+
+        kind = get_tags(model).estimator_type
+    except Exception:  # noqa: BLE001 - not a scikit-learn estimator: let the fit decide
+        kind = None
+    if kind is None and callable(getattr(model, "predict", None)):
+        return  # a trusted estimator without scikit-learn tags that predicts
+    name = cfg.model.estimator.rpartition(".")[2]
+    what = f"a {kind}" if kind else "not a model that predicts (it has no predict method)"
+    raise ctx.error(f"{name} is {what}; featuresift scores models that predict the "
+                    "target: use a classifier or a regressor", "model.estimator")
