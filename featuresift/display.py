@@ -331,7 +331,9 @@ def _frontier_headline(fr: Any) -> str:
     if isinstance(key, str):
         return f", headline reference {key!r}"
     r = fr.results[key]
-    return f", headline {short_list(r.selected, 2)} at {r.cost:g}"
+    nested = getattr(fr, "nested", None)
+    honest = f" ({_f(nested.outer_mean)} nested)" if nested is not None else ""
+    return f", headline {short_list(r.selected, 2)} at {r.cost:g}{honest}"
 
 
 def frontier_html(fr: Any) -> str:

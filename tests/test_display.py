@@ -180,6 +180,8 @@ def test_reprs_say_the_nested_score_the_headline_and_the_interval(objects):
     assert f"headline {head.selected[:2]!r}"[:-1] in repr(fr)
     assert f"at {head.cost:g}, costs in EUR)" in repr(fr) and "Headline (pick" in fr._repr_html_()
     ne = objects["nested"]
+    # With a nested estimate at the headline, the sweep's repr gives it, labelled nested.
+    assert f"({ne.outer_mean:.4f} nested)" in repr(dataclasses.replace(fr, nested=ne))
     k, s = len(ne.outer_scores), np.std(ne.outer_scores, ddof=1)
     # Reference: the corrected resampled t interval (Nadeau & Bengio 2003) from scipy's t.
     half = stats.t.ppf(0.975, k - 1) * math.sqrt((1 / k + ne.test_train_ratio) * s**2)
