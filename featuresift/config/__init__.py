@@ -29,9 +29,11 @@ Relative paths are relative to the folder of the YAML file.
       features: null                # list of candidate columns; null = every column except
                                     #   the target, cv.group_column and `exclude`
       exclude: [lot_id]             # columns never used as candidates
-  separator: null               # CSV only; null = detected (',' ';' tab '|')
-  decimal: null                 # '.' or ','; null = detected (';' files often use ',')
-  encoding: null                # e.g. utf-8, cp1252, latin-1; null = detected
+      categorical: []               # candidate columns holding categories (need one_hot
+                                    #   or a model that takes categories)
+      separator: null               # CSV only; null = detected (',' ';' tab '|')
+      decimal: null                 # '.' or ','; null = detected (';' files often use ',')
+      encoding: null                # e.g. utf-8, cp1252, latin-1; null = detected
     costs:                          # omit the whole section: every feature costs 1
       unit: "EUR per lot (invented)"
       features:                     # price of each candidate that is not in a panel
@@ -65,7 +67,9 @@ Relative paths are relative to the folder of the YAML file.
                                     #   the best (Breiman et al. 1984) | best
     guard: nested                   # noise guard: nested | off | {name: nested, folds: 5,
                                     #   alpha: 0.05}; see featuresift.guard
-    seed: 0                         # random seed of stochastic strategies
+    seed: 0                         # the one seed (strategies, noise guard, nested
+                                    #   estimate, mutual_info screening); recorded in
+                                    #   result.json, frontier.json, nested.json, screen.json
     n_jobs: 1                       # parallel model fits (joblib); under engine.cluster:
                                     #   concurrent tasks (omit: every worker thread)
     output:
@@ -73,7 +77,16 @@ Relative paths are relative to the folder of the YAML file.
 
 The ``engine`` section (journal, racing, failure policy, progress, and ``cluster``:
 ``local`` or a dask scheduler address such as ``tcp://10.0.0.5:8786``, with ``workers``
-for ``local``) is documented in :mod:`featuresift.config.engine`.
+for ``local``) is documented in :mod:`featuresift.config.engine`; ``sweep`` (budgets of
+``featuresift sweep``) in :mod:`featuresift.config.sweep`, ``nested`` (the honest
+estimate) in :mod:`featuresift.config.nested`, ``screen`` (the relevance scorer of
+``featuresift screen``) in :mod:`featuresift.config.screen`, ``guard`` in
+:mod:`featuresift.config.guard`. README.md has the table of every key and its Python
+twin (:data:`featuresift.config.twins.PYTHON_TWINS`).
+
+Old spellings (``greedy_swap``, ``filter_order``, ``one_se``, the genetic options
+``generation_limit`` and ``stall_limit``) still work; :attr:`RunConfig.notes` names each
+with its key and line, and the command line prints them as ``featuresift: note:`` lines.
 
 Preprocessing steps (names in ``model.preprocessing``, see :data:`PREPROCESSORS`):
 ``impute_mean``, ``impute_median``, ``impute_most_frequent`` (at most one imputer),
@@ -100,7 +113,8 @@ key and line), ``schema`` (section dataclasses, :class:`RunConfig`), ``sections`
 parser per top-level section, :data:`SECTIONS`), ``data`` (data file, candidate columns),
 ``checks`` (checks across sections and data), ``load`` (:func:`load_config`), ``run``
 (:func:`build_run`, :func:`run_from_config`), ``plan`` (:func:`describe_plan`), ``sweep``,
-``nested`` and ``engine`` (those sections and studies).
+``nested``, ``screen``, ``guard`` and ``engine`` (those sections and studies), ``twins``
+(each YAML key's Python twin).
 """
 
 from __future__ import annotations
