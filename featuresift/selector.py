@@ -168,6 +168,11 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         scikit-learn scorer; default the estimator's ``score``.
     max_features : int, optional
         Largest subset size.
+    max_evaluations : int, optional
+        Stop the search after this many subsets (YAML ``limits.max_evaluations``).
+    max_time_s : float, optional
+        Stop the search after this many seconds (YAML ``limits.max_time_s``); the answer
+        is the best found by then, so it can differ between machines.
     must_include, never_include : sequence of names or column indices
         Measurements always taken / not available.
     pick : {"one-se", "best"}, default="one-se"
@@ -248,6 +253,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         cv: Any = 5,
         scoring: Any = None,
         max_features: int | None = None,
+        max_evaluations: int | None = None,
+        max_time_s: float | None = None,
         must_include: Iterable[int | str] = (),
         never_include: Iterable[int | str] = (),
         pick: str = DEFAULT_PICK,
@@ -273,6 +280,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         self.cv = cv
         self.scoring = scoring
         self.max_features = max_features
+        self.max_evaluations = max_evaluations
+        self.max_time_s = max_time_s
         self.must_include = must_include
         self.never_include = never_include
         self.pick = pick
@@ -357,6 +366,8 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
             budget=self.budget,
             objective=self.objective,
             max_features=self.max_features,
+            max_evaluations=self.max_evaluations,
+            max_time_s=self.max_time_s,
             must_include=list(self.must_include),
             never_include=list(self.never_include),
             pick=self.pick,

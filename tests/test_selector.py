@@ -232,3 +232,14 @@ def test_verbose_and_max_features_are_checked(iris_frame, kwargs, key):
     X, y = iris_frame  # before: int('yes') ValueError; max_features=0 silently bought nothing
     with pytest.raises(InputError, match=f"{key} must be an integer"):
         MeasurementSelector(GaussianNB(), cv=3, **kwargs).fit(X, y)
+
+
+def test_selector_takes_the_search_limits(iris_frame):
+    X, y = iris_frame
+    sel = MeasurementSelector(GaussianNB(), cv=3, guard="off", strategy="exhaustive",
+                              max_evaluations=5).fit(X, y)
+    # The same limit as run_search's (the YAML limits.max_evaluations twin).
+    direct = run_search(SelectionProblem(X, y, GaussianNB(), cv=3), "exhaustive",
+                        guard="off", max_evaluations=5)
+    assert sel.result_.n_evaluations == direct.n_evaluations <= 5
+    assert sel.selected_features_ == direct.selected
