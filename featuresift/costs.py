@@ -289,10 +289,9 @@ class CostModel:
         self._panel_price = tuple(p for p, _ in panel_map.values())
 
     def __repr__(self) -> str:
-        return (
-            f"CostModel(n_features={self.n_features}, n_panels={len(self.panels)}, "
-            f"unit={self.unit!r})"
-        )
+        from featuresift.display import cost_model_repr
+
+        return cost_model_repr(self)
 
     def _repr_html_(self) -> str:
         from featuresift.display import cost_model_html

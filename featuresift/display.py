@@ -39,6 +39,7 @@ __all__ = [
     "nested_html",
     "problem_repr",
     "problem_html",
+    "cost_model_repr",
     "cost_model_html",
     "plot_path",
     "screen_repr",
@@ -462,6 +463,23 @@ def problem_html(p: Any) -> str:
 
 
 # ------------------------------------------------------------------- CostModel
+def cost_model_repr(cm: Any) -> str:
+    """One line: candidates, panels, how many are on hand, the price of everything.
+
+    Examples
+    --------
+    >>> from featuresift.costs import CostModel
+    >>> print(cost_model_repr(CostModel(["ph", "fat", "ash"], {"ph": 0.0, "fat": 2.5,
+    ...                                                        "ash": 4.0}, unit="EUR")))
+    CostModel(n_features=3, n_panels=0, unit='EUR', on hand 1, everything 6.5 EUR)
+    """
+    free = sum(1 for n in cm.feature_names
+               if cm.panel_of(n) is None and cm.feature_costs[n] == 0)
+    return (f"CostModel(n_features={cm.n_features}, n_panels={len(cm.panels)}, "
+            f"unit={cm.unit!r}, on hand {free}, everything "
+            f"{cm.cost(list(cm.feature_names)):g} {cm.unit})")
+
+
 def cost_model_html(cm: Any, title: bool = True) -> str:
     """HTML price table: one row per lone measurement and per panel."""
     rows = []

@@ -242,3 +242,9 @@ def test_filter_results_have_a_short_repr_and_html():
     assert f"kept 2 of 4: {top!r}" in repr(screen)
     assert all(f"<td>{name}</td>" in sel._repr_html_() for name in sel.selected)
     assert f"{sel.cost:g} / 3 EUR" in repr(sel)
+
+
+def test_cost_model_repr_counts_what_is_on_hand_and_prices_everything(objects):
+    text = repr(objects["costs"])
+    # By hand from the fixture: sl 1 + sw 0 + the petal panel 3 (pl and pw) = 4 EUR.
+    assert "on hand 1, everything 4 EUR" in text and len(text) < 200
