@@ -84,6 +84,12 @@ def encode_frame(frame: Any) -> tuple[np.ndarray, list[ColumnSpec]]:
     """
     import pandas as pd
 
+    from featuresift.errors import InputError
+
+    dup = frame.columns[frame.columns.duplicated()].unique().tolist()
+    if dup:  # a name must say which measurement it is (costs, answers, outputs)
+        raise InputError(f"X has duplicate column names: {', '.join(map(str, dup))}; "
+                         "each measurement needs its own name", key="X")
     n = len(frame)
     out = np.empty((n, frame.shape[1]), dtype=float)
     specs: list[ColumnSpec] = []
@@ -93,8 +99,6 @@ def encode_frame(frame: Any) -> tuple[np.ndarray, list[ColumnSpec]]:
             try:
                 out[:, j] = col.to_numpy(dtype=float, na_value=np.nan)
             except (TypeError, ValueError) as exc:
-                from featuresift.errors import InputError
-
                 raise InputError(f"column '{name}' is not numeric: {exc}") from None
             specs.append(_NUMERIC)
             continue

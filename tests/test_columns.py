@@ -238,3 +238,11 @@ def test_budgeted_greedy_scores_categories_by_table_whatever_their_order(lab):
         sel = budgeted_greedy(data, y, relevance="anova_f", n_features=3)
         step = next(s for s in sel.steps if s.feature == "grade")
         assert step.relevance == pytest.approx(rel)
+
+
+def test_duplicate_column_names_are_named():
+    rng = np.random.default_rng(0)
+    X = pd.DataFrame(rng.normal(size=(30, 3)), columns=["ph", "ph", "fat"])
+    # Before: "AttributeError: 'DataFrame' object has no attribute 'dtype'".
+    with pytest.raises(InputError, match="duplicate column names: ph"):
+        SelectionProblem(X, np.arange(30) % 2, LogisticRegression(), cv=3)
