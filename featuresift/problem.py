@@ -192,6 +192,23 @@ def split_quietly(splitter: Any, X: Any, y: Any, groups: Any) -> list:
         return list(splitter.split(X, y, groups))
 
 
+def _refuse_empty(X: np.ndarray, names: Sequence[str], block: int = 64) -> None:
+    """An :class:`InputError` for an X without rows or columns, or a column with no value.
+
+    Columns are checked in blocks, so no boolean copy of the whole of X is made.
+    """
+    if X.shape[0] == 0 or X.shape[1] == 0:
+        raise InputError(f"X has no {'rows' if X.shape[0] == 0 else 'columns'} "
+                         f"(shape {X.shape})", key="X")
+    empty: list[str] = []
+    for j in range(0, X.shape[1], block):
+        cols = np.flatnonzero(np.isnan(X[:, j:j + block]).all(axis=0))
+        empty += [str(names[j + c]) for c in cols]
+    if empty:
+        raise InputError(f"column(s) {', '.join(empty[:10])}{' ...' if len(empty) > 10 else ''}"
+                         " have no value (every row missing): drop them", key="X")
+
+
 _ADDRESS = re.compile(r" at 0x[0-9a-fA-F]+")
 
 
@@ -289,6 +306,7 @@ class SelectionProblem:
             raise InputError(
                 f"{len(names)} feature names given for {X_arr.shape[1]} columns of X"
             )
+        _refuse_empty(X_arr, names)
         y_arr = np.asarray(y)
         if y_arr.ndim != 1 or y_arr.shape[0] != X_arr.shape[0]:
             raise InputError(

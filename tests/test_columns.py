@@ -246,3 +246,13 @@ def test_duplicate_column_names_are_named():
     # Before: "AttributeError: 'DataFrame' object has no attribute 'dtype'".
     with pytest.raises(InputError, match="duplicate column names: ph"):
         SelectionProblem(X, np.arange(30) % 2, LogisticRegression(), cv=3)
+
+
+def test_empty_x_or_a_column_without_values_is_named():
+    y = np.arange(30) % 2
+    with pytest.raises(InputError, match="X has no columns"):  # was a memoryview TypeError
+        SelectionProblem(pd.DataFrame(index=range(30)), y, LogisticRegression(), cv=3)
+    X = pd.DataFrame({"ph": np.arange(30.0), "fat": pd.array([pd.NA] * 30, dtype="Float64")})
+    # Before: every subset with 'fat' failed in the imputer-less model, far from the cause.
+    with pytest.raises(InputError, match=r"column\(s\) fat have no value"):
+        SelectionProblem(X, y, LogisticRegression(), cv=3)
