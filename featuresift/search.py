@@ -8,7 +8,7 @@ import time
 from collections.abc import Callable, Iterable
 from typing import Any
 
-from featuresift._compat import renamed_keywords
+from featuresift._compat import renamed_keywords, warn_renamed
 from featuresift.costs import CostModel, make_cost_model
 from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.engine.progress import SearchProgress
@@ -75,12 +75,21 @@ can be the answer; ``everything`` can when it is allowed (budget, size limit).
 def check_pick(pick: str) -> str:
     """The canonical name of a pick rule (raises :class:`InputError` naming ``pick``).
 
+    The old spelling ``one_se`` still works, with a DeprecationWarning.
+
     Examples
     --------
-    >>> check_pick("one_se")
+    >>> import warnings
+    >>> with warnings.catch_warnings(record=True) as caught:
+    ...     warnings.simplefilter("always")
+    ...     check_pick("one_se")
     'one-se'
+    >>> str(caught[0].message)
+    "pick: 'one_se' is deprecated; use 'one-se'"
     """
-    pick = PICK_ALIASES.get(pick, pick) if isinstance(pick, str) else pick
+    if isinstance(pick, str) and pick in PICK_ALIASES:
+        warn_renamed("pick", pick, PICK_ALIASES[pick])
+        pick = PICK_ALIASES[pick]
     if pick not in PICK_RULES:
         raise InputError(f"must be one of {', '.join(PICK_RULES)}, got {pick!r}", key="pick")
     return pick

@@ -239,7 +239,7 @@ def test_one_standard_error_pick():
     costs = CostModel(["a", "b", "c"], {"a": 5.0, "b": 1.0, "c": 2.0})
     best = run_search(_FoldTable(folds), "exhaustive", costs=costs)
     assert best.selected == ["a", "c"]
-    picked = run_search(_FoldTable(folds), "exhaustive", costs=costs, pick="one_se")
+    picked = run_search(_FoldTable(folds), "exhaustive", costs=costs, pick="one-se")
     # Threshold: mean - standard error of the best (scipy.stats.sem, ddof=1).
     threshold = np.mean(folds[(0, 2)]) - stats.sem(folds[(0, 2)])
     close = [s for s, f in folds.items() if np.mean(f) >= threshold]

@@ -382,7 +382,9 @@ def _parse_limits(value: Any, ctx: _Context) -> LimitsSpec:
 def _parse_pick(value: Any, ctx: _Context) -> str:
     pick = ctx.string(DEFAULT_PICK if value is None else value, "pick")
     try:
-        rule = check_pick(pick)
+        with warnings.catch_warnings():  # noted below, with key and line
+            warnings.simplefilter("ignore", DeprecationWarning)
+            rule = check_pick(pick)
     except InputError:
         raise ctx.error(f"expected one of {', '.join(PICK_RULES)}, got '{pick}'",
                         "pick") from None
