@@ -14,7 +14,7 @@ from featuresift.objectives import BaseObjective, make_objective, register_objec
 from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult
 from featuresift.search import run_search
-from featuresift.selector import MeasurementSelector
+from featuresift.selector import BuyNothingWarning, MeasurementSelector
 from featuresift.stability import kuncheva_index, nogueira_stability
 from featuresift.strategies import (
     STRATEGIES,
@@ -42,6 +42,7 @@ __all__ = [
     "NestedEvaluation",
     "nested_evaluation",
     "MeasurementSelector",
+    "BuyNothingWarning",
     "kuncheva_index",
     "nogueira_stability",
     "SelectionProblem",
