@@ -69,6 +69,11 @@ def test_fdr_rule_keeps_those_passing_bh():
     assert all(r.startswith("kept: BH q") for r in res.table.loc[res.table.kept, "reason"])
     capped = prescreen(X, y, rule="fdr", alpha=0.05, keep=1)
     assert capped.kept.size == 1
+    # No rule and no keep: the FDR rule (prescreen(X, y) used to fail asking for keep);
+    # with keep and no rule, relevance per cost as before.
+    bare = prescreen(X, y)
+    assert bare.rule == "fdr" and bare.kept.tolist() == res.kept.tolist()
+    assert prescreen(X, y, keep=2).rule == "top_per_cost"
     with pytest.raises(InputError, match="gives no p-values"):
         prescreen(X, y, rule="fdr", relevance="permutation",
                   relevance_options={"cv": 2, "n_repeats": 1})

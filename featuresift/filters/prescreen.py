@@ -153,7 +153,7 @@ def prescreen(
     *,
     relevance: Any = "anova_f",
     relevance_options: dict | None = None,
-    rule: str = "top_per_cost",
+    rule: str | None = None,
     keep: int | None = None,
     alpha: float = 0.05,
     cost_basis: str = "standalone",
@@ -170,7 +170,9 @@ def prescreen(
     relevance : str, dict or callable, default="anova_f"
         Relevance scorer (see :mod:`featuresift.filters.relevance`).
     relevance_options : dict, optional
-    rule : {"top_per_cost", "top", "fdr"}, default="top_per_cost"
+    rule : {"top_per_cost", "top", "fdr"}, optional
+        Default: "top_per_cost" when ``keep`` is given, else "fdr" (the columns whose
+        q-value is at most ``alpha``), so ``prescreen(X, y)`` needs no other argument.
     keep : int, optional
         Columns kept by the "top" rules (required there); an optional cap for "fdr".
     alpha : float, default=0.05
@@ -194,6 +196,8 @@ def prescreen(
     Xa, ya, names = check_xy(X, y)
     cm = resolve_cost_model(costs, names)
     names = list(cm.feature_names)
+    if rule is None:
+        rule = "fdr" if keep is None else "top_per_cost"
     if rule not in SCREEN_RULES:
         raise InputError(f"screen rule must be one of {SCREEN_RULES}, got {rule!r}")
     if keep is not None:
@@ -293,7 +297,7 @@ class ScreenedEstimator(MetaEstimatorMixin, BaseEstimator):
     """
 
     def __init__(self, estimator: Any, *, relevance: Any = "anova_f",
-                 relevance_options: dict | None = None, rule: str = "top_per_cost",
+                 relevance_options: dict | None = None, rule: str | None = None,
                  keep: int | None = None, alpha: float = 0.05,
                  costs: Any = None, cost_basis: str = "standalone",
                  task: str | None = None, cost_model: CostModel | None = None) -> None:
@@ -386,7 +390,7 @@ def screened_search(
     *,
     relevance: Any = "anova_f",
     relevance_options: dict | None = None,
-    rule: str = "top_per_cost",
+    rule: str | None = None,
     keep: int | None = None,
     alpha: float = 0.05,
     cost_basis: str = "standalone",
