@@ -49,6 +49,7 @@ from featuresift.engine.progress import OuterProgress
 from featuresift.errors import FitFailedError, InputError
 from featuresift.problem import SelectionProblem, groups_ignored, split_quietly
 from featuresift.result import SearchResult, _json_safe, load_json, score_label
+from featuresift.scoring import score_range
 from featuresift.search import run_search
 from featuresift.stability import nogueira_stability
 
@@ -60,6 +61,14 @@ NOTHING_LABEL = "(nothing)"
 
 
 CI_METHOD = "corrected resampled t (Nadeau & Bengio 2003)"
+
+
+def _clipped(ci: tuple[float, float] | None,
+             bounds: tuple[float, float]) -> tuple[float, float] | None:
+    """An interval cut to the values the score can take (accuracy never exceeds 1)."""
+    if ci is None:
+        return None
+    return max(ci[0], bounds[0]), min(ci[1], bounds[1])
 
 
 def corrected_t_interval(
@@ -648,7 +657,8 @@ def nested_evaluation(
         n_splits=n_splits,
         confidence=confidence,
         ci=(None if not all(math.isfinite(s) for s in outer_scores)
-            else corrected_t_interval(outer_scores, ratio, confidence)),
+            else _clipped(corrected_t_interval(outer_scores, ratio, confidence),
+                          score_range(scoring, classification))),
         test_train_ratio=ratio,
         inner_failed_fits=[int(r.failures.get("n_failed_fits", 0)) for r in results],
         outer_failures=outer_failures,

@@ -8,6 +8,7 @@ the target fails at once, not in the middle of a search.
 
 from __future__ import annotations
 
+import math
 import warnings
 from typing import Any
 
@@ -18,7 +19,7 @@ from sklearn.utils.multiclass import type_of_target
 
 from featuresift.errors import InputError
 
-__all__ = ["check_scoring_target", "scorer_task"]
+__all__ = ["check_scoring_target", "scorer_task", "score_range"]
 
 _AVERAGED = ("f1", "precision", "recall", "jaccard")
 _BINARY_ONLY = ("positive_likelihood_ratio", "neg_negative_likelihood_ratio")
@@ -44,6 +45,38 @@ def scorer_task(name: str) -> str | None:
     if module.endswith(("_classification", "_ranking")):
         return "classification"
     return None
+
+
+_UNIT_SCORES = ("accuracy", "balanced_accuracy", "top_k_accuracy", "roc_auc",
+                "average_precision", "f1", "precision", "recall", "jaccard")
+
+
+def score_range(scoring: Any, classification: bool) -> tuple[float, float]:
+    """The values a scikit-learn score can take, for clipping intervals of its mean.
+
+    ``None`` is the estimator's own score (accuracy for classifiers, R² otherwise).
+    Scores not known here, and callables, get ``(-inf, inf)``.
+
+    Examples
+    --------
+    >>> score_range("roc_auc_ovr", True), score_range(None, False)
+    ((0.0, 1.0), (-inf, 1.0))
+    >>> score_range("neg_mean_absolute_error", False), score_range("matthews_corrcoef", True)
+    ((-inf, 0.0), (-1.0, 1.0))
+    """
+    if scoring is None:
+        scoring = "accuracy" if classification else "r2"
+    if not isinstance(scoring, str):
+        return -math.inf, math.inf
+    if scoring.startswith("neg_"):
+        return -math.inf, 0.0
+    if scoring in ("r2", "explained_variance") or scoring.startswith("d2_"):
+        return -math.inf, 1.0
+    if scoring == "matthews_corrcoef":
+        return -1.0, 1.0
+    if any(scoring == u or scoring.startswith(u + "_") for u in _UNIT_SCORES):
+        return 0.0, 1.0
+    return -math.inf, math.inf
 
 
 def _classes(y: np.ndarray) -> str:

@@ -123,3 +123,19 @@ def test_an_empty_answer_is_scored_by_the_prior_only_model():
     # Reference: scikit-learn's DummyClassifier(strategy="prior") on the same rows.
     ref = DummyClassifier(strategy="prior").fit(X[tr], y[tr])
     assert got == pytest.approx(scorer(ref, X[te], y[te]), rel=1e-12)
+
+
+def test_interval_is_cut_to_the_values_the_score_can_take():
+    # Wine with GaussianNB: outer accuracies 0.94-1.0, so the corrected-t interval
+    # (Nadeau & Bengio 2003) reaches past 1; accuracy cannot, so the upper end is 1.
+    from scipy import stats
+    from sklearn.datasets import load_wine
+
+    X, y = load_wine(return_X_y=True)
+    ne = nested_evaluation(X, y, GaussianNB(), outer_cv=5, inner_cv=3, strategy="forward",
+                           n_features=3, pick="best")
+    s = np.asarray(ne.outer_scores)
+    half = stats.t.ppf(0.975, s.size - 1) * np.sqrt(
+        (1 / s.size + ne.test_train_ratio) * s.var(ddof=1))
+    assert s.mean() + half > 1  # the case this guards
+    assert ne.ci == pytest.approx((s.mean() - half, 1.0), abs=1e-12)
