@@ -425,13 +425,13 @@ class Frontier:
     def reference_frame(self):
         """One row per reference: ``reference``, ``n_selected``, ``selected``, ``cost``,
         ``score_kind``, ``score_mean``, ``score_sem``, ``allowed`` (some search of the
-        sweep could answer with it), ``headline``."""
+        sweep could answer with it), ``headline``. ``selected`` holds tuples of names."""
         import pandas as pd
 
         head = self.headline_reference
         rows = [{
             "reference": name, "n_selected": len(ref["features"]),
-            "selected": " + ".join(ref["features"]), "cost": float(ref["cost"]),
+            "selected": tuple(ref["features"]), "cost": float(ref["cost"]),
             "score_kind": SCORE_KIND,
             "score_mean": np.nan if ref.get("score_mean") is None else ref["score_mean"],
             "score_sem": np.nan if ref.get("score_sem") is None else ref["score_sem"],
@@ -444,8 +444,10 @@ class Frontier:
     def to_frame(self):
         """One row per budget: budget, chosen features, cost, in-search score, flags.
 
-        ``efficient`` follows :func:`efficient_points`; ``headline`` marks the pick within
-        the run's budget and ``best`` the highest score at any budget.
+        ``selected`` holds tuples of names (as in :meth:`SearchResult.evaluations_frame`;
+        ``frontier.csv`` joins them with " + "). ``efficient`` follows
+        :func:`efficient_points`; ``headline`` marks the pick within the run's budget and
+        ``best`` the highest score at any budget.
         """
         import pandas as pd
 
@@ -458,7 +460,7 @@ class Frontier:
             rows.append({
                 "budget": np.nan if b is None else b,
                 "n_selected": len(r.selected),
-                "selected": " + ".join(r.selected),
+                "selected": tuple(r.selected),
                 "cost": r.cost,
                 "score_kind": SCORE_KIND,
                 "score_mean": r.score_mean,
@@ -471,6 +473,22 @@ class Frontier:
                 "n_failed_fits": int(r.failures.get("n_failed_fits", 0)),
             })
         return pd.DataFrame(rows)
+
+    def csv_frame(self):
+        """:meth:`to_frame` as ``frontier.csv`` holds it: ``selected`` joined with " + "
+        (empty when the search bought nothing).
+
+        Examples
+        --------
+        >>> from sklearn.datasets import load_iris
+        >>> from sklearn.naive_bayes import GaussianNB
+        >>> X, y = load_iris(return_X_y=True)
+        >>> fr = budget_sweep(SelectionProblem(X, y, GaussianNB(), cv=3), [1, 2])
+        >>> fr.to_frame()["selected"][1], fr.csv_frame()["selected"][1]
+        (('x0', 'x3'), 'x0 + x3')
+        """
+        frame = self.to_frame()
+        return frame.assign(selected=[" + ".join(s) for s in frame["selected"]])
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready description of the sweep (``results``: each search in full)."""
@@ -655,12 +673,12 @@ class Frontier:
             mark = "headline" if r.headline else ("best at any budget" if r.best else "")
             lines.append(
                 f"| {'unlimited' if math.isnan(r.budget) else f'{r.budget:g}'} | "
-                f"{r.selected or '(nothing)'} | {cell(r.cost, 2)} | {cell(r.score_mean, 4)} | "
+                f"{_joined(r.selected)} | {cell(r.cost, 2)} | {cell(r.score_mean, 4)} | "
                 f"{cell(r.score_sem, 4)} | {'yes' if r.efficient else ''} | {mark} |"
             )
         for r in self.reference_frame().itertuples():
             lines.append(
-                f"| reference: {r.reference} | {r.selected or '(nothing)'} | "
+                f"| reference: {r.reference} | {_joined(r.selected)} | "
                 f"{cell(r.cost, 2)} | {cell(r.score_mean, 4)} | {cell(r.score_sem, 4)} | | "
                 f"{'headline' if r.headline else ''} |"
             )
@@ -759,7 +777,7 @@ class Frontier:
         (:func:`featuresift.outputs.plots_available`).
         """
         files: dict[str, str | bytes] = {
-            "frontier.csv": self.to_frame().to_csv(index=False),
+            "frontier.csv": self.csv_frame().to_csv(index=False),
             "frontier_choices.csv": self.choice_frequency().to_csv(index=False),
             "frontier.json": json.dumps(self.to_dict(), indent=2) + "\n",
         }
@@ -786,6 +804,11 @@ class Frontier:
         matplotlib there is no ``frontier.png`` (``pip install "featuresift[plots]"``).
         """
         return write_files(folder, self.output_files(plot=plot))
+
+
+def _joined(selected: tuple[str, ...]) -> str:
+    """A ``selected`` cell of :meth:`Frontier.to_frame` in a table of text."""
+    return " + ".join(selected) or "(nothing)"
 
 
 def budget_sweep(

@@ -199,3 +199,36 @@ def test_headline_can_be_a_reference_and_follows_the_guard():
     assert fr.headline_key == "nothing" and fr.headline_index is None
     assert fr.to_dict()["headline_reference"] == "nothing"
     assert "Noise guard (nested) on the headline: replaced by 'nothing'" in fr.answer_lines()
+
+
+def test_to_frame_selected_holds_tuples_and_csv_text_is_unchanged():
+    import io
+    import json
+
+    import pandas as pd
+
+    pts = [_point(0.0, 0.5, 0.01, [], 0.5), _point(1.0, 0.70, 0.01, ["a"], 1.0),
+           _point(4.0, 0.79, 0.01, ["a", "b"], 5.0)]
+    fr = Frontier([0.5, 1.0, None], pts, "EUR", "accuracy", 0, 0, budget=10.0, pick="best")
+    # In Python: tuples of names, as SearchResult.evaluations_frame() gives them.
+    assert fr.to_frame()["selected"].tolist() == [(), ("a",), ("a", "b")]
+    assert all(isinstance(s, tuple) for s in fr.reference_frame()["selected"])
+    # frontier.csv: the exact text written before the column held tuples (captured from
+    # the previous release's output for these points): names joined with " + ".
+    csv = fr.output_files(plot=False)["frontier.csv"]
+    sem = "0.017320508075688745,0.009999999999999985"
+    assert csv == (
+        "budget,n_selected,selected,cost,score_kind,score_mean,score_std,score_sem,"
+        "efficient,headline,best,n_evaluations,n_failed_fits\n"
+        f"0.5,0,,0.0,in-search,0.5,{sem},True,False,False,1,0\n"
+        f"1.0,1,a,1.0,in-search,0.7,{sem},True,False,False,1,0\n"
+        f",2,a + b,4.0,in-search,0.79,{sem},True,True,True,1,0\n")
+    # pandas.read_csv of the file gives back the same names (pandas' own CSV reader).
+    back = pd.read_csv(io.StringIO(csv), keep_default_na=False)["selected"]
+    assert [tuple(s.split(" + ")) if s else () for s in back] == \
+        fr.to_frame()["selected"].tolist()
+    # The JSON round trip keeps the frame, tuples and all.
+    again = Frontier.from_json(json.dumps(fr.to_dict()))
+    pd.testing.assert_frame_equal(again.to_frame(), fr.to_frame())
+    text = "\n".join(fr.to_markdown())
+    assert "| 0.5 | (nothing) | 0.00 |" in text and "| unlimited | a + b | 4.00 |" in text
