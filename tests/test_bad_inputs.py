@@ -366,6 +366,19 @@ D = [
     Case("nested-folds-above-class", "config", ["10 outer folds", "class 1", "only 6 rows"],
          "nested.folds", "nested:", yaml=lambda t: t + "nested: {folds: 10}\n",
          data=_cells(_rare_class(6))),
+    Case("nested-folds-above-rows", "config", ["100 outer folds", "only 60 rows"],
+         "nested.folds", "nested:", yaml=_chain(
+             *REGRESSION, edit("scoring: roc_auc", "scoring: r2"),
+             lambda t: t + "nested: {folds: 100}\n")),
+    Case("guard-folds-above-rows", "config", ["100 outer folds", "only 60 rows", "guard: off"],
+         "guard.folds", "guard:", yaml=_chain(
+             *REGRESSION, edit("scoring: roc_auc", "scoring: r2"),
+             lambda t: t + "guard: {name: nested, folds: 100}\n")),
+    Case("nested-repeats-huge", "config", ["at most 100"], "nested.repeats", "nested:",
+         yaml=lambda t: t + "nested: {folds: 3, repeats: 100000000}\n",
+         argv=["run", "{cfg}", "--dry-run"]),  # without the check a run would hang
+    Case("cli-nested-repeats-huge", "cli", ["--nested-repeats must be 1 ... 100", "1000000"],
+         argv=["run", "{cfg}", "--dry-run", "--nested-repeats", "1000000"]),
     Case("guard-default-folds-above-class", "config",
          ["guard: the noise guard's 5 outer folds (its default)", "only 4 rows", "guard: off"],
          data=_cells(_rare_class(4)), argv=["run", "{cfg}", "--dry-run"]),

@@ -49,6 +49,9 @@ def _check_target(cfg: RunConfig, ctx: _Context) -> None:
 def _check_folds(cfg: RunConfig, ctx: _Context) -> None:
     """Every stratified test fold can hold each class; groups are complete and enough."""
     cv, frame = cfg.cv, cfg.frame
+    if cv.folds > len(frame):
+        raise ctx.error(f"cannot make the CV folds: {cv.folds} folds, but the data has only "
+                        f"{len(frame)} rows", "cv.folds")
     if cfg.stratified:
         counts = frame[cfg.data.target].value_counts()
         if counts.min() < cv.folds:
@@ -256,6 +259,12 @@ def check_outer_folds(cfg: RunConfig, k: int, where: str, *, key: str | None = N
     def left(n: int) -> int:  # the smallest outer training part of n units
         return n - -(-n // k)
 
+    n_rows = len(frame)
+    if n_rows < k:
+        fail(f"the data has only {n_rows} rows")
+    if left(n_rows) < inner:
+        fail(f"an outer training part keeps {left(n_rows)} of the {n_rows} rows, fewer than "
+             f"cv.folds = {inner}")
     if group is not None:
         n_groups = int(frame[group].nunique())
         if n_groups < k:

@@ -20,7 +20,7 @@ from featuresift.config.checks import check_outer_folds
 from featuresift.config.context import _Context
 from featuresift.config.run import _splitter, build_run
 from featuresift.config.schema import RunConfig
-from featuresift.config.sections import Section, register_section
+from featuresift.config.sections import MAX_REPEATS, Section, register_section
 from featuresift.errors import InputError
 
 __all__ = ["nested_from_config", "nested_spec"]
@@ -34,7 +34,8 @@ def _parse_nested(value: Any, ctx: _Context) -> dict | None:
         return None
     d = ctx.mapping(value, "nested", ["folds", "repeats", "confidence"])
     folds = ctx.integer(d.get("folds", 5), "nested.folds", minimum=2)
-    repeats = ctx.integer(d.get("repeats", 1), "nested.repeats", minimum=1)
+    repeats = ctx.integer(d.get("repeats", 1), "nested.repeats", minimum=1,
+                          maximum=MAX_REPEATS)
     conf = ctx.number(d.get("confidence", 0.95), "nested.confidence", minimum=0.0)
     if not 0 < conf < 1:
         raise ctx.error(f"must lie strictly between 0 and 1, got {conf:g}", "nested.confidence")
@@ -70,8 +71,8 @@ def nested_spec(cfg: RunConfig, folds: int | None = None,
         spec["folds"] = folds
         check_outer_folds(cfg, folds, f"--nested {folds}")
     if repeats is not None:
-        if repeats < 1:
-            raise InputError(f"--nested-repeats needs at least 1 repeat, got {repeats}")
+        if not 1 <= repeats <= MAX_REPEATS:
+            raise InputError(f"--nested-repeats must be 1 ... {MAX_REPEATS}, got {repeats}")
         spec["repeats"] = repeats
     return spec
 
