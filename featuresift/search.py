@@ -11,7 +11,7 @@ from typing import Any
 from featuresift._compat import renamed_keywords, warn_renamed
 from featuresift.costs import CostModel, make_cost_model
 from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
-from featuresift.engine.progress import SearchProgress
+from featuresift.engine.progress import Expected, SearchProgress
 from featuresift.errors import InputError
 from featuresift.guard import (
     DEFAULT_GUARD,
@@ -129,6 +129,24 @@ def reference_subsets(space: SearchSpace) -> dict[str, tuple[int, ...]]:
         "free only": tuple(sorted(set(must) | set(free))),
         "everything": tuple(sorted(set(must) | set(space.candidates))),
     }
+
+
+def _expected_total(strat: SearchStrategy, space: SearchSpace,
+                    with_references: bool) -> Expected | None:
+    """Subsets the search will evaluate, references included, as the strategy knows it
+    (``expected_evaluations``: an int is exact), or None."""
+    fn = getattr(strat, "expected_evaluations", None)
+    exp = fn(space) if callable(fn) else None
+    if exp is None:
+        return None
+    if not isinstance(exp, Expected):
+        exp = Expected(int(exp))
+    if not with_references:
+        return exp
+    refs = set(reference_subsets(space).values())
+    if exp.subsets is not None:  # exact: references the strategy evaluates count once
+        return Expected(len(refs | set(exp.subsets)), exp.kind)
+    return Expected(exp.n + len(refs), exp.kind)
 
 
 def _evaluate_references(space: SearchSpace) -> dict[str, Scored]:
@@ -472,10 +490,11 @@ def _search(evaluator, strat, cost_model, names, budget, objective, max_features
     fits_before = evaluator.n_fits
     hits_before = evaluator.n_cache_hits
     limited = False
-    expected = getattr(strat, "expected_evaluations", None)
-    total = expected(space) if callable(expected) else None
+    total = _expected_total(strat, space, with_references)
+    if max_evaluations is not None and (total is None or total.n > max_evaluations):
+        total = Expected(max_evaluations, "at most")
     space.progress = SearchProgress(
-        verbose, total=total or max_evaluations, max_time_s=max_time_s,
+        verbose, total=total, max_time_s=max_time_s,
         desc=strat.name + ("" if budget is None else f" (budget {budget:g})"))
     refs: dict[str, Scored] = {}
     try:

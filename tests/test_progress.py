@@ -101,3 +101,67 @@ def test_a_sweep_shows_each_budgets_search_not_per_batch_bars(problem, capsys, m
     assert len(lines) == sum(len(r.path) for r in fr.results)
     assert lines[0].startswith("forward (budget 1) step 0: add ")
     assert lines[-1].startswith("forward (budget 2) step ")
+
+
+def test_greedy_swap_time_left_exact_when_it_enumerates(problem, capsys, monkeypatch):
+    import math
+
+    monkeypatch.setattr(progress, "interactive", lambda: False)
+    totals = []
+    init = progress.SearchProgress.__init__
+
+    def spy(self, *args, **kwargs):
+        init(self, *args, **kwargs)
+        totals.append((self.total, self.kind))
+
+    monkeypatch.setattr(progress.SearchProgress, "__init__", spy)
+    res = run_search(problem, "greedy-swap", verbose=1, guard="off")
+    lines = capsys.readouterr().err.strip().splitlines()
+    # iris has 4 measurements: 2**4 - 1 non-empty subsets (math.comb sum) plus the empty
+    # 'nothing' reference, all known before the first fit.
+    n = sum(math.comb(4, k) for k in range(1, 5)) + 1
+    assert totals == [(n, "exact")] and res.n_evaluations == n
+    assert lines and all("s left" in line and "about" not in line
+                         and "unknown" not in line for line in lines)
+
+
+def test_greedy_swap_time_left_is_an_estimate_past_64_subsets(capsys, monkeypatch):
+    from sklearn.datasets import load_wine
+
+    from featuresift import CostModel
+
+    monkeypatch.setattr(progress, "interactive", lambda: False)
+    # scikit-learn's wine data, 13 measurements; invented prices; 69 affordable subsets.
+    X, y = load_wine(return_X_y=True)
+    names = [f"m{i}" for i in range(13)]
+    cm = CostModel(names, {n: float(1 + i % 4) for i, n in enumerate(names)})
+    p = SelectionProblem(X, y, GaussianNB(), costs=cm, cv=3, feature_names=names)
+    assert cm.allowed(4.0).count(limit=64) > 64  # so greedy-swap does not enumerate
+    res = run_search(p, "greedy-swap", budget=4, verbose=1, guard="off")
+    lines = capsys.readouterr().err.strip().splitlines()
+    assert len(lines) == len(res.path) >= 2
+    for line in lines:  # an estimate says so; past it, no number is given
+        assert ("about" in line and "s left" in line) or "past the estimate" in line
+        assert "time left unknown" not in line or "past the estimate" in line
+
+
+def test_time_left_wording_of_bounds_and_estimates():
+    out = io.StringIO()
+    bar = progress.SearchProgress(1, total=progress.Expected(10, "about"), stream=out,
+                                  interactive_session=False)
+    bar.evaluated(5, 0.9)
+    bar.step(0, "add", "ph", 1)
+    bar.evaluated(12, 0.9)  # past the estimate
+    bar.step(1, "add", "ash", 2)
+    bar.expect(20)  # the strategy's new estimate
+    bar.step(2, "move", None, 2)
+    first, second, third = out.getvalue().splitlines()
+    assert first.endswith(" s left") and "about " in first
+    assert second.endswith("time left unknown (past the estimate of 10 subsets)")
+    assert "about " in third and third.endswith(" s left")
+    out = io.StringIO()
+    bar = progress.SearchProgress(1, total=progress.Expected(10, "at most"), stream=out,
+                                  interactive_session=False)
+    bar.evaluated(4, None)
+    bar.step(0, "add", "ph", 1)
+    assert "up to " in out.getvalue()

@@ -3,7 +3,9 @@
 :class:`SearchProgress` is what :func:`featuresift.run_search` shows: **one bar for the
 whole search** with the subsets evaluated, the current step, the best score so far and
 the time left (when the search has a known size: an evaluation limit, or a strategy
-that says how many subsets it will evaluate; with a time limit, the time left of it).
+that says how many subsets it will evaluate, exactly, at most or about (:class:`Expected`;
+"up to 12 s left", "about 12 s left", and no number once an estimate is passed); with a
+time limit, the time left of it).
 
 * ``verbose=0``: nothing.
 * ``verbose=1``: in a Jupyter kernel or on a terminal (standard error), the bar
@@ -18,9 +20,45 @@ from __future__ import annotations
 
 import sys
 from collections.abc import Sequence
+from dataclasses import dataclass, field
 from typing import Any
 
-__all__ = ["make_progress", "interactive", "SearchProgress", "OuterProgress"]
+__all__ = ["make_progress", "interactive", "SearchProgress", "OuterProgress", "Expected"]
+
+_KINDS = ("exact", "at most", "about")
+
+
+@dataclass(frozen=True)
+class Expected:
+    """How many subsets a search will evaluate, and how sure that number is.
+
+    A strategy's ``expected_evaluations(space)`` returns one (a bare int means exact);
+    the progress display words the time left accordingly.
+
+    Parameters
+    ----------
+    n : int
+        The number of distinct subsets.
+    kind : {"exact", "at most", "about"}, default="exact"
+        ``"exact"``: the search evaluates exactly ``n``; ``"at most"``: an upper bound;
+        ``"about"``: an estimate that can be wrong either way.
+    subsets : frozenset of tuple of int, optional
+        The subsets themselves when known (an enumeration): the driver then counts the
+        reference subsets not among them exactly.
+
+    Examples
+    --------
+    >>> Expected(40, "about")
+    Expected(n=40, kind='about', subsets=None)
+    """
+
+    n: int
+    kind: str = "exact"
+    subsets: frozenset | None = field(default=None, repr=True)
+
+    def __post_init__(self) -> None:
+        if self.kind not in _KINDS:
+            raise ValueError(f"kind must be one of {_KINDS}, got {self.kind!r}")
 
 
 def interactive() -> bool:
@@ -114,8 +152,10 @@ class SearchProgress:
     ----------
     verbose : int
         0: off; 1: a bar when interactive, else one line per step; 2 or more: a bar.
-    total : int, optional
-        Subsets the search will evaluate, when known (gives the time left).
+    total : int or Expected, optional
+        Subsets the search will evaluate, when known (gives the time left): an int is
+        exact; an :class:`Expected` says whether it is exact, an upper bound ("up to
+        N s left") or an estimate ("about N s left"; past it, the time left is unknown).
     max_time_s : float, optional
         The search's time limit (gives the time left when ``total`` is unknown).
     desc : str
@@ -141,7 +181,10 @@ class SearchProgress:
         import time
 
         self.verbose = int(verbose)
-        self.total = total
+        if isinstance(total, Expected):
+            self.total, self.kind = total.n, total.kind
+        else:
+            self.total, self.kind = total, "exact"
         self.max_time_s = max_time_s
         self.desc = desc
         self.stream = stream if stream is not None else sys.stderr
@@ -149,25 +192,41 @@ class SearchProgress:
         self.best: float | None = None
         self.last = ""
         self._t0 = time.perf_counter()
-        self.mode, self._bar = _open_display(self.verbose, interactive_session, total, desc,
-                                             "subset")
+        self.mode, self._bar = _open_display(self.verbose, interactive_session, self.total,
+                                             desc, "subset")
 
     def _elapsed(self) -> float:
         import time
 
         return time.perf_counter() - self._t0
 
+    def expect(self, n: int, kind: str = "about") -> None:
+        """Replace the expected number of subsets (a strategy's new estimate)."""
+        Expected(n, kind)  # checks the kind
+        self.total, self.kind = int(n), kind
+        if self._bar is not None:
+            self._bar.total = max(self.total, self.n)
+            self._bar.refresh()
+
     def _left(self) -> str:
         elapsed = self._elapsed()
+        if self.total and self.n and self.kind != "exact" and self.n >= self.total:
+            # Past an estimate or a bound: any number would be a guess known to be wrong.
+            what = "estimate" if self.kind == "about" else "bound"
+            return f"time left unknown (past the {what} of {self.total} subsets)"
         if self.total and self.n:
-            return f"{elapsed / self.n * max(self.total - self.n, 0):.0f} s left"
+            left = f"{elapsed / self.n * max(self.total - self.n, 0):.0f} s left"
+            return {"exact": left, "at most": "up to " + left, "about": "about " + left}[
+                self.kind]
         if self.max_time_s is not None:
             return f"at most {max(self.max_time_s - elapsed, 0):.0f} s left"
         return "time left unknown"
 
     def _postfix(self) -> str:
         best = "-" if self.best is None else f"{self.best:.4f}"
-        return f"{self.last} best {best} in-search"
+        size = "" if self.kind == "exact" or not self.total else \
+            f", {self.kind} {self.total} subsets in all"
+        return f"{self.last} best {best} in-search{size}"
 
     def evaluated(self, n_evaluations: int, best: float | None) -> None:
         """Record the subsets evaluated so far and the best score so far."""
@@ -178,6 +237,9 @@ class SearchProgress:
         if best is not None and (self.best is None or best > self.best):
             self.best = best
         if self._bar is not None and grew > 0:
+            if self.kind != "exact" and self._bar.total is not None \
+                    and self.n > self._bar.total:
+                self._bar.total = self.n  # past an estimate: the bar shows the count
             self._bar.update(grew)
             self._bar.set_postfix_str(self._postfix(), refresh=False)
 
@@ -196,8 +258,12 @@ class SearchProgress:
                   file=self.stream, flush=True)
 
     def close(self) -> None:
-        """Finish the display."""
+        """Finish the display (an estimated total becomes the count done)."""
         if self._bar is not None:
+            if self.kind != "exact" and self.n:  # done: the count is now exact
+                self.total, self.kind = self.n, "exact"
+                self._bar.total = self.n
+                self._bar.set_postfix_str(self._postfix(), refresh=False)
             self._bar.close()
             self._bar = None
 

@@ -490,6 +490,16 @@ class SearchSpace:
                 best = s
         return best
 
+    def expect(self, n_more: int, kind: str = "about") -> None:
+        """Tell the progress display that about ``n_more`` more subsets lie ahead.
+
+        ``kind`` is ``"about"`` (an estimate), ``"at most"`` or ``"exact"``
+        (:class:`~featuresift.engine.progress.Expected`). Subsets already evaluated
+        count as done; nothing happens when no progress is shown.
+        """
+        if self.progress is not None:
+            self.progress.expect(self.n_evaluations + int(n_more), kind)
+
     # ------------------------------------------------------------------ record
     def record(self, action: str, subset: Iterable[int], feature: int | None = None) -> PathStep:
         """Append a step to the path (the subset must have been evaluated)."""

@@ -55,6 +55,9 @@ trades the swap guarantee for fewer fits (see the README's table).
 
 from __future__ import annotations
 
+import math
+
+from featuresift.engine.progress import Expected
 from featuresift.strategies._options import check_int
 from featuresift.strategies.base import Scored, SearchSpace, SearchStrategy, register_strategy
 from featuresift.strategies.sequential import ForwardSelection, best_allowed
@@ -181,6 +184,12 @@ def local_search(space: SearchSpace, start: Scored, size: int | None = None,
         sub = current.subset
         batch = neighbourhood(space, sub, size)
         swaps = [n for n in batch if _is_swap(sub, n)]
+        # The round ahead when nothing improves (then it is the last one): for progress.
+        fresh = sum(1 for n in batch if n not in space.visited)
+        fresh_swaps = sum(1 for n in swaps if n not in space.visited)
+        if swap_candidates is not None:
+            fresh = fresh - fresh_swaps + min(fresh_swaps, swap_candidates ** 2)
+        space.expect(fresh + (0 if paired or pair_moves < 2 else math.comb(pair_moves, 2)))
         scored = space.evaluate([n for n in batch if not _is_swap(sub, n)])
         best = space.best_of(scored)
         if (best is None or best.rank_key <= current.rank_key) and swaps:
@@ -251,7 +260,9 @@ class GreedySwapSearch(SearchStrategy):
         self.cost_rule = cost_rule
         self.n_features = n_features
 
-    def run(self, space: SearchSpace) -> None:
+    def _enumeration(self, space: SearchSpace) -> list[tuple[int, ...]] | None:
+        """The subsets rule 1 evaluates (empty: none is allowed), or None when there are
+        too many to enumerate."""
         size = self.n_features
         allowed = space.allowed_subsets()
         if size is not None:
@@ -261,10 +272,70 @@ class GreedySwapSearch(SearchStrategy):
                 max_features=min(size, space.max_features))
         n_allowed = allowed.count(limit=self.exhaustive_limit)
         if n_allowed == 0:
+            return []
+        if n_allowed > self.exhaustive_limit:
+            return None
+        return [s for s in allowed if size is None or len(s) == size] or list(allowed)
+
+    def expected_evaluations(self, space: SearchSpace) -> Expected:
+        """Subsets the search will evaluate (for progress: the time left).
+
+        Exact when the allowed subsets are enumerated (rule 1). Otherwise an estimate
+        (``"about"``): the greedy phase and one round of moves as if the search bought
+        the cheapest affordable measurements, as many as the budget holds, counting at
+        each step the measurements still affordable. How many rounds the local search
+        makes is not known in advance; each round tells the progress display what it is
+        about to evaluate
+        (:meth:`~featuresift.strategies.base.SearchSpace.expect`).
+
+        Examples
+        --------
+        >>> from featuresift.engine.evaluator import CriterionEvaluator
+        >>> from featuresift.costs import CostModel
+        >>> cm = CostModel(list("abc"), {"a": 1.0, "b": 4.0, "c": 1.0})
+        >>> space = SearchSpace(CriterionEvaluator(len, 3), cm, budget=4)
+        >>> GreedySwapSearch().expected_evaluations(space).n
+        4
+        """
+        subsets = self._enumeration(space)
+        if subsets is not None:
+            return Expected(len(subsets), "exact", frozenset(subsets))
+        must = tuple(space.must_include)
+        base = space.cost(must)
+        singles = sorted(space.cost(must + (f,)) - base for f in space.free_candidates
+                         if space.is_allowed(must + (f,)))
+        m = len(singles)
+        room = math.inf if space.budget is None else space.budget - base
+        rooms = [room]  # budget left after buying the i cheapest
+        for c in singles:
+            if c > rooms[-1] + 1e-12:
+                break
+            rooms.append(rooms[-1] - c)
+        k = len(rooms) - 1
+        k = min(k, space.max_features - len(must))
+        if self.n_features is not None:
+            k = min(k, max(self.n_features - len(must), 1))
+        k = max(min(k, m), 1)
+        left = rooms[min(k, len(rooms) - 1)]
+
+        def fitting(extra: float, start: int) -> int:
+            return sum(1 for c in singles[start:] if c <= extra + 1e-12)
+
+        n_paths = 2 if self.cost_rule == "both" else 1
+        greedy = n_paths * sum(fitting(rooms[i], i) for i in range(min(k, len(rooms))))
+        one_round = (k + fitting(left, k) + sum(fitting(singles[i] + left, k)
+                                                 for i in range(min(k, m)))
+                     + math.comb(self.pair_moves, 2))
+        greedy += 1 if must else 0
+        return Expected(greedy + one_round, "about")
+
+    def run(self, space: SearchSpace) -> None:
+        size = self.n_features
+        subsets = self._enumeration(space)
+        if subsets == []:
             space.stop_reason = "no allowed subset"
             return
-        if n_allowed <= self.exhaustive_limit:
-            subsets = [s for s in allowed if size is None or len(s) == size] or list(allowed)
+        if subsets is not None:
             best = None
             for i in range(0, len(subsets), _BATCH):
                 best = space.best_of([*([best] if best else []),

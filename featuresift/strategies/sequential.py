@@ -72,6 +72,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable
 
+from featuresift.engine.progress import Expected
 from featuresift.errors import InputError
 from featuresift.strategies.base import (
     Scored,
@@ -401,9 +402,9 @@ class ForwardSelection(SearchStrategy):
         self.tol = tol
         self.cost_rule = cost_rule
 
-    def expected_evaluations(self, space: SearchSpace) -> int:
+    def expected_evaluations(self, space: SearchSpace) -> Expected:
         """An upper bound of the subsets evaluated (for progress: the time left)."""
-        return _at_most(space, self.n_features, self.cost_rule)
+        return Expected(_at_most(space, self.n_features, self.cost_rule), "at most")
 
     def run(self, space: SearchSpace) -> None:
         start = tuple(space.must_include)
@@ -493,9 +494,9 @@ class BackwardSelection(SearchStrategy):
         self.tol = tol
         self.cost_rule = cost_rule
 
-    def expected_evaluations(self, space: SearchSpace) -> int:
+    def expected_evaluations(self, space: SearchSpace) -> Expected:
         """An upper bound of the subsets evaluated (for progress: the time left)."""
-        return _at_most(space, self.n_features, self.cost_rule)
+        return Expected(_at_most(space, self.n_features, self.cost_rule), "at most")
 
     def run(self, space: SearchSpace) -> None:
         first: list[tuple[int, ...]] | None = None
