@@ -42,6 +42,8 @@ __all__ = [
     "cost_model_repr",
     "cost_model_html",
     "plot_path",
+    "plot_nested",
+    "plot_selection_frequency",
     "screen_repr",
     "screen_html",
     "filter_selection_repr",
@@ -255,10 +257,7 @@ def plot_path(res: Any, ax: Any = None) -> Any:
     The score is drawn on ``ax`` against the step number; the cost of the subset at
     each step on a twin axis (right). Requires matplotlib.
     """
-    if ax is None:
-        import matplotlib.pyplot as plt
-
-        _, ax = plt.subplots(figsize=(7, 4))
+    ax = _new_axes(ax, (7, 4))
     steps = [r.step for r in res.path]
     scores = [r.score_mean for r in res.path]
     n = max(len(res.fold_scores), 1)
@@ -413,6 +412,90 @@ def nested_html(ne: Any) -> str:
         ),
     ]
     return _block("featuresift nested evaluation", parts)
+
+
+def _new_axes(ax: Any, size: tuple[float, float]) -> Any:
+    """``ax``, or the axes of a new pyplot figure (pyplot never changes the backend)."""
+    if ax is None:
+        import matplotlib.pyplot as plt
+
+        _, ax = plt.subplots(figsize=size)
+    return ax
+
+
+def plot_nested(ne: Any, ax: Any = None) -> Any:
+    """Per outer search, its in-search score beside its nested score; returns the axes.
+
+    Open circles: the in-search estimate (optimistic) the search gave its own choice;
+    filled: the nested estimate (honest) on the outer test fold it never saw; a grey
+    line joins the two. Horizontal lines: both means; the band: the confidence
+    interval of the nested mean. Outer searches are numbered as in the HTML table; up
+    to 12 of them are labelled with the cost of their choice. Requires matplotlib.
+    """
+    import numpy as np
+
+    ax = _new_axes(ax, (7, 4.5))
+    inner = np.asarray(ne.inner_scores, dtype=float)
+    outer = np.asarray(ne.outer_scores, dtype=float)
+    x = np.arange(len(outer))
+    u = ne.cost_unit
+    ax.vlines(x, np.fmin(inner, outer), np.fmax(inner, outer), color="0.75", lw=1)
+    ax.plot(x, inner, "o", mfc="none", color="tab:orange",
+            label=f"{score_kind_label('in-search')}: each outer search's own")
+    ax.plot(x, outer, "o", color="tab:blue",
+            label=f"{score_kind_label('nested')}: its outer test fold")
+    if math.isfinite(ne.inner_mean):
+        ax.axhline(ne.inner_mean, ls="--", lw=1, color="tab:orange",
+                   label=f"mean in-search {ne.inner_mean:.4f}")
+    if math.isfinite(ne.outer_mean):
+        ax.axhline(ne.outer_mean, lw=1.5, color="tab:blue",
+                   label=f"mean nested {ne.outer_mean:.4f}")
+    ci = getattr(ne, "ci", None)
+    if ci is not None and math.isfinite(ne.outer_mean):
+        ax.axhspan(ci[0], ci[1], color="tab:blue", alpha=0.12, lw=0,
+                   label=f"{ne.confidence:.0%} CI of the nested mean "
+                         f"[{ci[0]:.4f}, {ci[1]:.4f}]")
+    reps = list(getattr(ne, "repeats", []) or [])
+    for i in range(1, len(reps)):
+        if reps[i] != reps[i - 1]:  # a new repeat of the outer folds
+            ax.axvline(i - 0.5, ls=":", color="0.6", lw=1)
+    ax.set_xticks(x)
+    if len(x) <= 12:
+        ax.set_xticklabels([f"{i}\n{c:g} {u}" for i, c in zip(x, ne.costs)], fontsize=8)
+        ax.set_xlabel(f"outer search (below: acquisition cost of its choice, {u} per sample)")
+    else:
+        ax.set_xlabel("outer search")
+    ax.set_ylabel(ne.scoring)
+    ax.set_title(f"Nested CV ({ne.design}): optimism of the in-search estimate "
+                 f"{ne.optimism:+.4f}\nmean cost of the choices "
+                 f"{float(np.mean(ne.costs)):.4g} {u} per sample", fontsize=9)
+    ax.grid(alpha=0.3)
+    ax.legend(loc="best", fontsize=7)
+    return ax
+
+
+def plot_selection_frequency(ne: Any, ax: Any = None, max_features: int = 20) -> Any:
+    """Share of outer searches that chose each measurement (bars); returns the axes.
+
+    Most often chosen on top, at most ``max_features`` bars (never chosen ones last);
+    the title gives the stability of the choice (Nogueira et al. 2018). Requires
+    matplotlib.
+    """
+    ax = _new_axes(ax, (6, 0.6 + 0.3 * min(len(ne.selection_frequency), max_features)))
+    ranked = sorted(ne.selection_frequency.items(), key=lambda kv: -kv[1])[:max_features]
+    names = [n for n, _ in ranked][::-1]
+    shares = [v for _, v in ranked][::-1]
+    ax.barh(names, shares, color="tab:blue")
+    for i, v in enumerate(shares):
+        ax.annotate(f"{v:.2f}", (v, i), textcoords="offset points", xytext=(3, -3),
+                    fontsize=7)
+    ax.set_xlim(0, 1.08)
+    ax.set_xlabel(f"share of the {len(ne.outer_scores)} outer searches choosing it")
+    stab = "undefined" if ne.stability is None else f"{ne.stability:.3f}"
+    ax.set_title(f"Measurements chosen in nested CV ({ne.design})\nstability of the "
+                 f"choice (Nogueira et al. 2018): {stab}", fontsize=9)
+    ax.grid(alpha=0.3, axis="x")
+    return ax
 
 
 # ------------------------------------------------------------ SelectionProblem

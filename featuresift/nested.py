@@ -407,6 +407,71 @@ class NestedEvaluation:
             lines += ["", f"**{failed[0]}**", "", *(f"- {t.strip()}" for t in failed[1:])]
         return lines
 
+    def plot(self, ax=None):
+        """Draw, per outer search, the in-search score beside the nested score.
+
+        The in-search estimate (optimistic: the score the search gave its own choice)
+        is an open circle, the nested estimate (honest: the refitted choice on the outer
+        test fold the search never saw) a filled one; lines mark both means and a band
+        the confidence interval :attr:`ci` of the nested mean. Up to 12 outer searches
+        are labelled with the acquisition cost of their choice (in :attr:`cost_unit`).
+
+        Parameters
+        ----------
+        ax : matplotlib Axes, optional
+            Where to draw; None: a new figure from ``matplotlib.pyplot``. The matplotlib
+            backend is left as it is.
+
+        Returns
+        -------
+        matplotlib Axes
+
+        See Also
+        --------
+        plot_selection : how often each measurement was chosen.
+
+        Examples
+        --------
+        >>> from matplotlib.figure import Figure
+        >>> ne = NestedEvaluation([0.90, 0.85, 0.88], [0.95, 0.93, 0.94], [["a"], ["a", "b"],
+        ...                       ["a"]], [1.0, 3.0, 1.0], {"a": 1.0, "b": 1 / 3}, None,
+        ...                       "EUR", "accuracy", ci=(0.80, 0.95))
+        >>> ax = ne.plot(ax=Figure().subplots())
+        >>> [line.get_ydata().tolist() for line in ax.lines[:2]]  # in-search, nested
+        [[0.95, 0.93, 0.94], [0.9, 0.85, 0.88]]
+        """
+        from featuresift.display import plot_nested
+
+        return plot_nested(self, ax)
+
+    def plot_selection(self, ax=None, max_features: int = 20):
+        """Bars: the share of outer searches that chose each measurement.
+
+        Parameters
+        ----------
+        ax : matplotlib Axes, optional
+            Where to draw; None: a new figure from ``matplotlib.pyplot`` (the backend
+            is left as it is).
+        max_features : int, default=20
+            The most often chosen measurements shown.
+
+        Returns
+        -------
+        matplotlib Axes
+
+        Examples
+        --------
+        >>> from matplotlib.figure import Figure
+        >>> ne = NestedEvaluation([0.9, 0.8], [0.9, 0.9], [["a"], ["a", "b"]], [1.0, 3.0],
+        ...                       {"a": 1.0, "b": 0.5, "c": 0.0}, 0.4, "EUR", "accuracy")
+        >>> ax = ne.plot_selection(ax=Figure().subplots())
+        >>> [float(p.get_width()) for p in ax.patches]  # bottom to top
+        [0.0, 0.5, 1.0]
+        """
+        from featuresift.display import plot_selection_frequency
+
+        return plot_selection_frequency(self, ax, max_features)
+
     def __repr__(self) -> str:
         from featuresift.display import nested_repr
 

@@ -248,3 +248,45 @@ def test_cost_model_repr_counts_what_is_on_hand_and_prices_everything(objects):
     text = repr(objects["costs"])
     # By hand from the fixture: sl 1 + sw 0 + the petal panel 3 (pl and pw) = 4 EUR.
     assert "on hand 1, everything 4 EUR" in text and len(text) < 200
+
+
+def test_nested_plots_show_both_scores_and_keep_the_backend(objects):
+    from collections import Counter
+
+    matplotlib = pytest.importorskip("matplotlib")
+    pytest.importorskip("matplotlib_inline")
+    import matplotlib.pyplot as plt
+    from matplotlib.axes import Axes
+
+    ne = objects["nested"]
+    before = matplotlib.get_backend()
+    try:
+        matplotlib.use("module://matplotlib_inline.backend_inline")
+        inline = matplotlib.get_backend()
+        ax = ne.plot()
+        assert isinstance(ax, Axes)
+        assert matplotlib.get_backend() == inline  # matplotlib's own report of it
+        labels = ax.get_legend_handles_labels()[1]
+        inner, outer = ax.lines[0], ax.lines[1]
+        assert "in-search" in labels[0] and "nested" in labels[1]
+        np.testing.assert_allclose(inner.get_ydata(), ne.inner_scores)
+        np.testing.assert_allclose(outer.get_ydata(), ne.outer_scores)
+        # The mean lines: numpy's mean of the plotted scores.
+        means = {lab.split()[1]: line.get_ydata()[0]
+                 for line, lab in zip(ax.lines[2:4], labels[2:4])}
+        assert means == {"in-search": pytest.approx(np.mean(ne.inner_scores)),
+                         "nested": pytest.approx(np.mean(ne.outer_scores))}
+        band = ax.patches[-1].get_path().get_extents(ax.patches[-1].get_transform())
+        lo, hi = ax.transData.inverted().transform([[0, band.y0], [0, band.y1]])[:, 1]
+        assert (lo, hi) == pytest.approx(ne.ci, abs=1e-9) and "CI" in labels[-1]
+        assert "EUR" in ax.get_xlabel()
+        # Bars: the share counted here from each outer search's choice.
+        bars = ne.plot_selection()
+        counts = Counter(f for s in ne.selected for f in s)
+        shares = {t.get_text(): p.get_width()
+                  for t, p in zip(bars.get_yticklabels(), bars.patches)}
+        assert shares == {n: pytest.approx(counts[n] / len(ne.selected)) for n in NAMES}
+        assert matplotlib.get_backend() == inline
+        plt.close("all")
+    finally:
+        matplotlib.use(before)
