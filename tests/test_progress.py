@@ -165,3 +165,23 @@ def test_time_left_wording_of_bounds_and_estimates():
     bar.evaluated(4, None)
     bar.step(0, "add", "ph", 1)
     assert "up to " in out.getvalue()
+
+
+def test_greedy_swap_estimate_never_passes_the_evaluation_limit(capsys, monkeypatch):
+    from sklearn.datasets import load_wine
+
+    monkeypatch.setattr(progress, "interactive", lambda: False)
+    totals = []
+    expect = progress.SearchProgress.expect
+
+    def spy(self, n, kind="about"):
+        expect(self, n, kind)
+        totals.append((self.total, self.kind))
+
+    monkeypatch.setattr(progress.SearchProgress, "expect", spy)
+    X, y = load_wine(return_X_y=True)  # scikit-learn's wine data: 8191 subsets
+    p = SelectionProblem(X, y, GaussianNB(), cv=3)
+    res = run_search(p, "greedy-swap", max_evaluations=110, verbose=1, guard="off")
+    assert res.n_evaluations == 110 and totals  # the local search re-estimated
+    assert all(n <= 110 for n, _ in totals) and ("at most" in {k for _, k in totals})
+    assert "time left unknown" not in capsys.readouterr().err

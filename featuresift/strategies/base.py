@@ -495,10 +495,15 @@ class SearchSpace:
 
         ``kind`` is ``"about"`` (an estimate), ``"at most"`` or ``"exact"``
         (:class:`~featuresift.engine.progress.Expected`). Subsets already evaluated
-        count as done; nothing happens when no progress is shown.
+        count as done; an evaluation limit caps the total ("at most"); nothing happens
+        when no progress is shown.
         """
-        if self.progress is not None:
-            self.progress.expect(self.n_evaluations + int(n_more), kind)
+        if self.progress is None:
+            return
+        total = self.n_evaluations + int(n_more)
+        if self.max_evaluations is not None and total > self.max_evaluations:
+            total, kind = self.max_evaluations, "at most"  # the limit stops it there
+        self.progress.expect(total, kind)
 
     # ------------------------------------------------------------------ record
     def record(self, action: str, subset: Iterable[int], feature: int | None = None) -> PathStep:
