@@ -165,8 +165,16 @@ def cmd_run(args: argparse.Namespace, out: TextIO) -> int:
     else:
         out.write("The CV score of a searched subset is optimistic for new data: the search "
                   "chose it on these folds (use --nested K for an honest estimate).\n")
+    _write_plots_hint(out, written, ["nested.png"] if nested is not None else [])
     _write_footer(out, folder, final, written, result.extras.get("engine"))
     return 0
+
+
+def _write_plots_hint(out: TextIO, written: list[Path], plots: list[str]) -> None:
+    """Name the plots that could not be drawn (no matplotlib) and how to get them."""
+    missing = [name for name in plots if not any(p.name == name for p in written)]
+    if missing:
+        out.write(f"No {' or '.join(missing)}: {PLOTS_HINT}.\n")
 
 
 def _write_footer(out: TextIO, folder: RunFolder, final: Path, written: list[Path],
@@ -245,8 +253,8 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
     out.write(f"\n{frontier.n_fits} model fits for the sweep "
               f"({frontier.n_fits_without_cache} without sharing evaluations between "
               "budgets).\n")
-    if not any(p.name == "frontier.png" for p in written):
-        out.write(f"No frontier.png: {PLOTS_HINT}.\n")
+    _write_plots_hint(out, written, ["frontier.png"]
+                      + (["nested.png"] if frontier.nested is not None else []))
     engine = frontier.results[-1].extras.get("engine") if frontier.results else None
     _write_footer(out, folder, final, written, engine)
     return 0

@@ -49,7 +49,7 @@ from featuresift.costs import CostModel
 from featuresift.engine.evaluator import BaseEvaluator, CrossValidationEvaluator
 from featuresift.engine.journal import reuse_message
 from featuresift.errors import InputError
-from featuresift.outputs import PLOTS_HINT, RunFolder, plots_available, write_files
+from featuresift.outputs import PLOTS_HINT, RunFolder, figure_png, write_files
 from featuresift.problem import SelectionProblem
 from featuresift.result import SearchResult, load_json, score_label
 from featuresift.search import prepare_for_objective, run_search
@@ -781,18 +781,9 @@ class Frontier:
             "frontier_choices.csv": self.choice_frequency().to_csv(index=False),
             "frontier.json": json.dumps(self.to_dict(), indent=2) + "\n",
         }
-        if plot and plots_available():
-            import io
-
-            from matplotlib.figure import Figure
-
-            # A bare Figure needs no pyplot and leaves the user's backend alone.
-            fig = Figure(figsize=(7, 4.5))
-            self.plot(ax=fig.subplots())
-            fig.tight_layout()
-            buf = io.BytesIO()
-            fig.savefig(buf, format="png", dpi=120)
-            files["frontier.png"] = buf.getvalue()
+        png = figure_png(lambda fig: self.plot(ax=fig.subplots()), (7, 4.5)) if plot else None
+        if png is not None:
+            files["frontier.png"] = png
         return files
 
     def write(self, folder: str | os.PathLike | RunFolder, plot: bool = True) -> list[Path]:

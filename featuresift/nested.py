@@ -33,6 +33,7 @@ import json
 import math
 import os
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -47,6 +48,7 @@ from featuresift.costs import CostModel  # noqa: F401 - the docstring examples u
 from featuresift.engine.evaluator import check_error_score
 from featuresift.engine.progress import OuterProgress
 from featuresift.errors import FitFailedError, InputError
+from featuresift.outputs import PLOTS_HINT, RunFolder, figure_png, plots_available, write_files
 from featuresift.problem import SelectionProblem, groups_ignored, split_quietly
 from featuresift.result import SearchResult, _json_safe, load_json, score_label
 from featuresift.scoring import score_range
@@ -377,8 +379,13 @@ class NestedEvaluation:
         lines += self.failure_lines()
         return "\n".join(lines)
 
-    def to_markdown(self) -> list[str]:
-        """Lines of the report section on the nested estimate."""
+    def to_markdown(self, plot: str | None = None) -> list[str]:
+        """Lines of the report section on the nested estimate.
+
+        ``plot`` is the file name of the figure beside the report (``nested.png``, see
+        :meth:`output_files`), linked at the end of the section. With None and no
+        matplotlib, the section ends with how to get plots instead of an image link.
+        """
         lines = [
             "## Honest estimate (nested cross-validation)",
             "",
@@ -405,7 +412,48 @@ class NestedEvaluation:
         failed = self.failure_lines()
         if failed:
             lines += ["", f"**{failed[0]}**", "", *(f"- {t.strip()}" for t in failed[1:])]
+        if plot:
+            lines += ["", f"![in-search and nested scores per outer search, and the "
+                      f"measurements chosen]({plot})"]
+        elif not plots_available():
+            lines += ["", f"No plot was drawn: {PLOTS_HINT}."]
         return lines
+
+    def output_files(self, plot: bool = True) -> dict[str, str | bytes]:
+        """Content of ``nested.json`` and ``nested.png`` by file name.
+
+        ``nested.png`` is one figure of two panels: :meth:`plot` (per outer search, the
+        in-search estimate beside the nested score) and :meth:`plot_selection` (the
+        share of outer searches choosing each measurement). It is left out when ``plot``
+        is False or matplotlib is not installed; it is drawn on a bare matplotlib
+        Figure, so the backend is never changed.
+
+        Examples
+        --------
+        >>> ne = NestedEvaluation([0.9, 0.8], [0.9, 0.9], [["a"], ["a", "b"]], [1.0, 3.0],
+        ...                       {"a": 1.0, "b": 0.5}, 0.4, "EUR", "accuracy")
+        >>> sorted(ne.output_files(plot=False))
+        ['nested.json']
+        """
+        files: dict[str, str | bytes] = {"nested.json": self.to_json() + "\n"}
+        png = figure_png(self._draw_figure, (11, 4.5)) if plot else None
+        if png is not None:
+            files["nested.png"] = png
+        return files
+
+    def _draw_figure(self, fig: Any) -> None:
+        left, right = fig.subplots(1, 2, gridspec_kw={"width_ratios": [3, 2]})
+        self.plot(ax=left)
+        self.plot_selection(ax=right)
+
+    def write(self, folder: str | os.PathLike | RunFolder, plot: bool = True) -> list[Path]:
+        """Write ``nested.json`` (strict JSON: NaN as null) and, with matplotlib,
+        ``nested.png`` (see :meth:`output_files`).
+
+        Files are written atomically, never through a symbolic link
+        (:func:`featuresift.outputs.write_files`). Returns only the paths written.
+        """
+        return write_files(folder, self.output_files(plot=plot))
 
     def plot(self, ax=None):
         """Draw, per outer search, the in-search score beside the nested score.

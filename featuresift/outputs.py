@@ -51,7 +51,7 @@ import os
 import re
 import secrets
 import stat
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -67,6 +67,7 @@ __all__ = [
     "LOCK_NAME",
     "PLOTS_HINT",
     "RunFolder",
+    "figure_png",
     "latest_run",
     "open_run_folder",
     "plots_available",
@@ -101,6 +102,33 @@ def plots_available() -> bool:
     except ImportError:
         return False
     return True
+
+
+def figure_png(draw: Callable[[Any], Any], figsize: tuple[float, float]) -> bytes | None:
+    """PNG bytes of a figure drawn by ``draw(figure)``; None without matplotlib.
+
+    The figure is a bare :class:`matplotlib.figure.Figure`: no pyplot, so the user's
+    matplotlib backend is never changed. The bytes go to a file through
+    :func:`write_files` (atomic, never through a link).
+
+    Examples
+    --------
+    >>> png = figure_png(lambda fig: fig.subplots().plot([0, 1]), (2, 2))
+    >>> png is None or png[:8] == b"\\x89PNG\\r\\n\\x1a\\n"
+    True
+    """
+    if not plots_available():
+        return None
+    import io
+
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=figsize)
+    draw(fig)
+    fig.tight_layout()
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=120)
+    return buf.getvalue()
 
 
 def _symlink_error(path: str | os.PathLike) -> InputError:

@@ -120,6 +120,7 @@ def render_report(
     source: str | None = None,
     chosen_heading: str = "Chosen measurements",
     frontier_plot: str | None = "frontier.png",
+    nested_plot: str | None = None,
 ) -> str:
     """Markdown text of the report.
 
@@ -143,6 +144,10 @@ def render_report(
     frontier_plot : str or None, default="frontier.png"
         File name of the sweep's plot beside the report; None when no plot was drawn
         (the report then says how to get one instead of linking a missing image).
+    nested_plot : str or None, default=None
+        File name of the nested estimate's figure beside the report (``nested.png``,
+        :meth:`NestedEvaluation.output_files <featuresift.nested.NestedEvaluation.output_files>`);
+        None links none (and, without matplotlib, says how to get plots).
 
     Examples
     --------
@@ -201,7 +206,7 @@ def render_report(
          for r in result.path],
     )
     if nested is not None:
-        lines += ["", *nested.to_markdown()]
+        lines += ["", *nested.to_markdown(plot=nested_plot)]
     if frontier is not None:
         lines += ["", *frontier.to_markdown(plot=frontier_plot)]
     if feature_table is not None:

@@ -254,6 +254,65 @@ def test_sweep_without_matplotlib_lists_no_plot_and_links_none(tmp_path, capsys,
         "files"]
 
 
+def _nested_config(tmp_path):
+    # One measurement per search, no noise guard: the 2 outer searches stay short.
+    return _config(tmp_path, strategy={"name": "forward", "options": {"n_features": 1}},
+                   engine={"progress": False, "journal": False}, guard="off")
+
+
+def test_nested_png_written_listed_and_linked_by_run_and_sweep(tmp_path, capsys):
+    import matplotlib.image
+    import matplotlib.pyplot as plt
+
+    path = _nested_config(tmp_path)
+    figures = plt.get_fignums()
+    assert main(["run", str(path), "--nested", "2"]) == 0
+    assert main(["sweep", str(path), "--budgets", "3,none", "--nested", "2"]) == 0
+    out = capsys.readouterr().out
+    assert plt.get_fignums() == figures  # drawn on bare Figures: pyplot never used
+    root = tmp_path / "out"
+    for folder, text in zip((latest_run(root, "run"), latest_run(root, "sweep")),
+                            out.split("Results written to ")[1:]):
+        png = folder / "nested.png"
+        # Reference: matplotlib's own PNG reader; 11 x 4.5 inches at 120 dpi.
+        assert matplotlib.image.imread(png).shape[:2] == (540, 1320)
+        assert "nested.png" in text.splitlines()[0]
+        report = (folder / "report.md").read_text()
+        nested_section = report.split("## Honest estimate (nested cross-validation)")[1]
+        assert "](nested.png)" in nested_section.split("\n## ")[0]
+        assert "No nested.png" not in text and "featuresift[plots]" not in report
+    assert "nested.png" in json.loads((root / "latest.json").read_text())["files"]
+    run_files = sorted(p.name for p in latest_run(root, "run").iterdir())
+    assert run_files == ["nested.json", "nested.png", "path.csv", "report.md",
+                         "result.json", "selected.csv"]
+
+
+def test_nested_without_matplotlib_lists_no_plot_and_links_none(tmp_path, capsys,
+                                                                monkeypatch):
+    path = _nested_config(tmp_path)
+    for name in [m for m in sys.modules if m == "matplotlib" or m.startswith("matplotlib.")]:
+        monkeypatch.setitem(sys.modules, name, None)
+    monkeypatch.setitem(sys.modules, "matplotlib", None)
+    assert main(["run", str(path), "--nested", "2"]) == 0
+    run_out = capsys.readouterr().out
+    assert main(["sweep", str(path), "--budgets", "3,none", "--nested", "2"]) == 0
+    sweep_out = capsys.readouterr().out
+    hint = 'plots need matplotlib: pip install "featuresift[plots]"'
+    assert f"No nested.png: {hint}" in run_out
+    assert f"No frontier.png or nested.png: {hint}" in sweep_out
+    root = tmp_path / "out"
+    for folder, text in zip((latest_run(root, "run"), latest_run(root, "sweep")),
+                            (run_out, sweep_out)):
+        assert "nested.png" not in text.split("Results written to ")[1].splitlines()[0]
+        assert not (folder / "nested.png").exists()
+        report = (folder / "report.md").read_text()
+        nested_section = report.split("## Honest estimate (nested cross-validation)")[1]
+        assert "nested.png" not in report
+        assert 'No plot was drawn: plots need matplotlib: pip install "featuresift[plots]"' \
+            in nested_section.split("\n## ")[0]
+    assert "nested.png" not in json.loads((root / "latest.json").read_text())["files"]
+
+
 # ------------------------------------------------------------------ failures
 def test_failing_run_leaves_an_existing_folder_exactly_as_it_was(tmp_path, capsys):
     path = _config(tmp_path)

@@ -138,16 +138,19 @@ def write_run_files(out: RunFolder, cfg: RunConfig, result: SearchResult,
     """Write the files of one ``run`` into an open :class:`~featuresift.outputs.RunFolder`.
 
     ``result.json``, ``selected.csv``, ``path.csv``, ``report.md`` and, with a nested
-    estimate, ``nested.json``. Returns the paths written (the caller commits ``out``).
+    estimate, ``nested.json`` and (with matplotlib) ``nested.png``. Returns the paths
+    written (the caller commits ``out``).
     """
 
     from featuresift.report import write_report
 
     written = result.write(out)
-    written.append(write_report(out, result, nested=nested, source=str(cfg.path)))
-    if nested is not None:
-        written += out.write_files(
-            {"nested.json": nested.to_json() + "\n"})  # strict JSON: NaN as null
+    # nested.json (strict JSON: NaN as null) and, with matplotlib, nested.png.
+    files = {} if nested is None else nested.output_files()
+    written.append(write_report(out, result, nested=nested, source=str(cfg.path),
+                                nested_plot="nested.png" if "nested.png" in files else None))
+    if files:
+        written += out.write_files(files)
     return written
 
 

@@ -186,8 +186,9 @@ def write_sweep_files(out: RunFolder, cfg: RunConfig, frontier: Any) -> list[Pat
     """Write the files of one ``sweep`` into an open :class:`~featuresift.outputs.RunFolder`.
 
     ``frontier.csv``, ``frontier_choices.csv``, ``frontier.json``, ``frontier.png``
-    (only when matplotlib is installed; the report then says how to get it instead of
-    linking a missing image) and ``report.md``. Returns the paths written (the caller
+    and, with a nested estimate, ``nested.png`` (plots only when matplotlib is
+    installed; the report then says how to get them instead of linking a missing
+    image) and ``report.md``. Returns the paths written (the caller
     commits ``out``).
     """
     from featuresift.report import write_report
@@ -208,12 +209,18 @@ def write_sweep_files(out: RunFolder, cfg: RunConfig, frontier: Any) -> list[Pat
         heading = f"No point fits the run's budget; highest-scoring (budget {budget})"
     written = frontier.write(out)
     plotted = any(p.name == "frontier.png" for p in written)
+    nested_png = None
+    if frontier.nested is not None:  # its numbers are in frontier.json: only the figure
+        png = frontier.nested.output_files().get("nested.png")
+        if png is not None:
+            written += out.write_files({"nested.png": png})
+            nested_png = "nested.png"
     if (frontier.guard or {}).get("name", "off") != "off":
         # The sweep's searches run without the guard; the sweep applies it to its headline.
         shown = dataclasses.replace(shown, guard=dict(frontier.guard))
     written.append(write_report(
         out, shown, frontier=frontier, nested=frontier.nested, source=str(cfg.path),
         title="featuresift budget sweep", chosen_heading=heading,
-        frontier_plot="frontier.png" if plotted else None,
+        frontier_plot="frontier.png" if plotted else None, nested_plot=nested_png,
     ))
     return written
