@@ -233,16 +233,9 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
                                      nested_repeats=args.nested_repeats)
         written = write_sweep_files(folder, cfg, frontier)
         final = folder.commit()
-    frame = frontier.to_frame()
-    table = frame[["budget", "n_selected", "cost", "score_mean", "score_sem", "efficient"]]
-    table = table.assign(pick=["headline" if h else ("best (any budget)" if b else "")
-                               for h, b in zip(frame["headline"], frame["best"])])
-    table = table.rename(columns={"score_mean": f"{frontier.scoring} (in-search)",
-                                  "score_sem": "s.e."})
     out.write(f"\nScores: {score_label('in-search', frontier.scoring)} — each search's own "
               "CV of its choice.\n")
-    out.write(table.to_string(index=False, na_rep="unlimited",
-                              float_format=lambda v: f"{v:.4g}") + "\n\n")
+    out.write(_frontier_table(frontier) + "\n\n")
     for line in frontier.answer_lines():
         out.write(line + "\n")
     choices = frontier.choice_frequency()
@@ -258,6 +251,35 @@ def cmd_sweep(args: argparse.Namespace, out: TextIO) -> int:
     engine = frontier.results[-1].extras.get("engine") if frontier.results else None
     _write_footer(out, folder, final, written, engine)
     return 0
+
+
+def _frontier_table(frontier) -> str:
+    """The sweep's points as text, in the words of report.md's frontier table."""
+    frame = frontier.to_frame()
+
+    def num(v: float, fmt: str) -> str:
+        return format(v, fmt) if math.isfinite(v) else "—"
+
+    columns = [  # (header, cells, right-aligned)
+        ("budget", ["unlimited" if math.isnan(b) else f"{b:g}" for b in frame["budget"]],
+         True),
+        ("measurements", [str(n) for n in frame["n_selected"]], True),
+        ("cost", [num(c, "g") for c in frame["cost"]], True),
+        (f"{frontier.scoring} (in-search)", [num(v, ".4f") for v in frame["score_mean"]],
+         True),
+        ("± s.e.", [num(v, ".4f") for v in frame["score_sem"]], True),
+        ("pick", frontier.pick_marks(), False),
+        ("efficient", frontier.efficiency_notes(), False),
+    ]
+    rows = []
+    for i in range(-1, len(frame)):
+        cells = []
+        for head, values, right in columns:
+            width = max([len(head), *map(len, values)])
+            text = head if i < 0 else values[i]
+            cells.append(text.rjust(width) if right else text.ljust(width))
+        rows.append("  ".join(cells).rstrip())
+    return "\n".join(rows) + f"\n(costs in {frontier.cost_unit})"
 
 
 def cmd_screen(args: argparse.Namespace, out: TextIO) -> int:

@@ -183,18 +183,24 @@ def efficient_points(costs: Sequence[float], scores: Sequence[float]) -> list[bo
     >>> efficient_points([1.0, 3.0, 3.0, 3.0, 3.0], [0.7, 0.8, 0.8, 0.8, 0.8])
     [True, True, False, False, False]
     """
-    out = []
+    return [math.isfinite(s) and not d for s, d in zip(scores, _dominators(costs, scores))]
+
+
+def _dominators(costs: Sequence[float], scores: Sequence[float]) -> list[list[int]]:
+    """For each point, the points that make it not efficient (module docstring's rule):
+    a strictly cheaper one scoring at least as well, one of the same cost scoring
+    higher, or an earlier one of the same cost and score. Empty for a non-finite score
+    (never efficient, dominated by nothing)."""
+    out: list[list[int]] = []
     for i, (c, s) in enumerate(zip(costs, scores)):
-        ok = math.isfinite(s)
+        found: list[int] = []
         for j, (c2, s2) in enumerate(zip(costs, scores)):
-            if not ok:
-                break
-            if j == i or not math.isfinite(s2):
+            if not math.isfinite(s) or j == i or not math.isfinite(s2):
                 continue
             same = abs(c2 - c) <= _COST_TOL * max(1.0, abs(c))
             if (c2 < c and not same and s2 >= s) or (same and (s2 > s or (s2 == s and j < i))):
-                ok = False
-        out.append(ok)
+                found.append(j)
+        out.append(found)
     return out
 
 
@@ -474,6 +480,62 @@ class Frontier:
             })
         return pd.DataFrame(rows)
 
+    def pick_marks(self) -> list[str]:
+        """Per point, "headline", "best at any budget" or "" (the ``pick`` column of the
+        console table and report.md)."""
+        head, best = self.headline_index, self.best_index
+        return ["headline" if i == head else ("best at any budget" if i == best else "")
+                for i in range(len(self.results))]
+
+    def efficiency_notes(self) -> list[str]:
+        """Per point, "yes" when it is efficient, else "no: " and which point makes it so.
+
+        The words of the ``efficient`` column of the console table and of report.md
+        (``frontier.csv`` keeps its True/False column). The point named is one of those
+        the rule of :func:`efficient_points` finds against it: a budget that chose the
+        same measurements first, else the cheapest efficient one, else the first.
+
+        Examples
+        --------
+        Budget 1 twice (each measurement costs 1 by default), then 2:
+
+        >>> from sklearn.datasets import load_iris
+        >>> from sklearn.naive_bayes import GaussianNB
+        >>> data = load_iris()
+        >>> fr = budget_sweep(SelectionProblem(data.data, data.target, GaussianNB(), cv=3),
+        ...                   [1, 1, 2], "forward")
+        >>> fr.efficiency_notes()
+        ['yes', 'no: same choice as at budget 1', 'yes']
+        """
+        costs = [r.cost for r in self.results]
+        scores = [r.score_mean for r in self.results]
+        eff = efficient_points(costs, scores)
+        notes = []
+        for i, (r, found) in enumerate(zip(self.results, _dominators(costs, scores))):
+            if eff[i]:
+                notes.append("yes")
+                continue
+            if not found:
+                notes.append("no: in-search score undefined (failed fits)")
+                continue
+            same_set = [j for j in found if set(self.results[j].selected) == set(r.selected)]
+            on_front = sorted((j for j in found if eff[j]), key=lambda j: (costs[j], j))
+            j = (same_set or on_front or found)[0]
+            b = "unlimited" if self.budgets[j] is None else f"{self.budgets[j]:g}"
+            if j in same_set:
+                notes.append(f"no: same choice as at budget {b}")
+                continue
+            same_cost = abs(costs[j] - costs[i]) <= _COST_TOL * max(1.0, abs(costs[i]))
+            if same_cost and scores[j] == scores[i]:
+                notes.append(f"no: ties the choice at budget {b} (same cost and in-search "
+                             "score), listed first")
+                continue
+            cost = "same cost" if same_cost else "cheaper"
+            score = "higher" if scores[j] > scores[i] else "same"
+            notes.append(f"no: below the choice at budget {b}: {cost}, {score} in-search "
+                         "score")
+        return notes
+
     def csv_frame(self):
         """:meth:`to_frame` as ``frontier.csv`` holds it: ``selected`` joined with " + "
         (empty when the search bought nothing).
@@ -666,21 +728,21 @@ class Frontier:
             *[f"- {s}" for s in self.answer_lines()],
             "",
             f"| budget | measurements | cost ({u}) | {self.scoring} ({SCORE_KIND}) | ± s.e. "
-            "| efficient | pick |",
+            "| pick | efficient |",
             "|---|---|---|---|---|---|---|",
         ]
-        for r in frame.itertuples():
-            mark = "headline" if r.headline else ("best at any budget" if r.best else "")
+        for r, mark, note in zip(frame.itertuples(), self.pick_marks(),
+                                 self.efficiency_notes()):
             lines.append(
                 f"| {'unlimited' if math.isnan(r.budget) else f'{r.budget:g}'} | "
                 f"{_joined(r.selected)} | {cell(r.cost, 2)} | {cell(r.score_mean, 4)} | "
-                f"{cell(r.score_sem, 4)} | {'yes' if r.efficient else ''} | {mark} |"
+                f"{cell(r.score_sem, 4)} | {mark} | {note} |"
             )
         for r in self.reference_frame().itertuples():
             lines.append(
                 f"| reference: {r.reference} | {_joined(r.selected)} | "
-                f"{cell(r.cost, 2)} | {cell(r.score_mean, 4)} | {cell(r.score_sem, 4)} | | "
-                f"{'headline' if r.headline else ''} |"
+                f"{cell(r.cost, 2)} | {cell(r.score_mean, 4)} | {cell(r.score_sem, 4)} | "
+                f"{'headline' if r.headline else ''} | |"
             )
         choices = self.choice_frequency()
         lines += ["", "How often each measurement was chosen across the budgets:", "",

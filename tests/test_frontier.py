@@ -82,6 +82,47 @@ def _point(cost, mean, sem, selected, budget):
                         0.0, "done")
 
 
+def test_efficiency_notes_name_the_point_that_makes_a_point_not_efficient():
+    from featuresift.cli import _frontier_table
+
+    # Hand-made frontier; the expected words are worked out by hand from the documented
+    # rule (module docstring of featuresift.frontier), point by point.
+    rows = [  # budget, cost, score, chosen, expected
+        (1.0, 1.0, 0.78, ["a"], "yes"),
+        (3.0, 3.0, 0.80, ["a", "b"], "yes"),
+        (5.0, 3.0, 0.80, ["b", "a"], "no: same choice as at budget 3"),
+        (6.0, 0.1 + 0.2, 0.65, ["c"],  # 0.30000000000000004 is the cost 0.3 below
+         "no: below the choice at budget 7: same cost, higher in-search score"),
+        (7.0, 0.3, 0.75, ["d"], "yes"),
+        (8.0, 6.0, 0.80, ["a", "e"],  # budgets 3 and 5 both beat it; 3 is efficient
+         "no: below the choice at budget 3: cheaper, same in-search score"),
+        (9.0, 7.0, float("nan"), ["f"], "no: in-search score undefined (failed fits)"),
+        (10.0, 9.0, 0.81, ["a", "b", "c"], "yes"),
+        (11.0, 1.0, 0.78, ["g"],
+         "no: ties the choice at budget 1 (same cost and in-search score), listed first"),
+        (None, 9.5, 0.79, ["a", "b", "d"],  # budgets 3 and 10 beat it: the cheaper named
+         "no: below the choice at budget 3: cheaper, higher in-search score"),
+    ]
+    pts = [_point(c, m, 0.01, sel, b) for b, c, m, sel, _ in rows]
+    fr = Frontier([r[0] for r in rows], pts, "EUR", "accuracy", 0, 0, pick="best")
+    notes = fr.efficiency_notes()
+    assert notes == [r[4] for r in rows]
+    # The words agree with the flags of frontier.csv, which stay True/False.
+    assert [n == "yes" for n in notes] == fr.to_frame()["efficient"].tolist() == \
+        efficient_points([r[1] for r in rows], [r[2] for r in rows])
+    assert set(fr.csv_frame()["efficient"]) == {True, False}
+    # The same words in report.md's table and in the console table.
+    report = "\n".join(fr.to_markdown(plot=None))
+    assert "| pick | efficient |" in report and "|  | no: same choice as at budget 3 |" in report
+    console = _frontier_table(fr).splitlines()
+    assert console[0].split() == ["budget", "measurements", "cost", "accuracy", "(in-search)",
+                                  "±", "s.e.", "pick", "efficient"]
+    assert console[3].split()[:5] == ["5", "2", "3", "0.8000", "0.0100"]
+    assert console[3].endswith("no: same choice as at budget 3")
+    assert console[-2].split()[:2] == ["unlimited", "3"] and console[-2].endswith(rows[-1][4])
+    assert "headline" in console[8] and console[-1] == "(costs in EUR)"
+
+
 def test_headline_follows_pick_rule_within_run_budget():
     pts = [_point(1.0, 0.70, 0.01, ["a"], 1.0), _point(4.0, 0.79, 0.01, ["a", "b"], 5.0),
            _point(9.0, 0.80, 0.01, ["a", "b", "c"], 10.0),

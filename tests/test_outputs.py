@@ -240,8 +240,17 @@ def test_sweep_without_matplotlib_lists_no_plot_and_links_none(tmp_path, capsys,
         monkeypatch.setitem(sys.modules, name, None)
     monkeypatch.setitem(sys.modules, "matplotlib", None)
     assert not outputs.plots_available()
-    assert main(["sweep", str(path), "--budgets", "3,none"]) == 0
+    # Budget 3 twice: the second search is the first one again (same choice).
+    assert main(["sweep", str(path), "--budgets", "3,3,none"]) == 0
     out = capsys.readouterr().out
+    # The console table speaks the report's words and says why a point is not efficient.
+    header = out.split("Scores: ")[1].splitlines()[1].split()
+    assert header == ["budget", "measurements", "cost", "roc_auc", "(in-search)", "±", "s.e.",
+                      "pick", "efficient"]
+    assert "n_selected" not in out and "score_sem" not in out and "False" not in out
+    same = "no: same choice as at budget 3"
+    assert out.split("Scores: ")[1].splitlines()[3].endswith(same)
+    assert f"| {same} |" in (latest_run(tmp_path / "out", "sweep") / "report.md").read_text()
     folder = latest_run(tmp_path / "out", "sweep")
     assert sorted(p.name for p in folder.iterdir()) == ["frontier.csv", "frontier.json",
                                                         "frontier_choices.csv", "report.md"]
