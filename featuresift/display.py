@@ -338,19 +338,22 @@ def _frontier_headline(fr: Any) -> str:
 
 def frontier_html(fr: Any) -> str:
     """HTML table: one row per budget (chosen measurements, cost, in-search score)."""
-    eff = _efficient_flags(fr)
-    head = getattr(fr, "headline_index", None)
-    best = getattr(fr, "best_index", None)
+    # The words of the console table and report.md (pick, and why a point is not
+    # efficient) when the object can give them.
+    if hasattr(fr, "efficiency_notes"):
+        marks, notes = fr.pick_marks(), fr.efficiency_notes()
+    else:
+        marks = [""] * len(fr.results)
+        notes = ["yes" if e else "no" for e in _efficient_flags(fr)]
     rows = []
-    for i, (b, r, e) in enumerate(zip(fr.budgets, fr.results, eff)):
-        mark = "headline" if i == head else ("best, over budget" if i == best else "")
+    for b, r, mark, note in zip(fr.budgets, fr.results, marks, notes):
         rows.append((_money(b), ", ".join(r.selected) or "(nothing)", f"{r.cost:g}",
                      _f(r.score_mean), _f(_sem(r.score_std, len(r.fold_scores))),
-                     "yes" if e else "", mark))
+                     mark, note))
     parts = [_table(
         [f"budget ({fr.cost_unit})", "chosen measurements", f"cost ({fr.cost_unit})",
-         f"score ({score_kind_label('in-search', fr.scoring)})", "SE", "cost-efficient",
-         "pick"],
+         f"score ({score_kind_label('in-search', fr.scoring)})", "± s.e.", "pick",
+         "efficient"],
         rows,
     )]
     if getattr(fr, "nested", None) is not None:

@@ -121,6 +121,9 @@ def test_efficiency_notes_name_the_point_that_makes_a_point_not_efficient():
     assert console[3].endswith("no: same choice as at budget 3")
     assert console[-2].split()[:2] == ["unlimited", "3"] and console[-2].endswith(rows[-1][4])
     assert "headline" in console[8] and console[-1] == "(costs in EUR)"
+    # And in the notebook's HTML table.
+    html = fr._repr_html_()
+    assert all(n in html for n in notes if n != "yes") and "± s.e." in html
 
 
 def test_headline_follows_pick_rule_within_run_budget():
