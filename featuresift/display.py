@@ -293,7 +293,7 @@ def _efficient_flags(fr: Any) -> list[bool]:
 
 
 def frontier_repr(fr: Any) -> str:
-    """One line: budgets, cost and in-search score ranges, cost-efficient points.
+    """One line: budgets, cost and in-search score ranges, efficient points.
 
     Examples
     --------
@@ -301,7 +301,7 @@ def frontier_repr(fr: Any) -> str:
     >>> r = [NS(cost=1.0, score_mean=0.7), NS(cost=3.0, score_mean=0.9)]
     >>> fr = NS(budgets=[1, None], results=r, cost_unit="EUR", scoring="accuracy")
     >>> print(frontier_repr(fr))
-    Frontier(2 budgets 1-unlimited, cost 1-3, accuracy 0.7000-0.9000 in-search, 2 cost-efficient, costs in EUR)
+    Frontier(2 budgets 1-unlimited, cost 1-3, accuracy 0.7000-0.9000 in-search, 2 efficient, costs in EUR)
     """  # noqa: E501
     costs = [r.cost for r in fr.results]
     scores = [r.score_mean for r in fr.results if math.isfinite(r.score_mean)]
@@ -311,7 +311,7 @@ def frontier_repr(fr: Any) -> str:
     score = (f"{fr.scoring} {_span(scores, '{:.4f}')} in-search, " if scores else "")
     # The unit once, at the end: a long unit ("EUR per lot (...)") no longer triples.
     return (f"Frontier({len(fr.budgets)} budgets {_money(lo_b)}-{_money(hi_b)}, "
-            f"{span}{score}{sum(_efficient_flags(fr))} cost-efficient"
+            f"{span}{score}{sum(_efficient_flags(fr))} efficient"
             f"{_frontier_headline(fr)}, costs in {fr.cost_unit})")
 
 

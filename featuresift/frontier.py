@@ -785,7 +785,7 @@ class Frontier:
             label="chosen subset per budget (± 1 s.e.)",
         )
         ax.step(eff["cost"], eff["score_mean"], where="post", color="tab:green",
-                label="cost-efficient choices")
+                label="efficient choices")
         ax.plot(eff["cost"], eff["score_mean"], "o", color="tab:green", zorder=4)
         for _, row in eff.iterrows():
             ax.annotate(f"{int(row['n_selected'])}", (row["cost"], row["score_mean"]),
