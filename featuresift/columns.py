@@ -38,7 +38,7 @@ from sklearn.pipeline import Pipeline
 from sklearn.utils import get_tags
 from sklearn.utils.metaestimators import available_if
 
-__all__ = ["ColumnSpec", "TypedColumns", "encode_frame", "decode_columns",
+__all__ = ["ColumnSpec", "TypedColumns", "encode_frame", "non_numeric_columns", "decode_columns",
            "needs_frame", "narrow_column_transformer"]
 
 
@@ -66,13 +66,30 @@ class ColumnSpec:
 _NUMERIC = ColumnSpec("numeric")
 
 
-def _is_numeric(series: Any) -> bool:
+def _is_numeric(dtype: Any) -> bool:
     import pandas as pd
 
-    dtype = series.dtype
     if isinstance(dtype, pd.CategoricalDtype):
         return False
     return bool(pd.api.types.is_numeric_dtype(dtype) or pd.api.types.is_bool_dtype(dtype))
+
+
+def non_numeric_columns(X: Any) -> list[int]:
+    """Positions of a DataFrame's categorical and text columns (none for arrays).
+
+    They are the columns :func:`encode_frame` stores as codes.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> frame = pd.DataFrame({"ph": [6.5, 7.0], "breed": pd.Categorical(["a", "b"]),
+    ...                       "farm": ["x", "y"], "fat": pd.array([1.0, None], "Float64")})
+    >>> non_numeric_columns(frame), non_numeric_columns(frame.to_numpy())
+    ([1, 2], [])
+    """
+    if not (hasattr(X, "dtypes") and hasattr(X, "columns")):
+        return []
+    return [j for j, dtype in enumerate(X.dtypes) if not _is_numeric(dtype)]
 
 
 def encode_frame(frame: Any) -> tuple[np.ndarray, list[ColumnSpec]]:
@@ -95,7 +112,7 @@ def encode_frame(frame: Any) -> tuple[np.ndarray, list[ColumnSpec]]:
     specs: list[ColumnSpec] = []
     for j, name in enumerate(frame.columns):
         col = frame[name]
-        if _is_numeric(col):
+        if _is_numeric(col.dtype):
             try:
                 out[:, j] = col.to_numpy(dtype=float, na_value=np.nan)
             except (TypeError, ValueError) as exc:

@@ -21,7 +21,7 @@ from sklearn.utils import get_tags
 from sklearn.utils.validation import check_is_fitted, validate_data
 
 from featuresift._compat import warn_renamed
-from featuresift.columns import needs_frame
+from featuresift.columns import needs_frame, non_numeric_columns
 from featuresift.costs import CostModel, make_cost_model
 from featuresift.errors import FitFailedError, InputError
 from featuresift.guard import DEFAULT_GUARD
@@ -60,17 +60,6 @@ def _accepts_nan(estimator: Any) -> bool:
         return bool(get_tags(estimator).input_tags.allow_nan)
     except (AttributeError, TypeError, ValueError):
         return False
-
-
-def _has_text_columns(X: Any) -> bool:
-    """A DataFrame with a categorical, text or other non-numeric column."""
-    if not (hasattr(X, "columns") and hasattr(X, "dtypes")):
-        return False
-    import pandas as pd
-
-    return any(isinstance(d, pd.CategoricalDtype)
-               or not (pd.api.types.is_numeric_dtype(d) or pd.api.types.is_bool_dtype(d))
-               for d in X.dtypes)
 
 
 def buy_nothing_message(result: Any) -> str:
@@ -402,7 +391,7 @@ class MeasurementSelector(SelectorMixin, MetaEstimatorMixin, BaseEstimator):
         as scikit-learn's selectors return it (see ``set_output``). When the answer is to
         buy nothing, 0 columns, with a :class:`BuyNothingWarning`.
         """
-        if _has_text_columns(X):
+        if non_numeric_columns(X):
             validate_data(self, X, skip_check_array=True, reset=False)
             return self._transform(X)
         return super().transform(X)

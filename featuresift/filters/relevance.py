@@ -843,11 +843,9 @@ _TABLE_SCALES: dict[str, Callable] = {
 
 def categorical_columns(X: Any) -> list[int]:
     """Positions of a DataFrame's category and text columns (none for arrays)."""
-    if not (hasattr(X, "dtypes") and hasattr(X, "columns")):
-        return []
-    from featuresift.columns import encode_frame
+    from featuresift.columns import non_numeric_columns
 
-    return [j for j, spec in enumerate(encode_frame(X.iloc[:1])[1]) if spec.kind != "numeric"]
+    return non_numeric_columns(X)
 
 
 def categorical_chi_square(codes: np.ndarray, y: np.ndarray, task: str,
